@@ -1,0 +1,5 @@
+"""`python -m chainlint`."""
+
+from chainlint.cli import main
+
+main()

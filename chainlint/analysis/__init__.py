@@ -1,0 +1,1 @@
+"""Analysis results (plain immutable data) and the driver that produces them per file."""

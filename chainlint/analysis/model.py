@@ -1,0 +1,99 @@
+"""The plain, immutable result of analysing files: what reporters and the rewriter consume.
+
+Positions are 1-based lines and 1-based character (code point) columns; an end column points
+one past the last character, as in LSP and SARIF regions.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from chainlint.ir import Node
+
+
+@dataclass(frozen=True)
+class Span:
+    line: int
+    column: int
+    end_line: int
+    end_column: int
+
+
+@dataclass(frozen=True)
+class Barrier:
+    """Why a step may not move: `frame` (reads the frame it receives), `opaque` (not understood)
+    or `foreign` (a mask computed on another frame)."""
+
+    kind: str
+    reason: str
+
+
+@dataclass(frozen=True)
+class Step:
+    """One row filter of a chain.
+
+    `span` covers the step's own text (`.loc[...]`, `[...]`, `.query(...)`, `.dropna(...)`),
+    `statement` is the index of its statement within a statement run (0 in a method chain),
+    `mask_frame` says, for masks, whether the mask is built from the frame the step filters
+    (`own`), from the chain's first frame (`outer`), or from another frame (`foreign`).
+    """
+
+    kind: str
+    span: Span
+    predicate: Node
+    barrier: Barrier | None = None
+    mask_frame: str | None = None
+    statement: int = 0
+
+    @property
+    def movable(self) -> bool:
+        return self.barrier is None
+
+    @property
+    def columns(self) -> tuple[str, ...]:
+        return tuple(sorted(self.predicate.columns()))
+
+
+@dataclass(frozen=True)
+class Chain:
+    """A maximal run of two or more row filters applied to one frame.
+
+    `form` is `method` for one expression (`df[a].query(b)`) or `statements` for a run of
+    assignments (`x = df[a]` / `x = x[b]`); `frame` is the source text of the first frame.
+    """
+
+    path: str
+    span: Span
+    frame: str
+    form: str
+    steps: tuple[Step, ...]
+
+    def segments(self) -> tuple[tuple[int, ...], ...]:
+        """Indices of the movable steps, grouped into the runs between barriers."""
+        groups: list[tuple[int, ...]] = []
+        current: list[int] = []
+        for index, step in enumerate(self.steps):
+            if step.movable:
+                current.append(index)
+            else:
+                if current:
+                    groups.append(tuple(current))
+                current = []
+        if current:
+            groups.append(tuple(current))
+        return tuple(groups)
+
+
+@dataclass(frozen=True)
+class FileError:
+    path: str
+    line: int
+    column: int
+    message: str
+
+
+@dataclass(frozen=True)
+class FileAnalysis:
+    path: str
+    chains: tuple[Chain, ...] = ()
+    errors: tuple[FileError, ...] = ()

@@ -1,0 +1,58 @@
+"""Analyse files: read, screen, parse, find. One file's failure never stops the others."""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterable, Sequence
+from concurrent.futures import ProcessPoolExecutor
+import multiprocessing
+
+from chainlint.analysis.model import FileAnalysis, FileError
+from chainlint.find.chains import find_chains
+from chainlint.find.screen import find_seams
+from chainlint.parse.source import DEFAULT_MAX_BYTES, SourceError, SourceText, parse_tree, read_source
+
+#: Below this many files a process pool costs more than it saves.
+_POOL_THRESHOLD = 16
+
+
+def analyse_source(source: SourceText) -> FileAnalysis:
+    """Find the chains of an already decoded file (the editor's in-memory text, say)."""
+    seams = find_seams(source.text)
+    if seams.empty:
+        return FileAnalysis(source.path)
+    try:
+        tree = parse_tree(source)
+        chains = find_chains(source, tree, seams)
+    except SourceError as error:
+        return FileAnalysis(source.path, errors=(FileError(source.path, error.line, error.column, error.message),))
+    except RecursionError:
+        message = "nesting too deep to analyse"
+        return FileAnalysis(source.path, errors=(FileError(source.path, 1, 1, message),))
+    return FileAnalysis(source.path, chains=tuple(chains))
+
+
+def analyse_file(path: str, max_bytes: int = DEFAULT_MAX_BYTES) -> FileAnalysis:
+    try:
+        source = read_source(path, max_bytes)
+    except SourceError as error:
+        return FileAnalysis(path, errors=(FileError(path, error.line, error.column, error.message),))
+    return analyse_source(source)
+
+
+def _analyse_job(job: tuple[str, int]) -> FileAnalysis:
+    return analyse_file(*job)
+
+
+def analyse_files(paths: Sequence[str], jobs: int | None = None, max_bytes: int = DEFAULT_MAX_BYTES) -> list[FileAnalysis]:
+    """Analyse files, in a process pool when there are enough of them; results in path order."""
+    workers = jobs or os.cpu_count() or 1
+    work = [(path, max_bytes) for path in paths]
+    results: Iterable[FileAnalysis]
+    if workers <= 1 or len(work) < _POOL_THRESHOLD:
+        results = map(_analyse_job, work)
+        return list(results)
+    context = multiprocessing.get_context("fork" if "fork" in multiprocessing.get_all_start_methods() else None)
+    with ProcessPoolExecutor(max_workers=workers, mp_context=context) as pool:
+        chunk = max(1, len(work) // (workers * 8))
+        return list(pool.map(_analyse_job, work, chunksize=chunk))

@@ -1,0 +1,1 @@
+"""The finder: a textual screen, then chains of row filters located in the `ast`."""

@@ -1,0 +1,227 @@
+"""Find every chain of row filters in a parsed module.
+
+Two forms: a method chain (`df[a].query(b)`, found at its outermost step) and a statement run
+(`x = df[a]` then `x = x[b]`, consecutive statements of one block). Only statements whose lines
+meet a seam of the textual screen are walked; the screen proves the others hold no chain.
+"""
+
+from __future__ import annotations
+
+import ast
+from dataclasses import dataclass
+
+from chainlint.analysis.model import Chain, Span, Step
+from chainlint.find.predicates import dotted_name
+from chainlint.find.screen import Seams
+from chainlint.find.steps import Names, Shape, StepContext, build_step, peel
+from chainlint.parse.source import SourceText
+
+
+def find_chains(source: SourceText, tree: ast.Module, seams: Seams) -> list[Chain]:
+    """All chains of the module, in source order."""
+    finder = _Finder(source, seams, _module_names(tree))
+    finder.block(tree.body)
+    return sorted(finder.chains, key=lambda c: (c.span.line, c.span.column))
+
+
+def _module_names(tree: ast.Module) -> Names:
+    modules: set[str] = set()
+    pandas: set[str] = set()
+    functions: dict[str, str] = {}
+    for node in tree.body:
+        statements = [node]
+        if isinstance(node, (ast.If, ast.Try)):
+            statements = list(node.body) + list(node.orelse)
+        for statement in statements:
+            if isinstance(statement, ast.Import):
+                for alias in statement.names:
+                    bound = alias.asname or alias.name.split(".")[0]
+                    modules.add(bound)
+                    if alias.name == "pandas":
+                        pandas.add(bound)
+            elif isinstance(statement, ast.ImportFrom) and statement.module:
+                for alias in statement.names:
+                    bound = alias.asname or alias.name
+                    if statement.module == "pandas":
+                        functions[bound] = "pandas." + alias.name
+                    elif statement.module.split(".")[0] != "pandas":
+                        modules.add(bound)
+    return Names(frozenset(modules), frozenset(pandas), tuple(sorted(functions.items())))
+
+
+@dataclass(frozen=True)
+class _Decomposed:
+    base: ast.expr
+    shapes: tuple[Shape, ...]
+
+
+class _Finder:
+    def __init__(self, source: SourceText, seams: Seams, names: Names) -> None:
+        self.source = source
+        self.seams = seams
+        self.names = names
+        self.chains: list[Chain] = []
+        self.absorbed: set[int] = set()
+
+    # -- positions ------------------------------------------------------------------------
+    def text_of(self, node: ast.AST) -> str:
+        text = self.source.segment(
+            (node.lineno, node.col_offset),  # type: ignore[attr-defined]
+            (node.end_lineno, node.end_col_offset),  # type: ignore[attr-defined]
+        )
+        return " ".join(text.split())
+
+    def node_span(self, node: ast.AST) -> Span:
+        source = self.source
+        return Span(
+            node.lineno,  # type: ignore[attr-defined]
+            source.column(node.lineno, node.col_offset),  # type: ignore[attr-defined]
+            node.end_lineno,  # type: ignore[attr-defined]
+            source.column(node.end_lineno, node.end_col_offset),  # type: ignore[attr-defined]
+        )
+
+    def step_span(self, shape: Shape) -> Span:
+        """From the `.` or `[` that opens the step to the end of the step."""
+        source = self.source
+        inner = shape.inner
+        offset = source.offset(inner.end_lineno, inner.end_col_offset)  # type: ignore[arg-type]
+        text = source.text
+        while offset < len(text):
+            char = text[offset]
+            if char in ".[":
+                break
+            if char == "#":
+                newline = text.find("\n", offset)
+                offset = len(text) if newline < 0 else newline
+                continue
+            offset += 1
+        line, column = source.position(offset)
+        end = self.node_span(shape.node)
+        return Span(line, column, end.end_line, end.end_column)
+
+    # -- walking --------------------------------------------------------------------------
+    def block(self, statements: list[ast.stmt]) -> None:
+        self.runs(statements)
+        for statement in statements:
+            if self.seams.meets(statement.lineno, statement.end_lineno or statement.lineno):
+                self.node(statement)
+
+    def node(self, node: ast.AST) -> None:
+        for _, value in ast.iter_fields(node):
+            if isinstance(value, list):
+                if value and isinstance(value[0], ast.stmt):
+                    self.block(value)
+                    continue
+                for item in value:
+                    if isinstance(item, ast.expr):
+                        self.expression(item)
+                    elif isinstance(item, ast.AST):
+                        self.node(item)
+            elif isinstance(value, ast.expr):
+                self.expression(value)
+            elif isinstance(value, ast.AST):
+                self.node(value)
+
+    def expression(self, root: ast.expr) -> None:
+        stack: list[ast.AST] = [root]
+        while stack:
+            node = stack.pop()
+            if isinstance(node, ast.expr) and not self.seams.meets(node.lineno, node.end_lineno or node.lineno):
+                continue
+            decomposed = self.decompose(node)
+            if decomposed is None:
+                stack.extend(ast.iter_child_nodes(node))
+                continue
+            if id(node) not in self.absorbed and len(decomposed.shapes) >= 2:
+                self.chains.append(self.method_chain(node, decomposed))
+            stack.append(decomposed.base)
+            for shape in decomposed.shapes:
+                stack.extend(_arguments(shape.node))
+
+    def decompose(self, node: ast.AST) -> _Decomposed | None:
+        shapes = []
+        current = node
+        while (shape := peel(current, self.names)) is not None:
+            shapes.append(shape)
+            current = shape.inner
+        if not shapes:
+            return None
+        return _Decomposed(current, tuple(reversed(shapes)))
+
+    # -- building chains ------------------------------------------------------------------
+    def method_chain(self, node: ast.expr, decomposed: _Decomposed) -> Chain:
+        frame = self.text_of(decomposed.base)
+        root = dotted_name(decomposed.base)
+        outer = frozenset([root]) if root else frozenset()
+        steps = self.steps(decomposed, root, outer, statement=0)
+        return Chain(self.source.path, self.node_span(node), frame, "method", steps)
+
+    def steps(
+        self, decomposed: _Decomposed, own: str | None, outer: frozenset[str], statement: int
+    ) -> tuple[Step, ...]:
+        built = []
+        for index, shape in enumerate(decomposed.shapes):
+            context = StepContext(
+                own=own if index == 0 else None,
+                outer=outer,
+                names=self.names,
+                text_of=self.text_of,
+                span=self.step_span(shape),
+                statement=statement,
+            )
+            built.append(build_step(shape, context))
+        return tuple(built)
+
+    def runs(self, statements: list[ast.stmt]) -> None:
+        index = 0
+        while index < len(statements):
+            first = self.assignment(statements[index])
+            if first is None:
+                index += 1
+                continue
+            target = first[0]
+            members = [(statements[index], first[1])]
+            following = index + 1
+            while following < len(statements):
+                later = self.assignment(statements[following])
+                if later is None or later[0] != target or dotted_name(later[1].base) != target:
+                    break
+                members.append((statements[following], later[1]))
+                following += 1
+            if len(members) >= 2 and self.seams.meets(members[0][0].lineno, members[-1][0].end_lineno or 0):
+                self.chains.append(self.statement_run(members))
+                for statement, _ in members:
+                    self.absorbed.add(id(statement.value))  # type: ignore[attr-defined]
+            index = following if len(members) >= 2 else index + 1
+
+    def statement_run(self, members: list[tuple[ast.stmt, _Decomposed]]) -> Chain:
+        first_base = members[0][1].base
+        root = dotted_name(first_base)
+        steps: list[Step] = []
+        for number, (_, decomposed) in enumerate(members):
+            own = dotted_name(decomposed.base)
+            outer = frozenset(name for name in (root, own) if name)
+            steps.extend(self.steps(decomposed, own, outer, statement=number))
+        start = self.node_span(members[0][0])
+        end = self.node_span(members[-1][0])
+        span = Span(start.line, start.column, end.end_line, end.end_column)
+        return Chain(self.source.path, span, self.text_of(first_base), "statements", tuple(steps))
+
+    def assignment(self, statement: ast.stmt) -> tuple[str, _Decomposed] | None:
+        """`(x, steps)` for a statement `x = <expression ending in filter steps>`."""
+        if not isinstance(statement, ast.Assign) or len(statement.targets) != 1:
+            return None
+        target = statement.targets[0]
+        if not isinstance(target, ast.Name):
+            return None
+        decomposed = self.decompose(statement.value)
+        return None if decomposed is None else (target.id, decomposed)
+
+
+def _arguments(node: ast.expr) -> list[ast.AST]:
+    """The parts of a step that may hold chains of their own (masks, lambdas, call arguments)."""
+    if isinstance(node, ast.Subscript):
+        return [node.slice]
+    if isinstance(node, ast.Call):
+        return list(node.args) + [k.value for k in node.keywords]
+    return []

@@ -1,0 +1,137 @@
+"""Read the text of `DataFrame.query` into predicate IR.
+
+pandas query syntax is Python expression syntax plus backtick-quoted column names, `@name`
+locals, and `&` / `|` with the precedence of `and` / `or`. We replace those lexically with
+placeholders (outside string literals), parse with `ast` in eval mode, and map positions back
+so that opaque parts keep their original text.
+"""
+
+from __future__ import annotations
+
+import ast
+import bisect
+
+from chainlint.find.predicates import Converted, Dialect, convert
+from chainlint.ir import Opaque
+from chainlint.analysis.model import Barrier
+
+
+class _Rewritten:
+    """The query text after lexical replacement, and a map back to the original offsets."""
+
+    def __init__(self, original: str) -> None:
+        self.original = original
+        self.pieces: list[str] = ["("]
+        self.length = 1
+        # (new_start, new_end, old_start, old_end) for every piece after the opening paren.
+        self.segments: list[tuple[int, int, int, int]] = []
+        self.columns: dict[str, str] = {}
+        self.locals: dict[str, str] = {}
+
+    def add(self, new: str, old_start: int, old_end: int) -> None:
+        self.segments.append((self.length, self.length + len(new), old_start, old_end))
+        self.pieces.append(new)
+        self.length += len(new)
+
+    def text(self) -> str:
+        return "".join(self.pieces) + ")"
+
+    def original_offset(self, new_offset: int, end: bool) -> int:
+        starts = [segment[0] for segment in self.segments]
+        i = max(0, bisect.bisect_right(starts, new_offset - (1 if end else 0)) - 1)
+        if not self.segments:
+            return 0
+        new_start, new_end, old_start, old_end = self.segments[i]
+        if new_end - new_start == old_end - old_start:
+            return old_start + min(max(new_offset - new_start, 0), old_end - old_start)
+        return old_end if end else old_start
+
+
+def _rewrite(query: str) -> _Rewritten:
+    out = _Rewritten(query)
+    i = 0
+    plain_start = 0
+
+    def flush(upto: int) -> None:
+        if upto > plain_start:
+            out.add(query[plain_start:upto].replace("\n", " ").replace("\r", " "), plain_start, upto)
+
+    while i < len(query):
+        char = query[i]
+        if char in "'\"":
+            i = _string_end(query, i)
+            continue
+        if char == "`":
+            end = query.find("`", i + 1)
+            if end < 0:
+                raise SyntaxError("unclosed backtick")
+            flush(i)
+            placeholder = f"__chainlint_c{len(out.columns)}"
+            out.columns[placeholder] = query[i + 1 : end]
+            out.add(placeholder, i, end + 1)
+            i = plain_start = end + 1
+            continue
+        if char == "@":
+            end = i + 1
+            while end < len(query) and (query[end].isalnum() or query[end] == "_"):
+                end += 1
+            flush(i)
+            placeholder = f"__chainlint_l{len(out.locals)}"
+            out.locals[placeholder] = query[i + 1 : end]
+            out.add(placeholder, i, end)
+            i = plain_start = end
+            continue
+        if char in "&|":
+            flush(i)
+            out.add(" and " if char == "&" else " or ", i, i + 1)
+            i = plain_start = i + 1
+            continue
+        i += 1
+    flush(len(query))
+    return out
+
+
+def _string_end(text: str, start: int) -> int:
+    quote = text[start]
+    if text.startswith(quote * 3, start):
+        end = text.find(quote * 3, start + 3)
+        return len(text) if end < 0 else end + 3
+    i = start + 1
+    while i < len(text):
+        if text[i] == "\\":
+            i += 2
+            continue
+        if text[i] == quote:
+            return i + 1
+        i += 1
+    return len(text)
+
+
+def convert_query(query: str, pandas: frozenset[str], pandas_functions: dict[str, str]) -> Converted:
+    """Convert query text; text that does not parse becomes an opaque barrier."""
+    try:
+        rewritten = _rewrite(query)
+        text = rewritten.text()
+        tree = ast.parse(text, mode="eval")
+    except (SyntaxError, ValueError, RecursionError, MemoryError) as error:
+        message = error.msg if isinstance(error, SyntaxError) else "too deeply nested"
+        return Converted(Opaque(query), [Barrier("opaque", f"the query text does not parse: {message}")], False)
+    encoded = text.encode("utf-8")
+    ascii_text = text.isascii()
+
+    def char_offset(byte_offset: int) -> int:
+        return byte_offset if ascii_text else len(encoded[:byte_offset].decode("utf-8", errors="replace"))
+
+    def text_of(node: ast.AST) -> str:
+        start = rewritten.original_offset(char_offset(node.col_offset), end=False)
+        end = rewritten.original_offset(char_offset(node.end_col_offset), end=True)
+        return " ".join(query[start:end].split())
+
+    dialect = Dialect(
+        query=True,
+        columns=rewritten.columns,
+        locals=rewritten.locals,
+        pandas=pandas,
+        pandas_functions=pandas_functions,
+    )
+    return convert(tree.body, dialect, text_of)

@@ -1,0 +1,86 @@
+"""A textual screen in front of the parser: most files hold no chain and need no `ast.parse`.
+
+A chain has two adjacent steps, so its text shows one of two seams:
+- in a method chain, the `]` or `)` that ends a step, then only blanks, comments, backslash
+  continuations or closing parentheses, then `[` or `.loc` / `.query` / `.dropna`;
+- in a statement run, the `]` or `)` that ends a statement, then a statement `x = x[...]` /
+  `x = x.loc` / `.query` / `.dropna` (only blanks, comments, `;` and `)` between).
+The screen looks for these seams with possessive regular expressions (linear time). It is
+conservative by construction: it may pass a file without a chain, never the reverse, which a
+property test checks against the finder. A subscript whose whole content is a literal, a name,
+a slice or a list (`x[0]`, `x["a"]`, `x[i:j]`, `x[["a"]]`) is never a step and is not a seam.
+
+The seams also tell the finder where to look: only statements whose lines meet a seam are
+walked. Non-ASCII text is first NFKC-normalised, as Python normalises identifiers, and every
+non-ASCII character becomes `x`: seams are ASCII, and merging names can only add matches.
+"""
+
+from __future__ import annotations
+
+import bisect
+import re
+import unicodedata
+
+_GAP = r"(?:[\s)\\]++|#[^\r\n]*+)*+"
+_GAP_STATEMENT = r"(?:[\s);\\]++|#[^\r\n]*+)*+"
+_GAP_OPEN = r"(?:[\s(\\]++|#[^\r\n]*+)*+"
+_BLANK = r"(?:[\s\\]++|#[^\r\n]*+)*+"
+_METHOD = r"\." + _BLANK + r"(?:loc|query|dropna)(?!\w)"
+_LITERAL = r"""(?:-?\d[\w.]*|\w+(?:\.\w+)*|'[^'\r\n\\]*'|"[^"\r\n\\]*")"""
+_NEVER_A_STEP = r"\s*+(?:" + _LITERAL + r"\s*+[\],:]|[:\[])"
+
+_METHOD_SEAM = re.compile(r"[\])]" + _GAP + r"(?:\[(?!" + _NEVER_A_STEP + r")|" + _METHOD + r")")
+_RUN_SEAM = re.compile(
+    r"[\])]" + _GAP_STATEMENT + r"([A-Za-z_]\w*+)" + _BLANK + r"=(?!=)" + _GAP_OPEN + r"\1(?!\w)"
+    + _GAP + r"(?:\[|" + _METHOD + r")"
+)
+_NON_ASCII = re.compile(r"[^\x00-\x7f]")
+_NEWLINE = re.compile(r"\r\n|\r|\n")
+
+
+class Seams:
+    """Line spans (1-based, inclusive) where the screen saw a seam; `None` spans: look everywhere."""
+
+    __slots__ = ("_starts", "_ends")
+
+    def __init__(self, spans: list[tuple[int, int]] | None) -> None:
+        if spans is None:
+            self._starts: list[int] | None = None
+            self._ends: list[int] = []
+            return
+        merged: list[list[int]] = []
+        for start, end in sorted(spans):
+            if merged and start <= merged[-1][1] + 1:
+                merged[-1][1] = max(merged[-1][1], end)
+            else:
+                merged.append([start, end])
+        self._starts = [s for s, _ in merged]
+        self._ends = [e for _, e in merged]
+
+    @property
+    def empty(self) -> bool:
+        return self._starts is not None and not self._starts
+
+    def meets(self, first_line: int, last_line: int) -> bool:
+        """Whether any seam lies within lines first_line..last_line."""
+        if self._starts is None:
+            return True
+        i = bisect.bisect_right(self._starts, last_line) - 1
+        return i >= 0 and self._ends[i] >= first_line
+
+
+def find_seams(text: str) -> Seams:
+    """Screen a source text; `Seams.empty` means the file cannot hold a chain."""
+    if not text.isascii():
+        text = _NON_ASCII.sub("x", unicodedata.normalize("NFKC", text))
+    matches = [m.span() for m in _METHOD_SEAM.finditer(text)]
+    matches += [m.span() for m in _RUN_SEAM.finditer(text)]
+    if not matches:
+        return Seams([])
+    line_starts = [0] + [m.end() for m in _NEWLINE.finditer(text)]
+    spans = []
+    for start, end in matches:
+        first = bisect.bisect_right(line_starts, start)
+        last = bisect.bisect_right(line_starts, max(start, end - 1))
+        spans.append((first, last))
+    return Seams(spans)

@@ -1,0 +1,248 @@
+"""The predicate IR: small immutable nodes that print canonically.
+
+The canonical text is the key under which statistics are stored and looked up, so every node
+prints one way only and `chainlint.ir.text.parse_predicate` reads that text back to an equal node.
+Constructors do no normalisation; the finder builds nodes in normal form (column on the left of
+a comparison, `and`/`or` flattened) and the canonical parser keeps that form.
+"""
+
+from __future__ import annotations
+
+import keyword
+import math
+from dataclasses import dataclass
+from typing import Union
+
+LiteralValue = Union[str, int, float, bool, None]
+
+#: Words of the canonical grammar that a column name must not print as bare.
+RESERVED = frozenset({"between", "inclusive", "null", "opaque", "is", "in", "not", "and", "or"})
+
+COMPARE_OPS = ("==", "!=", "<", "<=", ">", ">=")
+MIRRORED = {"==": "==", "!=": "!=", "<": ">", "<=": ">=", ">": "<", ">=": "<="}
+ARITH_OPS = ("+", "-", "*", "/", "//", "%", "**")
+INCLUSIVE = ("both", "neither", "left", "right")
+STRING_METHODS = ("startswith", "endswith", "contains", "match", "fullmatch")
+
+
+class Node:
+    """Base of every IR node."""
+
+    __slots__ = ()
+
+    def columns(self) -> frozenset[str]:
+        """The column names this node reads."""
+        found: set[str] = set()
+        _collect_columns(self, found)
+        return frozenset(found)
+
+    def canonical(self) -> str:
+        return _print(self)
+
+    def __str__(self) -> str:
+        return _print(self)
+
+
+@dataclass(frozen=True, slots=True)
+class Column(Node):
+    name: str
+
+
+@dataclass(frozen=True, slots=True)
+class Literal(Node):
+    value: LiteralValue
+
+    def __eq__(self, other: object) -> bool:
+        # 1 == True == 1.0 in Python; the IR keeps the literal's type apart.
+        if not isinstance(other, Literal):
+            return NotImplemented
+        return type(self.value) is type(other.value) and _same_value(self.value, other.value)
+
+    def __hash__(self) -> int:
+        return hash((type(self.value).__name__, self.value))
+
+
+@dataclass(frozen=True, slots=True)
+class Named(Node):
+    """A value chainlint cannot resolve statically: a name, a dotted constant, or `@x`."""
+
+    name: str
+
+
+@dataclass(frozen=True, slots=True)
+class Arith(Node):
+    op: str
+    left: Node
+    right: Node
+
+
+@dataclass(frozen=True, slots=True)
+class Compare(Node):
+    op: str
+    left: Node
+    right: Node
+
+
+@dataclass(frozen=True, slots=True)
+class Member(Node):
+    """`isin`, `in` and `not in`; `values` is a tuple of literals or one named value."""
+
+    operand: Node
+    values: tuple[Node, ...] | Named
+    negated: bool = False
+
+
+@dataclass(frozen=True, slots=True)
+class Range(Node):
+    """`Series.between(low, high, inclusive=...)`."""
+
+    operand: Node
+    low: Node
+    high: Node
+    inclusive: str = "both"
+
+
+@dataclass(frozen=True, slots=True)
+class NullTest(Node):
+    """`isna()` / `isnull()`; negated for `notna()` / `notnull()` and `dropna(subset=...)`."""
+
+    operand: Node
+    negated: bool = False
+
+
+@dataclass(frozen=True, slots=True)
+class StrTest(Node):
+    """A `.str` predicate; `options` holds the keyword arguments given, sorted by name."""
+
+    operand: Node
+    method: str
+    pattern: Node
+    options: tuple[tuple[str, Node], ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class Not(Node):
+    operand: Node
+
+
+@dataclass(frozen=True, slots=True)
+class And(Node):
+    parts: tuple[Node, ...]
+
+
+@dataclass(frozen=True, slots=True)
+class Or(Node):
+    parts: tuple[Node, ...]
+
+
+@dataclass(frozen=True, slots=True)
+class Opaque(Node):
+    """A part chainlint does not model; it keeps its source text."""
+
+    text: str
+
+
+#: Node types whose value is a boolean mask (what a row filter needs at its top).
+PREDICATE_TYPES = (Compare, Member, Range, NullTest, StrTest, Not, And, Or)
+
+
+def _same_value(a: LiteralValue, b: LiteralValue) -> bool:
+    if isinstance(a, float) and isinstance(b, float) and math.isnan(a) and math.isnan(b):
+        return True
+    return a == b
+
+
+def _collect_columns(node: Node, found: set[str]) -> None:
+    if isinstance(node, Column):
+        found.add(node.name)
+    elif isinstance(node, (Arith, Compare)):
+        _collect_columns(node.left, found)
+        _collect_columns(node.right, found)
+    elif isinstance(node, Member):
+        _collect_columns(node.operand, found)
+    elif isinstance(node, Range):
+        for part in (node.operand, node.low, node.high):
+            _collect_columns(part, found)
+    elif isinstance(node, (NullTest, StrTest, Not)):
+        _collect_columns(node.operand, found)
+    elif isinstance(node, (And, Or)):
+        for part in node.parts:
+            _collect_columns(part, found)
+
+
+def is_plain_name(name: str) -> bool:
+    """Whether a column name prints bare (else it is quoted in backticks)."""
+    return name.isidentifier() and not keyword.iskeyword(name) and name not in RESERVED
+
+
+def format_column(name: str) -> str:
+    if is_plain_name(name):
+        return name
+    return "`" + name.replace("`", "``") + "`"
+
+
+def format_literal(value: LiteralValue) -> str:
+    if isinstance(value, float):
+        if math.isinf(value):
+            return "1e999" if value > 0 else "-1e999"
+        if math.isnan(value):
+            return "nan"
+        return repr(value)
+    return repr(value)
+
+
+def _operand(node: Node) -> str:
+    """Print an operand of a comparison or arithmetic, parenthesising nested arithmetic."""
+    text = _print(node)
+    return f"({text})" if isinstance(node, Arith) else text
+
+
+def _bool_part(node: Node, parent: type) -> str:
+    text = _print(node)
+    if isinstance(node, (And, Or)) and not isinstance(node, parent):
+        return f"({text})"
+    return text
+
+
+def _print(node: Node) -> str:
+    if isinstance(node, Column):
+        return format_column(node.name)
+    if isinstance(node, Literal):
+        return format_literal(node.value)
+    if isinstance(node, Named):
+        return "@" + node.name
+    if isinstance(node, Opaque):
+        return f"opaque({node.text!r})"
+    if isinstance(node, Arith):
+        return f"{_operand(node.left)} {node.op} {_operand(node.right)}"
+    if isinstance(node, Compare):
+        return f"{_operand(node.left)} {node.op} {_operand(node.right)}"
+    if isinstance(node, Member):
+        word = "not in" if node.negated else "in"
+        if isinstance(node.values, Named):
+            values = _print(node.values)
+        elif len(node.values) == 1:
+            values = f"({_print(node.values[0])},)"
+        else:
+            values = "(" + ", ".join(_print(v) for v in node.values) + ")"
+        return f"{_operand(node.operand)} {word} {values}"
+    if isinstance(node, Range):
+        text = f"{_operand(node.operand)} between {_operand(node.low)} and {_operand(node.high)}"
+        if node.inclusive != "both":
+            text += f" inclusive {node.inclusive!r}"
+        return text
+    if isinstance(node, NullTest):
+        return f"{_operand(node.operand)} is {'not ' if node.negated else ''}null"
+    if isinstance(node, StrTest):
+        args = [_print(node.pattern)] + [f"{key}={_print(value)}" for key, value in node.options]
+        return f"{_operand(node.operand)}.str.{node.method}({', '.join(args)})"
+    if isinstance(node, Not):
+        inner = _print(node.operand)
+        if isinstance(node.operand, (And, Or)):
+            inner = f"({inner})"
+        return f"not {inner}"
+    if isinstance(node, And):
+        return " and ".join(_bool_part(part, And) for part in node.parts)
+    if isinstance(node, Or):
+        return " or ".join(_bool_part(part, Or) for part in node.parts)
+    raise TypeError(f"not an IR node: {node!r}")

@@ -1,0 +1,130 @@
+"""Read a Python file as text, and parse it with `ast` when the finder needs the tree.
+
+Every failure becomes a `SourceError` with a 1-based line and column, so that one bad file is
+reported and the run goes on. Nothing here imports or runs the code it reads.
+"""
+
+from __future__ import annotations
+
+import ast
+import bisect
+import io
+import os
+import re
+import tokenize
+from dataclasses import dataclass
+from functools import cached_property
+
+#: Files larger than this are reported, not parsed: they are almost always generated.
+DEFAULT_MAX_BYTES = 4 * 1024 * 1024
+
+_NEWLINE = re.compile(r"\r\n|\r|\n")
+
+
+class SourceError(Exception):
+    """A file that could not be read or parsed, with the place to show the user."""
+
+    def __init__(self, message: str, line: int = 1, column: int = 1) -> None:
+        super().__init__(message)
+        self.message = message
+        self.line = max(1, line)
+        self.column = max(1, column)
+
+
+@dataclass(frozen=True)
+class SourceText:
+    """A decoded source file and how to turn `ast` byte offsets into character columns."""
+
+    path: str
+    text: str
+    encoding: str
+    lines: tuple[str, ...]
+
+    def column(self, line: int, byte_offset: int) -> int:
+        """1-based character column of a UTF-8 byte offset (as `ast` gives) on a 1-based line."""
+        text = self.lines[line - 1] if 0 < line <= len(self.lines) else ""
+        if text.isascii():
+            return byte_offset + 1
+        return len(text.encode("utf-8")[:byte_offset].decode("utf-8", errors="replace")) + 1
+
+    def offset(self, line: int, byte_offset: int) -> int:
+        """0-based character offset into `text` of an `ast` position."""
+        return self.line_starts[line - 1] + self.column(line, byte_offset) - 1
+
+    def position(self, offset: int) -> tuple[int, int]:
+        """1-based line and character column of a 0-based character offset into `text`."""
+        line = bisect.bisect_right(self.line_starts, offset)
+        return line, offset - self.line_starts[line - 1] + 1
+
+    @cached_property
+    def line_starts(self) -> list[int]:
+        starts = [0]
+        for line in self.lines[:-1]:
+            starts.append(starts[-1] + len(line))
+        return starts
+
+    def segment(self, start: tuple[int, int], end: tuple[int, int]) -> str:
+        """The source text between two `ast` positions (line, byte offset)."""
+        return self.text[self.offset(*start) : self.offset(*end)]
+
+
+def read_source(path: str, max_bytes: int = DEFAULT_MAX_BYTES) -> SourceText:
+    """Read and decode a Python file (PEP 263 cookie or BOM respected)."""
+    try:
+        with open(path, "rb") as handle:
+            data = handle.read(max_bytes + 1)
+    except OSError as error:
+        raise SourceError(f"cannot read file: {error.strerror or error}") from None
+    if len(data) > max_bytes:
+        size = os.path.getsize(path) if os.path.exists(path) else len(data)
+        raise SourceError(
+            f"file is {size / 1e6:.1f} MB, over the {max_bytes / 1e6:.1f} MB limit "
+            "(likely generated; raise the limit with --max-file-size)"
+        )
+    return decode_source(path, data)
+
+
+def decode_source(path: str, data: bytes) -> SourceText:
+    """Decode source bytes the way Python does; errors name the line and column."""
+    try:
+        encoding, _ = tokenize.detect_encoding(io.BytesIO(data).readline)
+    except SyntaxError as error:
+        raise SourceError(error.msg, error.lineno or 1) from None
+    try:
+        text = data.decode(encoding)
+    except UnicodeDecodeError as error:
+        line = data.count(b"\n", 0, error.start) + 1
+        line_start = data.rfind(b"\n", 0, error.start) + 1
+        column = len(data[line_start : error.start].decode(encoding, errors="replace")) + 1
+        raise SourceError(f"cannot decode as {encoding}: invalid byte 0x{data[error.start]:02x}", line, column) from None
+    except LookupError:
+        raise SourceError(f"unknown encoding {encoding!r}") from None
+    nul = text.find("\0")
+    if nul >= 0:
+        line = len(_NEWLINE.findall(text, 0, nul)) + 1
+        column = nul - max(text.rfind("\n", 0, nul), text.rfind("\r", 0, nul))
+        raise SourceError("file contains a NUL byte", line, column)
+    lines = tuple(_split_lines(text))
+    return SourceText(path=path, text=text, encoding=encoding, lines=lines)
+
+
+def _split_lines(text: str) -> list[str]:
+    """Lines with their terminators, split where Python's tokenizer splits them."""
+    lines = []
+    start = 0
+    for match in _NEWLINE.finditer(text):
+        lines.append(text[start : match.end()])
+        start = match.end()
+    lines.append(text[start:])
+    return lines
+
+
+def parse_tree(source: SourceText) -> ast.Module:
+    """Parse with `ast`; syntax errors and overly deep nesting become SourceError."""
+    try:
+        return ast.parse(source.text, filename=source.path)
+    except SyntaxError as error:
+        message = error.msg or "invalid syntax"
+        raise SourceError(f"syntax error: {message}", error.lineno or 1, error.offset or 1) from None
+    except (RecursionError, MemoryError):
+        raise SourceError("nesting too deep to parse") from None

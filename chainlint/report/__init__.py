@@ -1,0 +1,1 @@
+"""Reporters: they only format analysis results, never analyse."""

@@ -1,0 +1,91 @@
+"""The finder over a fixture corpus of every step form and every non-chain.
+
+Each chain in `fixtures/finder/forms.py` is announced by a `# expect:` comment on the line
+above it; `non_chains.py` must yield nothing.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from chainlint.analysis.run import analyse_file
+
+FIXTURES = Path(__file__).parent / "fixtures" / "finder"
+
+
+def _expectations(path: Path) -> dict[int, list[tuple[str, bool]]]:
+    expected = {}
+    for number, line in enumerate(path.read_text(encoding="utf-8").splitlines(), start=1):
+        stripped = line.strip()
+        if stripped.startswith("# expect:"):
+            steps = []
+            for part in stripped[len("# expect:"):].split(" ;; "):
+                part = part.strip()
+                steps.append((part.lstrip("!"), not part.startswith("!")))
+            expected[number + 1] = steps
+    return expected
+
+
+def test_every_form_is_found_with_its_predicates_and_barriers() -> None:
+    path = FIXTURES / "forms.py"
+    expected = _expectations(path)
+    result = analyse_file(str(path))
+    assert result.errors == ()
+    found = {
+        chain.span.line: [(step.predicate.canonical(), step.movable) for step in chain.steps]
+        for chain in result.chains
+    }
+    assert sorted(found) == sorted(expected)
+    for line, steps in expected.items():
+        assert found[line] == steps, f"chain at line {line}"
+
+
+def test_non_chains_are_not_reported() -> None:
+    result = analyse_file(str(FIXTURES / "non_chains.py"))
+    assert result.errors == ()
+    assert [(c.span.line, c.frame) for c in result.chains] == []
+
+
+@pytest.mark.parametrize(
+    ("source", "kinds", "mask_frames"),
+    [
+        ('df[df.a == 1][df.b == 2]\n', ["getitem_mask", "getitem_mask"], ["own", "outer"]),
+        ('df.loc[df.a == 1].loc[lambda d: d.b == 2]\n', ["loc_mask", "loc_lambda"], ["own", None]),
+        ('df[df.a == 1][other.b == 2]\n', ["getitem_mask", "getitem_mask"], ["own", "foreign"]),
+        ('x = df.query("a == 1")\nx = x.dropna(subset=["b"])\n', ["query", "dropna"], [None, None]),
+    ],
+)
+def test_step_kinds_and_mask_frames(tmp_path: Path, source: str, kinds: list[str], mask_frames: list[str | None]) -> None:
+    path = tmp_path / "m.py"
+    path.write_text(source, encoding="utf-8")
+    (chain,) = analyse_file(str(path)).chains
+    assert [s.kind for s in chain.steps] == kinds
+    assert [s.mask_frame for s in chain.steps] == mask_frames
+
+
+def test_positions_are_one_based_code_point_columns(tmp_path: Path) -> None:
+    # Three two-byte letters before the chain: `ast` reports byte offsets, we report characters.
+    path = tmp_path / "m.py"
+    path.write_text('ééé = 1; out = df[df.a == 1].loc[lambda d: d.b > 2]\n', encoding="utf-8")
+    (chain,) = analyse_file(str(path)).chains
+    line = path.read_text(encoding="utf-8").splitlines()[0]
+    assert (chain.span.line, chain.span.column) == (1, line.index("df[") + 1)
+    assert chain.span.end_column == len(line) + 1
+    assert [s.span.column for s in chain.steps] == [line.index("[df") + 1, line.index(".loc") + 1]
+
+
+def test_barrier_reason_is_specific() -> None:
+    result = analyse_file(str(FIXTURES / "forms.py"))
+    reasons = {s.barrier.reason for c in result.chains for s in c.steps if s.barrier}
+    assert "reads the mean of `weight` over the rows it receives" in reasons
+    assert "ranks `b` among the rows it receives" in reasons
+    assert "reads the index" in reasons
+    assert "calls `tidy`, which chainlint does not know" in reasons
+
+
+def test_segments_split_at_barriers() -> None:
+    result = analyse_file(str(FIXTURES / "forms.py"))
+    chain = next(c for c in result.chains if len(c.steps) == 3 and not c.steps[1].movable)
+    assert chain.segments() == ((0,), (2,))
