@@ -3,7 +3,10 @@
 from __future__ import annotations
 
 import sys
+import time
 from collections.abc import Sequence
+from pathlib import Path
+from typing import NoReturn
 
 import click
 
@@ -11,6 +14,22 @@ from chainlint import __version__
 from chainlint.analysis.model import FileError
 from chainlint.analysis.run import analyse_files
 from chainlint.discover import discover
+from chainlint.profile.build import profile_dataset
+from chainlint.profile.columns import Settings
+from chainlint.profile.format import ProfileError
+from chainlint.profile.merge import merge_profiles
+from chainlint.profile.readers import BATCH_ROWS, DataError, open_dataset
+from chainlint.profile.store import (
+    StoreError,
+    check_name,
+    find_store,
+    list_profiles,
+    load_profile,
+    profile_path,
+    redaction_key,
+    save_profile,
+)
+from chainlint.report.profiles import profile_line, profile_summary
 from chainlint.report.explain import all_errors, explain_json, explain_text, summary
 
 EXIT_OK, EXIT_FINDINGS, EXIT_ERROR = 0, 1, 2
@@ -51,3 +70,113 @@ def explain(paths: Sequence[str], output_format: str, exclude: Sequence[str], ma
             click.echo(f"{error.path}:{error.line}:{error.column}: error: {error.message}", err=True)
         click.echo(summary(results, len({e.path for e in errors})))
     sys.exit(EXIT_ERROR if errors else EXIT_OK)
+
+
+class _Progress:
+    """Rows done, rows per second and elapsed time on a terminal; silent otherwise."""
+
+    def __init__(self, enabled: bool) -> None:
+        self.enabled = enabled
+        self.start = time.monotonic()
+        self.shown = 0.0
+
+    def __call__(self, rows: int) -> None:
+        now = time.monotonic()
+        if not self.enabled or now - self.shown < 0.1:
+            return
+        self.shown = now
+        elapsed = now - self.start
+        rate = rows / elapsed if elapsed > 0 else 0.0
+        click.echo(f"\r  {rows:>14,} rows  {rate:>12,.0f} rows/s  {elapsed:6.1f} s", nl=False, err=True)
+
+    def done(self) -> None:
+        if self.enabled:
+            click.echo("\r" + " " * 60 + "\r", nl=False, err=True)
+
+
+def _store(store: str | None) -> Path:
+    return Path(store) if store else find_store(".")
+
+
+def _fail(message: str) -> NoReturn:
+    click.echo(f"chainlint: error: {message}", err=True)
+    sys.exit(EXIT_ERROR)
+
+
+@main.command()
+@click.argument("data", nargs=-1, required=True)
+@click.option("--name", required=True, help="Profile name (the file is .chainlint/profiles/NAME.json).")
+@click.option("--store", type=click.Path(file_okay=False), help="Profile store folder (default: the project's .chainlint/).")
+@click.option("--min-count", type=click.IntRange(min=1), default=5, show_default=True,
+              help="Values with fewer rows than this are never written.")
+@click.option("--redact", multiple=True, metavar="COLUMN", help="Store this column's values only as keyed hashes; repeatable.")
+@click.option("--distinct-cap", type=click.IntRange(min=1), default=10_000, show_default=True,
+              help="Count values exactly up to this many distinct ones, then estimate.")
+@click.option("--top", type=click.IntRange(min=1), default=100, show_default=True, help="Most common values kept per column.")
+@click.option("--batch-rows", type=click.IntRange(min=1), default=BATCH_ROWS, show_default=True)
+def profile(data: Sequence[str], name: str, store: str | None, min_count: int, redact: Sequence[str],
+            distinct_cap: int, top: int, batch_rows: int) -> None:
+    """Gather column statistics from DATA (CSV, Parquet, Feather/Arrow, JSON Lines) into a profile."""
+    folder = _store(store)
+    try:
+        check_name(name)
+        key = redaction_key(folder, create=bool(redact))
+        settings = Settings(min_count=min_count, distinct_cap=distinct_cap, top=top,
+                            redact=frozenset(redact), redaction_key=key)
+        dataset = open_dataset(data, batch_rows=batch_rows)
+        progress = _Progress(sys.stderr.isatty())
+        document = profile_dataset(dataset, name, settings, progress)
+        progress.done()
+        path, changed = save_profile(folder, document)
+    except (DataError, StoreError, ProfileError) as error:
+        _fail(str(error))
+    state = "written" if changed else "unchanged"
+    click.echo(f"profile {name}: {document['rows']:,} rows, {len(document['columns'])} columns -> {path} ({state})")
+
+
+@main.group(invoke_without_command=True)
+@click.option("--store", type=click.Path(file_okay=False), help="Profile store folder (default: the project's .chainlint/).")
+@click.pass_context
+def profiles(context: click.Context, store: str | None) -> None:
+    """List the store's profiles; `show NAME` summarises one, `merge NAME PART...` combines parts."""
+    context.obj = _store(store)
+    if context.invoked_subcommand is None:
+        found = list_profiles(context.obj)
+        if not found:
+            click.echo(f"no profiles in {context.obj}")
+        failed = False
+        for path in found:
+            try:
+                click.echo(profile_line(path, load_profile(path)))
+            except ProfileError as error:
+                click.echo(f"chainlint: error: {error}", err=True)
+                failed = True
+        sys.exit(EXIT_ERROR if failed else EXIT_OK)
+
+
+@profiles.command()
+@click.argument("name")
+@click.option("--top", type=click.IntRange(min=1), default=5, show_default=True, help="Top values shown per column.")
+@click.pass_obj
+def show(folder: Path, name: str, top: int) -> None:
+    """Summarise profile NAME: per column type, nulls, distinct, top values with shares, range."""
+    try:
+        document = load_profile(profile_path(folder, name))
+    except (ProfileError, StoreError) as error:
+        _fail(str(error))
+    click.echo(profile_summary(document, top), nl=False)
+
+
+@profiles.command()
+@click.argument("name")
+@click.argument("parts", nargs=-1, required=True)
+@click.pass_obj
+def merge(folder: Path, name: str, parts: Sequence[str]) -> None:
+    """Combine the profiles PARTS (names in the store) of one dataset into profile NAME."""
+    try:
+        check_name(name)
+        documents = [load_profile(profile_path(folder, part)) for part in parts]
+        path, changed = save_profile(folder, merge_profiles(documents, name))
+    except (ProfileError, StoreError) as error:
+        _fail(str(error))
+    click.echo(f"profile {name}: merged from {len(parts)} parts -> {path} ({'written' if changed else 'unchanged'})")

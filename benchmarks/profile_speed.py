@@ -1,0 +1,102 @@
+"""Profiling speed and memory against a bare pyarrow read of the same file, in one run.
+
+Data: a generated table of 2,000,000 rows x 40 columns (16 string columns with skewed value
+frequencies, 5 to 5,000 distinct; integers; floats; a date), written as Parquet and CSV.
+Goals: Parquet profile <= 3x `pyarrow.parquet.read_table`; CSV profile <= 1.5x
+`pyarrow.csv.read_csv`; profiling a file 4x as long raises peak RSS by at most 20%.
+Usage: python benchmarks/profile_speed.py [--rows N] [--skip-csv] [--skip-memory]
+"""
+
+from __future__ import annotations
+
+import argparse
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.csv as pacsv
+import pyarrow.parquet as pq
+
+
+def make_table(rows: int, seed: int = 7) -> pa.Table:
+    rng = np.random.default_rng(seed)
+    columns: dict[str, pa.Array] = {}
+    for index, distinct in enumerate(np.geomspace(5, 5000, 16).astype(int)):
+        ranks = np.minimum(rng.zipf(1.3, rows), distinct) - 1
+        labels = np.array([f"v{index}_{k}" for k in range(distinct)], dtype=object)
+        columns[f"s{index:02d}"] = pa.array(labels[ranks], pa.string())
+    for index in range(10):
+        high = [10, 100, 1000, 10**6, 10**9][index % 5]
+        columns[f"i{index:02d}"] = pa.array(rng.integers(0, high, rows))
+    for index in range(13):
+        values = rng.lognormal(2, 1, rows).round(index % 4 + 1)
+        mask = rng.random(rows) < 0.05 if index % 3 == 0 else None
+        columns[f"f{index:02d}"] = pa.array(values, mask=mask)
+    days = np.datetime64("2024-01-01") + rng.integers(0, 3 * 365, rows).astype("timedelta64[D]")
+    columns["day"] = pa.array(days)
+    return pa.table(columns)
+
+
+def timed(function) -> float:  # type: ignore[no-untyped-def]
+    start = time.perf_counter()
+    function()
+    return time.perf_counter() - start
+
+
+def profile_command(path: Path, store: Path) -> list[str]:
+    return [sys.executable, "-m", "chainlint", "profile", str(path), "--name", "bench", "--store", str(store)]
+
+
+def profile_seconds(path: Path, store: Path) -> float:
+    return timed(lambda: subprocess.run(profile_command(path, store), check=True, capture_output=True))
+
+
+def peak_rss_mb(path: Path, store: Path) -> float:
+    code = (
+        "import resource, sys, runpy; sys.argv = sys.argv[1:]; "
+        "sys.argv[0] = 'chainlint'\n"
+        "from chainlint.cli import main\n"
+        "try:\n    main()\nexcept SystemExit:\n    pass\n"
+        "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024)"
+    )
+    done = subprocess.run([sys.executable, "-c", code, *profile_command(path, store)[2:]], check=True, capture_output=True, text=True)
+    return float(done.stdout.strip().splitlines()[-1])
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--rows", type=int, default=2_000_000)
+    parser.add_argument("--skip-csv", action="store_true")
+    parser.add_argument("--skip-memory", action="store_true")
+    args = parser.parse_args()
+    with tempfile.TemporaryDirectory() as folder:
+        work = Path(folder)
+        table = make_table(args.rows)
+        parquet = work / "bench.parquet"
+        pq.write_table(table, parquet)
+        print(f"table: {args.rows:,} rows x {table.num_columns} columns; parquet {parquet.stat().st_size / 1e6:.0f} MB")
+        read = min(timed(lambda: pq.read_table(parquet)) for _ in range(3))
+        profile = profile_seconds(parquet, work / "store")
+        print(f"parquet: read_table {read:.2f} s, profile {profile:.2f} s, ratio {profile / read:.2f}x (goal <= 3x)")
+        if not args.skip_csv:
+            csv = work / "bench.csv"
+            pacsv.write_csv(table, csv)
+            read = min(timed(lambda: pacsv.read_csv(csv)) for _ in range(2))
+            profile = profile_seconds(csv, work / "store")
+            print(f"csv ({csv.stat().st_size / 1e6:.0f} MB): read_csv {read:.2f} s, profile {profile:.2f} s, ratio {profile / read:.2f}x (goal <= 1.5x)")
+            csv.unlink()
+        if not args.skip_memory:
+            long = work / "long.parquet"
+            with pq.ParquetWriter(long, table.schema) as writer:
+                for _ in range(4):
+                    writer.write_table(table)
+            base, grown = peak_rss_mb(parquet, work / "store"), peak_rss_mb(long, work / "store")
+            print(f"memory: peak RSS {base:.0f} MB for 1x, {grown:.0f} MB for 4x rows: +{(grown / base - 1):.0%} (goal <= +20%)")
+
+
+if __name__ == "__main__":
+    main()

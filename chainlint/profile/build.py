@@ -1,0 +1,61 @@
+"""Profile a dataset: stream its batches through one profiler per column."""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
+from datetime import UTC, datetime
+from typing import Any
+
+from chainlint import __version__
+from chainlint.profile.columns import ColumnProfiler, Settings
+from chainlint.profile.format import FORMAT_NAME, FORMAT_VERSION
+from chainlint.profile.readers import DataError, Dataset
+
+
+def profile_dataset(
+    dataset: Dataset, name: str, settings: Settings, progress: Callable[[int], None] | None = None
+) -> dict[str, Any]:
+    """The profile document of a dataset (see docs/profile-format.md)."""
+    unknown = sorted(settings.redact - set(dataset.schema.names))
+    if unknown:
+        raise DataError(f"--redact names no column of the data: {', '.join(unknown)}")
+    expected = dataset.expected_rows or 0
+    profilers = [ColumnProfiler(field.name, field.type, settings, expected) for field in dataset.schema]
+    rows = 0
+    # Columns are independent and numpy/pyarrow release the GIL for the heavy work, so the
+    # columns of a batch are spread over threads.
+    with ThreadPoolExecutor(max_workers=os.cpu_count() or 1) as pool, ThreadPoolExecutor(max_workers=1) as reader:
+        batches = iter(dataset.batches)
+        ahead = reader.submit(next, batches, None)
+        while (batch := ahead.result()) is not None:
+            ahead = reader.submit(next, batches, None)  # read the next batch while this one is counted
+            list(pool.map(ColumnProfiler.add, profilers, batch.columns))
+            rows += batch.num_rows
+            if progress is not None:
+                progress(rows)
+    if rows == 0:
+        raise DataError(f"{dataset.files[0].path}: no data rows (header only or empty)")
+    return {
+        "format": FORMAT_NAME,
+        "format_version": FORMAT_VERSION,
+        "chainlint_version": __version__,
+        "name": name,
+        "created": datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "rows": rows,
+        "source": {
+            "kind": dataset.kind,
+            "files": [{"path": f.path, "bytes": f.bytes, "modified": f.modified} for f in dataset.files],
+            "fingerprint": dataset.fingerprint(),
+        },
+        "settings": {
+            "min_count": settings.min_count,
+            "distinct_cap": settings.distinct_cap,
+            "top": settings.top,
+            "buckets": settings.buckets,
+            "redacted": sorted(settings.redact),
+        },
+        "columns": {p.name: p.finish() for p in profilers},
+        "column_order": [p.name for p in profilers],
+    }

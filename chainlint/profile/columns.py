@@ -1,0 +1,333 @@
+"""Per-column statistics, accumulated batch by batch.
+
+A column starts exact: counts of every value (pre-aggregated per batch by pyarrow, or from
+dictionary indices with `bincount`, then added into one table keyed by a pandas Index). When its distinct count passes the cap it switches to
+summaries: a HyperLogLog for the distinct count and a weighted sample for quantiles and
+frequent values. What is written obeys the privacy rule (see `finish`).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import hmac
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from chainlint.profile.sketches import HyperLogLog, WeightedSample, hash64, hash_objects
+
+
+@dataclass(frozen=True)
+class Settings:
+    min_count: int = 5
+    distinct_cap: int = 10_000
+    top: int = 100
+    buckets: int = 100
+    redact: frozenset[str] = frozenset()
+    redaction_key: bytes = b""
+
+
+def value_kind(arrow_type: pa.DataType) -> str:
+    if pa.types.is_dictionary(arrow_type):
+        arrow_type = arrow_type.value_type
+    if pa.types.is_string(arrow_type) or pa.types.is_large_string(arrow_type):
+        return "string"
+    if pa.types.is_boolean(arrow_type):
+        return "boolean"
+    if pa.types.is_integer(arrow_type):
+        return "integer"
+    if pa.types.is_floating(arrow_type):
+        return "float"
+    if pa.types.is_timestamp(arrow_type) or pa.types.is_date(arrow_type):
+        return "temporal"
+    return "other"
+
+
+def pandas_type(arrow_type: pa.DataType, has_nulls: bool) -> str:
+    """The dtype pandas 3 gives this column when it reads the file."""
+    kind = value_kind(arrow_type)
+    if kind == "string":
+        return "str"
+    if kind == "integer" and has_nulls:
+        return "float64"
+    if kind == "boolean" and has_nulls:
+        return "object"
+    try:
+        return str(pa.schema([pa.field("c", arrow_type)]).empty_table().to_pandas().dtypes.iloc[0])
+    except (pa.ArrowNotImplementedError, TypeError, ValueError):
+        return "object"
+
+
+def redact_value(key: bytes, value: Any) -> str:
+    """The keyed hash under which a redacted value is stored and a literal is looked up."""
+    return "h:" + hmac.new(key, repr(value).encode("utf-8", "surrogatepass"), hashlib.sha256).hexdigest()[:16]
+
+
+class ColumnProfiler:
+    def __init__(self, name: str, arrow_type: pa.DataType, settings: Settings, expected_rows: int = 0) -> None:
+        self.name = name
+        self.arrow_type = arrow_type.value_type if pa.types.is_dictionary(arrow_type) else arrow_type
+        self.kind = value_kind(arrow_type)
+        self.settings = settings
+        self.rows = 0
+        self.nulls = 0
+        self.exact = self.kind != "other"
+        self.counter = _Counter()
+        self.hll = HyperLogLog()
+        self.sample: WeightedSample | None = None
+        self.low: Any = None
+        self.high: Any = None
+        self.expected_rows = expected_rows
+
+    # -- accumulation ---------------------------------------------------------------------
+    def add(self, array: pa.Array) -> None:
+        self.rows += len(array)
+        if self.kind == "other":
+            self.nulls += array.null_count
+            return
+        if self.kind == "temporal":
+            array = _temporal_ints(array)
+        if self.kind == "float" and pc.any(pc.is_nan(array)).as_py():
+            array = pc.if_else(pc.is_nan(array), pa.scalar(None, array.type), array)
+        self.nulls += array.null_count
+        if array.null_count == len(array):
+            return
+        if self.exact:
+            self.count_exact(array)
+        else:
+            self.summarise(array)
+
+    def count_exact(self, array: pa.Array) -> None:
+        if isinstance(array, pa.DictionaryArray):
+            indices = array.indices.to_numpy(zero_copy_only=False)
+            if array.null_count:
+                indices = indices[array.is_valid().to_numpy(zero_copy_only=False)]
+            counts = np.bincount(indices.astype(np.int64), minlength=len(array.dictionary))
+            used = np.flatnonzero(counts)
+            self.counter.add(array.dictionary.to_numpy(zero_copy_only=False)[used], counts[used])
+        else:
+            table = pc.value_counts(array.drop_null() if array.null_count else array)
+            self.counter.add(table.field("values").to_numpy(zero_copy_only=False), table.field("counts").to_numpy())
+        if len(self.counter) > self.settings.distinct_cap:
+            values, counts = self.counter.table()
+            self.exact = False
+            self.sample = WeightedSample(expected=self.expected_rows)
+            self.hll.add_hashes(self.hash(values))
+            self.sample.add_weighted(values, counts.astype(np.float64))
+            self.track_range(values)
+
+    def summarise(self, array: pa.Array) -> None:
+        if isinstance(array, pa.DictionaryArray):
+            array = array.cast(array.type.value_type)
+        values = (array.drop_null() if array.null_count else array).to_numpy(zero_copy_only=False)
+        self.hll.add_hashes(self.hash(values))
+        assert self.sample is not None
+        self.sample.add(values)
+        self.track_range(values)
+
+    def hash(self, values: np.ndarray) -> np.ndarray:
+        if self.kind in ("integer", "float", "temporal", "boolean"):
+            return hash64(values.astype(np.float64) if self.kind == "float" else values.astype(np.int64))
+        return hash_objects(values)
+
+    def track_range(self, values: np.ndarray) -> None:
+        if values.size == 0 or self.kind == "string":
+            return
+        low, high = values.min(), values.max()
+        self.low = low if self.low is None else min(self.low, low)
+        self.high = high if self.high is None else max(self.high, high)
+
+    # -- the written profile --------------------------------------------------------------
+    def finish(self) -> dict[str, Any]:
+        """The column's entry in the profile.
+
+        Privacy: a value with fewer than `min_count` rows is never listed; histogram bounds
+        and min/max that are not such frequent values are coarsened (3 significant digits,
+        whole days for times, outward at the ends); strings get no bounds at all.
+        """
+        settings = self.settings
+        has_nulls = self.nulls > 0
+        entry: dict[str, Any] = {
+            "type": pandas_type(self.arrow_type, has_nulls),
+            "arrow_type": str(self.arrow_type),
+            "rows": self.rows,
+            "nulls": self.nulls,
+        }
+        if self.kind == "other":
+            return entry
+        if self.exact:
+            values, counts = self.counter.table()
+            self.hll.add_hashes(self.hash(values))
+            entry["distinct"] = {"value": int(len(values)), "exact": True}
+            frequent = counts >= settings.min_count
+            entry["top"] = self.top_exact(values, counts)
+            entry["suppressed"] = {"values": int((~frequent).sum()), "rows": int(counts[~frequent].sum())}
+            bounds = self.bounds_exact(values, counts)
+            frequent_values = set(values[frequent].tolist())
+            rank_error = 0.0
+        else:
+            assert self.sample is not None
+            points, weights = self.sample.points()
+            entry["distinct"] = {
+                "value": int(round(self.hll.estimate())),
+                "exact": False,
+                "standard_error": round(HyperLogLog.standard_error(), 6),
+            }
+            entry["top"] = self.top_sampled(points, weights)
+            bounds = self.bounds_sampled(points, weights)
+            frequent_values = {v for v, _ in entry["top"]["values"]}
+            rank_error = self.sample.rank_error
+        entry["sketch"] = self.hll.encode()
+        redacted = self.name in settings.redact
+        entry["redacted"] = redacted
+        if redacted:
+            entry["top"]["values"] = sorted([redact_value(settings.redaction_key, v), c] for v, c in entry["top"]["values"])
+            return entry
+        entry["top"]["values"] = [[self.output(v), c] for v, c in entry["top"]["values"]]
+        if self.kind in ("integer", "float", "temporal") and bounds is not None:
+            last = len(bounds) - 1
+            safe = [
+                self.output(b) if b in frequent_values else self.coarsen(b, -1 if i == 0 else 1 if i == last else 0)
+                for i, b in enumerate(bounds)
+            ]
+            entry["histogram"] = {"bounds": safe, "exact": self.exact, "rank_error": round(rank_error, 6)}
+            entry["min"], entry["max"] = safe[0], safe[-1]
+        return entry
+
+    def top_exact(self, values: np.ndarray, counts: np.ndarray) -> dict[str, Any]:
+        frequent = np.flatnonzero(counts >= self.settings.min_count)
+        # `values` is sorted; a stable sort by descending count breaks ties by value.
+        order = frequent[np.argsort(-counts[frequent], kind="stable")]
+        listed = order[: self.settings.top].tolist()
+        return {
+            "values": [[_plain(values[i]), int(counts[i])] for i in listed],
+            "exact": True,
+            "complete": len(listed) == len(frequent),
+            "error": 0,
+        }
+
+    def top_sampled(self, points: np.ndarray, weights: np.ndarray) -> dict[str, Any]:
+        if points.size == 0:
+            return {"values": [], "exact": False, "complete": False, "error": 0}
+        summed = pd.Series(weights).groupby(points, sort=True).agg(["sum", "size"])
+        heaviest = float(weights.max())
+        keep = summed[(summed["size"] >= 2) & (summed["sum"] >= self.settings.min_count)]
+        sums = keep["sum"].to_numpy()
+        ranked = np.argsort(-sums, kind="stable")[: self.settings.top]  # ties stay in value order
+        values = keep.index.to_numpy()
+        return {
+            "values": [[_plain(values[i]), int(round(sums[i]))] for i in ranked],
+            "exact": False,
+            "complete": False,
+            "error": int(math.ceil(2 * heaviest + self.sample.rank_error * (self.rows - self.nulls))),  # type: ignore[union-attr]
+        }
+
+    def bounds_exact(self, values: np.ndarray, counts: np.ndarray) -> list[Any] | None:
+        if self.kind not in ("integer", "float", "temporal") or len(values) == 0:
+            return None
+        return _equi_depth(values, counts.astype(np.float64), self.settings.buckets)
+
+    def bounds_sampled(self, points: np.ndarray, weights: np.ndarray) -> list[Any] | None:
+        if self.kind not in ("integer", "float", "temporal") or points.size == 0:
+            return None
+        bounds = _equi_depth(points, weights, self.settings.buckets)
+        bounds[0], bounds[-1] = self.low, self.high
+        return bounds
+
+    def output(self, value: Any) -> Any:
+        value = _plain(value)
+        if self.kind == "temporal":
+            return _iso(value, self.arrow_type)
+        return value
+
+    def coarsen(self, value: Any, direction: int) -> Any:
+        """Round a bound that may be one row's value: down at the low end, up at the high end."""
+        value = _plain(value)
+        if self.kind == "temporal":
+            unit = _unit_nanoseconds(self.arrow_type)
+            day = 86_400 * 10**9 // unit
+            rounded = (math.floor if direction < 0 else math.ceil if direction > 0 else round)(value / day) * day
+            return _iso(int(rounded), self.arrow_type)
+        if value == 0 or not math.isfinite(value):
+            return value
+        exponent = math.floor(math.log10(abs(value))) - 2
+        scale = 10.0 ** exponent
+        rounding = math.floor if direction < 0 else math.ceil if direction > 0 else round
+        rounded = rounding(value / scale) * scale
+        return int(rounded) if self.kind == "integer" else float(f"{rounded:.12g}")
+
+
+class _Counter:
+    """Exact counts of values, keyed by a growing hash index (a few thousand values at most)."""
+
+    def __init__(self) -> None:
+        self.index = pd.Index([])
+        self.counts = np.zeros(0, dtype=np.int64)
+
+    def __len__(self) -> int:
+        return len(self.index)
+
+    def add(self, values: np.ndarray, counts: np.ndarray) -> None:
+        if len(values) == 0:
+            return
+        if len(self.index) == 0:
+            self.index = pd.Index(values)
+            self.counts = counts.astype(np.int64)
+            return
+        positions = self.index.get_indexer(values)
+        new = positions < 0
+        if new.any():
+            self.index = self.index.append(pd.Index(values[new]))
+            self.counts = np.concatenate([self.counts, np.zeros(int(new.sum()), dtype=np.int64)])
+            positions[new] = np.arange(len(self.index) - int(new.sum()), len(self.index))
+        np.add.at(self.counts, positions, counts.astype(np.int64))
+
+    def table(self) -> tuple[np.ndarray, np.ndarray]:
+        """Values in ascending order with their counts."""
+        values = self.index.to_numpy()
+        order = np.argsort(values, kind="stable")
+        return values[order], self.counts[order]
+
+
+def _equi_depth(values: np.ndarray, weights: np.ndarray, buckets: int) -> list[Any]:
+    """Bounds at quantiles i/buckets by the inverted CDF (numpy `method="inverted_cdf"`)."""
+    cumulative = np.cumsum(weights)
+    total = cumulative[-1]
+    ranks = np.maximum(np.ceil(np.linspace(0.0, 1.0, buckets + 1) * total - 1e-9), 1.0)
+    positions = np.minimum(np.searchsorted(cumulative, ranks - 1e-9, side="left"), len(values) - 1)
+    return [values[p] for p in positions]
+
+
+def _temporal_ints(array: pa.Array) -> pa.Array:
+    if pa.types.is_timestamp(array.type):
+        return array.cast(pa.timestamp(array.type.unit)).cast(pa.int64())
+    if pa.types.is_date32(array.type):
+        return array.cast(pa.int32()).cast(pa.int64())
+    return array.cast(pa.int64())
+
+
+def _unit_nanoseconds(arrow_type: pa.DataType) -> int:
+    if pa.types.is_timestamp(arrow_type):
+        return {"s": 10**9, "ms": 10**6, "us": 10**3, "ns": 1}[arrow_type.unit]
+    if pa.types.is_date32(arrow_type):
+        return 86_400 * 10**9
+    return 10**6
+
+
+def _iso(value: int, arrow_type: pa.DataType) -> str:
+    if pa.types.is_date32(arrow_type):
+        return str(np.datetime64(int(value), "D"))
+    if pa.types.is_date64(arrow_type):
+        return str(np.datetime64(int(value), "ms").astype("datetime64[D]"))
+    return str(np.datetime64(int(value), arrow_type.unit))
+
+
+def _plain(value: Any) -> Any:
+    """A numpy scalar as the Python value JSON writes."""
+    return value.item() if isinstance(value, np.generic) else value
+

@@ -1,0 +1,158 @@
+"""Combine profiles of parts of one dataset into the profile of the whole.
+
+Exact where the parts allow it: row and null counts always; value counts, distinct counts and
+histograms when every part lists all its values (complete, nothing suppressed). Otherwise the
+merge is an estimate with a stated bound: distinct counts from the merged HyperLogLog
+registers, value counts with the sum of the parts' bounds, histograms from the parts' bounds
+weighted by their rows (rank error grows by one bucket).
+"""
+
+from __future__ import annotations
+
+import hashlib
+from collections import defaultdict
+from datetime import UTC, datetime
+from typing import Any
+
+import numpy as np
+
+from chainlint import __version__
+from chainlint.profile.columns import _equi_depth
+from chainlint.profile.format import FORMAT_NAME, FORMAT_VERSION, ProfileError
+from chainlint.profile.sketches import HyperLogLog
+
+
+def merge_profiles(parts: list[dict[str, Any]], name: str) -> dict[str, Any]:
+    if not parts:
+        raise ProfileError("nothing to merge")
+    settings = parts[0]["settings"]
+    for part in parts[1:]:
+        if part["settings"] != settings:
+            raise ProfileError(f"profile {part['name']!r} was made with other settings than {parts[0]['name']!r}")
+        if sorted(part["columns"]) != sorted(parts[0]["columns"]):
+            raise ProfileError(f"profile {part['name']!r} has other columns than {parts[0]['name']!r}")
+    fingerprint = hashlib.sha256("".join(p["source"]["fingerprint"] for p in parts).encode()).hexdigest()
+    return {
+        "format": FORMAT_NAME,
+        "format_version": FORMAT_VERSION,
+        "chainlint_version": __version__,
+        "name": name,
+        "created": datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "rows": sum(p["rows"] for p in parts),
+        "source": {
+            "kind": parts[0]["source"]["kind"],
+            "files": [f for p in parts for f in p["source"]["files"]],
+            "fingerprint": "sha256:" + fingerprint,
+            "merged_from": [p["name"] for p in parts],
+        },
+        "settings": settings,
+        "columns": {c: _merge_column([p["columns"][c] for p in parts], settings) for c in parts[0]["columns"]},
+        "column_order": parts[0].get("column_order", sorted(parts[0]["columns"])),
+    }
+
+
+def _is_full(column: dict[str, Any]) -> bool:
+    top = column.get("top", {})
+    return bool(top.get("exact") and top.get("complete") and column.get("suppressed", {}).get("values", 1) == 0)
+
+
+def _part_error(column: dict[str, Any], min_count: int) -> int:
+    """How far a value's count in this part may exceed what the part lists for it."""
+    top = column.get("top")
+    if top is None:
+        return 0
+    if top.get("exact") and top.get("complete"):
+        return min_count - 1 if column.get("suppressed", {}).get("values", 0) else 0
+    listed = [count for _, count in top["values"]]
+    return int(top.get("error", 0)) + (min(listed) if listed else column["rows"] - column["nulls"])
+
+
+def _merge_column(columns: list[dict[str, Any]], settings: dict[str, Any]) -> dict[str, Any]:
+    first = columns[0]
+    merged: dict[str, Any] = {
+        "type": next((c["type"] for c in columns if c["nulls"]), first["type"]),
+        "arrow_type": first["arrow_type"],
+        "rows": sum(c["rows"] for c in columns),
+        "nulls": sum(c["nulls"] for c in columns),
+    }
+    if "top" not in first:
+        return merged
+    redacted = bool(first.get("redacted"))
+    merged["redacted"] = redacted
+    counts: dict[Any, int] = defaultdict(int)
+    for column in columns:
+        for value, count in column["top"]["values"]:
+            counts[_key(value)] += count
+    full = all(_is_full(c) for c in columns)
+    ranked = sorted(counts.items(), key=lambda kv: (-kv[1], kv[0]))
+    merged["top"] = {
+        "values": [[value, count] for (_, value), count in ranked[: settings["top"]]],
+        "exact": full,
+        "complete": full and len(ranked) <= settings["top"],
+        "error": 0 if full else sum(_part_error(c, settings["min_count"]) for c in columns),
+    }
+    merged["suppressed"] = {
+        "values": sum(c.get("suppressed", {}).get("values", 0) for c in columns),
+        "rows": sum(c.get("suppressed", {}).get("rows", 0) for c in columns),
+    }
+    sketch = HyperLogLog()
+    for column in columns:
+        sketch = sketch.merge(HyperLogLog.decode(column["sketch"]))
+    merged["sketch"] = sketch.encode()
+    if full and all(c["distinct"]["exact"] for c in columns):
+        merged["distinct"] = {"value": len(counts), "exact": True}
+    else:
+        merged["distinct"] = {"value": int(round(sketch.estimate())), "exact": False, "standard_error": round(HyperLogLog.standard_error(), 6)}
+    histograms = [c.get("histogram") for c in columns]
+    if all(h is not None for h in histograms) and not redacted:
+        merged["histogram"] = _merge_histograms(columns, counts if full else None, settings["buckets"])
+        merged["min"], merged["max"] = merged["histogram"]["bounds"][0], merged["histogram"]["bounds"][-1]
+    return merged
+
+
+def _key(value: Any) -> tuple[str, Any]:
+    return (type(value).__name__, value)
+
+
+def _numeric(values: list[Any]) -> tuple[np.ndarray, bool]:
+    if values and isinstance(values[0], str):
+        return np.array(values, dtype="datetime64[ns]").astype(np.int64), True
+    return np.array(values, dtype=np.float64), False
+
+
+def _merge_histograms(columns: list[dict[str, Any]], counts: dict[Any, int] | None, buckets: int) -> dict[str, Any]:
+    if counts is not None:
+        pairs = sorted((value, count) for (_, value), count in counts.items())
+        values, temporal = _numeric([v for v, _ in pairs])
+        order = np.argsort(values, kind="stable")
+        weights = np.array([c for _, c in pairs], dtype=np.float64)[order]
+        bounds = _equi_depth(values[order], weights, buckets)
+        rank_error = 0.0
+        exact = True
+        originals = {float(n) if not temporal else int(n): v for n, (v, _) in zip(values, pairs)}
+        out = [originals[float(b) if not temporal else int(b)] for b in bounds]
+    else:
+        points, weights, temporal = [], [], False
+        for column in columns:
+            bounds_of = column["histogram"]["bounds"]
+            numeric, temporal = _numeric(bounds_of)
+            share = (column["rows"] - column["nulls"]) / max(len(numeric), 1)
+            points.append(numeric)
+            weights.append(np.full(len(numeric), share))
+        values = np.concatenate(points)
+        order = np.argsort(values, kind="stable")
+        merged_bounds = _equi_depth(values[order], np.concatenate(weights)[order], buckets)
+        merged_bounds[0] = min(float(p[0]) for p in points)
+        merged_bounds[-1] = max(float(p[-1]) for p in points)
+        if temporal:
+            out = [str(np.datetime64(int(b), "ns")) for b in merged_bounds]
+        else:
+            out = [_plain_number(b) for b in merged_bounds]
+        rank_error = max(c["histogram"]["rank_error"] for c in columns) + 1.0 / buckets
+        exact = False
+    return {"bounds": out, "exact": exact, "rank_error": round(rank_error, 6)}
+
+
+def _plain_number(value: Any) -> Any:
+    value = float(value)
+    return int(value) if value.is_integer() else value

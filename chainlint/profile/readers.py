@@ -1,0 +1,335 @@
+"""Open sample data as one stream of pyarrow record batches, with a description of its source.
+
+Memory stays bounded by the batch size: every reader streams (Parquet by row group, CSV and
+JSON Lines by block, Arrow IPC by batch). Several DATA arguments form one dataset; they must
+share a schema.
+"""
+
+from __future__ import annotations
+
+import glob
+import hashlib
+import os
+from collections.abc import Iterator, Sequence
+from concurrent.futures import Future, ThreadPoolExecutor
+from dataclasses import dataclass, field
+from datetime import UTC, datetime
+
+import pyarrow as pa
+import pyarrow.csv as pacsv
+import pyarrow.dataset as pads
+import pyarrow.ipc as paipc
+import pyarrow.json as pajson
+import pyarrow.parquet as pq
+
+BATCH_ROWS = 262_144
+_CSV_BLOCK = 64 << 20
+
+
+class DataError(Exception):
+    """Data that cannot be profiled; the message names the file (and line where known)."""
+
+
+@dataclass(frozen=True)
+class SourceFile:
+    path: str
+    bytes: int
+    modified: str
+
+
+@dataclass
+class Dataset:
+    """A schema, a way to stream its batches, and its files (fingerprinted in the background)."""
+
+    schema: pa.Schema
+    files: list[SourceFile]
+    kind: str
+    batches: Iterator[pa.RecordBatch]
+    _digests: list[Future[str]] = field(default_factory=list)
+    expected_rows: int | None = None
+
+    def fingerprint(self) -> str:
+        """sha256 over the files' own sha256 digests, in path order."""
+        combined = hashlib.sha256()
+        for digest in self._digests:
+            combined.update(digest.result().encode())
+        return "sha256:" + combined.hexdigest()
+
+
+def _kind(path: str) -> str:
+    lower = path.lower()
+    if os.path.isdir(path):
+        return "parquet"
+    for suffix, kind in (
+        (".csv", "csv"), (".csv.gz", "csv"), (".csv.bz2", "csv"), (".tsv", "csv"),
+        (".parquet", "parquet"), (".pq", "parquet"),
+        (".feather", "arrow"), (".arrow", "arrow"), (".ipc", "arrow"),
+        (".jsonl", "jsonl"), (".ndjson", "jsonl"), (".jsonl.gz", "jsonl"),
+    ):
+        if lower.endswith(suffix):
+            return kind
+    raise DataError(f"{path}: unknown data format (expected .csv, .csv.gz, .parquet, .feather/.arrow, .jsonl)")
+
+
+def _expand(arguments: Sequence[str]) -> list[str]:
+    paths: list[str] = []
+    for argument in arguments:
+        if any(char in argument for char in "*?["):
+            matched = sorted(glob.glob(argument, recursive=True))
+            if not matched:
+                raise DataError(f"{argument}: no file matches this pattern")
+            paths.extend(matched)
+        elif not os.path.exists(argument):
+            raise DataError(f"{argument}: no such file or folder")
+        else:
+            paths.append(argument)
+    return paths
+
+
+def _sha256(path: str) -> str:
+    digest = hashlib.sha256()
+    with open(path, "rb") as handle:
+        for chunk in iter(lambda: handle.read(1 << 20), b""):
+            digest.update(chunk)
+    return digest.hexdigest()
+
+
+def _files_of(path: str) -> list[str]:
+    if os.path.isdir(path):
+        found = []
+        for folder, subfolders, names in os.walk(path):
+            subfolders[:] = sorted(d for d in subfolders if not d.startswith((".", "_")))
+            found.extend(os.path.join(folder, n) for n in sorted(names) if not n.startswith((".", "_")))
+        return found
+    return [path]
+
+
+def open_dataset(arguments: Sequence[str], batch_rows: int = BATCH_ROWS) -> Dataset:
+    """Open DATA arguments as one dataset; raises DataError naming the file on bad input."""
+    paths = _expand(arguments)
+    if not paths:
+        raise DataError("no data given")
+    kinds = {_kind(p) for p in paths}
+    if len(kinds) > 1:
+        raise DataError(f"mixed data formats ({', '.join(sorted(kinds))}); profile one format at a time")
+    kind = kinds.pop()
+    files: list[str] = [f for p in paths for f in _files_of(p)]
+    described = []
+    for path in files:
+        try:
+            stat = os.stat(path)
+        except OSError as error:
+            raise DataError(f"{path}: cannot read: {error.strerror}") from None
+        if not os.access(path, os.R_OK):
+            raise DataError(f"{path}: cannot read: permission denied")
+        modified = datetime.fromtimestamp(stat.st_mtime, UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+        described.append(SourceFile(path, stat.st_size, modified))
+    opener = {"csv": _open_csv, "parquet": _open_parquet, "arrow": _open_arrow, "jsonl": _open_jsonl}[kind]
+    if kind == "parquet" and any(os.path.isdir(p) for p in paths):
+        schema, batches, expected = _open_parquet_dataset(paths, batch_rows)
+    else:
+        opened = [opener(path, batch_rows) for path in files]
+        schema = opened[0][0]
+        for path, (other, _, _) in zip(files, opened):
+            if not other.equals(schema):
+                raise DataError(f"{path}: its columns differ from {files[0]}'s; profile them separately")
+        batches = _chain(stream for _, stream, _ in opened)
+        counts = [rows for _, _, rows in opened]
+        expected = None if None in counts else sum(counts)  # type: ignore[arg-type]
+    _check_columns(schema, files[0])
+    pool = ThreadPoolExecutor(max_workers=1)
+    digests = [pool.submit(_sha256, path) for path in files]
+    pool.shutdown(wait=False)
+    return Dataset(schema, described, kind, batches, digests, expected)
+
+
+def _chain(streams: Iterator[Iterator[pa.RecordBatch]]) -> Iterator[pa.RecordBatch]:
+    for stream in streams:
+        yield from stream
+
+
+def _check_columns(schema: pa.Schema, path: str) -> None:
+    if len(schema) == 0:
+        raise DataError(f"{path}: no columns")
+    names = schema.names
+    duplicates = sorted({n for n in names if names.count(n) > 1})
+    if duplicates:
+        raise DataError(f"{path}: duplicate column names: {', '.join(repr(n) for n in duplicates)}")
+
+
+def _open_csv(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.RecordBatch], int | None]:
+    """CSV in chunks cut at line ends, each parsed by the multi-threaded `read_csv`.
+
+    Values may not contain line breaks (as with pyarrow's `newlines_in_values=False`); the first
+    chunk decides the column types.
+    """
+    if os.path.getsize(path) == 0:
+        raise DataError(f"{path}: empty file")
+    chunks = _csv_chunks(path)
+    try:
+        header, first, first_line = next(chunks)
+    except StopIteration:
+        raise DataError(f"{path}: empty file") from None
+    table = _parse_csv_chunk(path, header, first, first_line, None)
+    binary = [f.name for f in table.schema if pa.types.is_binary(f.type) or pa.types.is_large_binary(f.type)]
+    if binary:
+        raise DataError(f"{path}: column {binary[0]!r} is not valid UTF-8 text")
+    schema = table.schema
+
+    def stream() -> Iterator[pa.RecordBatch]:
+        yield from table.to_batches(max_chunksize=batch_rows)
+        for _, chunk, line in chunks:
+            yield from _parse_csv_chunk(path, header, chunk, line, schema).to_batches(max_chunksize=batch_rows)
+
+    return schema, stream(), None
+
+
+def _csv_chunks(path: str) -> Iterator[tuple[bytes, bytes, int]]:
+    """(header line, a chunk of whole lines, the line number of the chunk's first line)."""
+    try:
+        source = pa.input_stream(path, compression="detect")
+    except (pa.ArrowInvalid, OSError) as error:
+        raise DataError(f"{path}: cannot read: {str(error).splitlines()[0]}") from None
+    with source:
+        carry = b""
+        header = b""
+        line = 2
+        yielded = False
+        while True:
+            try:
+                block = source.read(_CSV_BLOCK)
+            except (pa.ArrowInvalid, OSError) as error:
+                raise DataError(f"{path}: cannot read: {str(error).splitlines()[0]}") from None
+            data = carry + block
+            if not header:
+                end = data.find(b"\n")
+                if end < 0 and block:
+                    carry = data
+                    continue
+                header, data = (data, b"") if end < 0 else (data[: end + 1], data[end + 1 :])
+            cut = len(data) if not block else data.rfind(b"\n") + 1
+            if cut > 0 or (not block and not yielded):
+                yielded = True
+                yield header, data[:cut], line
+                line += data.count(b"\n", 0, cut)
+            carry = data[cut:]
+            if not block:
+                return
+
+
+def _parse_csv_chunk(path: str, header: bytes, chunk: bytes, line: int, schema: pa.Schema | None) -> pa.Table:
+    invalid: list[tuple[int | None, str]] = []
+
+    def on_invalid(row: pacsv.InvalidRow) -> str:
+        invalid.append((row.number, f"expected {row.expected_columns} fields, found {row.actual_columns}"))
+        return "error"
+
+    convert = pacsv.ConvertOptions(column_types=schema) if schema is not None else pacsv.ConvertOptions()
+
+    def parse(threads: bool) -> pa.Table:
+        return pacsv.read_csv(
+            pa.py_buffer(header + chunk),
+            read_options=pacsv.ReadOptions(use_threads=threads, block_size=8 << 20),
+            parse_options=pacsv.ParseOptions(invalid_row_handler=on_invalid),
+            convert_options=convert,
+        )
+
+    try:
+        return parse(True)
+    except (pa.ArrowInvalid, pa.ArrowTypeError) as error:
+        message = str(error).splitlines()[0]
+        if invalid:
+            # Row numbers are known only to a single-threaded parse: re-parse to name the line.
+            invalid.clear()
+            try:
+                parse(False)
+            except (pa.ArrowInvalid, pa.ArrowTypeError):
+                pass
+        if invalid:
+            number, what = invalid[-1]
+            where = f":{line + number - 2}" if number is not None else ""
+            raise DataError(f"{path}{where}: malformed CSV row ({what})") from None
+        if "utf8" in message.lower() or "utf-8" in message.lower():
+            raise DataError(f"{path}: not valid UTF-8 text ({message})") from None
+        if "conversion error" in message.lower():
+            message += " (the file's first part decided this column's type)"
+        raise DataError(f"{path}: {message}") from None
+
+
+def _split(batch: pa.RecordBatch, rows: int) -> Iterator[pa.RecordBatch]:
+    for start in range(0, batch.num_rows, rows):
+        yield batch.slice(start, rows)
+
+
+def _open_parquet(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.RecordBatch], int | None]:
+    try:
+        handle = pq.ParquetFile(path)
+        strings = [f.name for f in handle.schema_arrow if pa.types.is_string(f.type) or pa.types.is_large_string(f.type)]
+        if strings:
+            handle = pq.ParquetFile(path, read_dictionary=strings)
+    except (pa.ArrowInvalid, OSError) as error:
+        raise DataError(f"{path}: not a readable Parquet file ({str(error).splitlines()[0]})") from None
+
+    def stream() -> Iterator[pa.RecordBatch]:
+        try:
+            yield from handle.iter_batches(batch_size=batch_rows)
+        except (pa.ArrowInvalid, OSError) as error:
+            raise DataError(f"{path}: {str(error).splitlines()[0]}") from None
+
+    return _plain_schema(handle.schema_arrow), stream(), handle.metadata.num_rows
+
+
+def _plain_schema(schema: pa.Schema) -> pa.Schema:
+    """The schema with dictionary-encoded columns shown as their value type."""
+    return pa.schema([pa.field(f.name, f.type.value_type if pa.types.is_dictionary(f.type) else f.type) for f in schema])
+
+
+def _open_parquet_dataset(paths: Sequence[str], batch_rows: int) -> tuple[pa.Schema, Iterator[pa.RecordBatch], int | None]:
+    try:
+        parts = [pads.dataset(p, format="parquet", partitioning="hive") for p in paths]
+        dataset = parts[0] if len(parts) == 1 else pads.dataset(parts)
+    except (pa.ArrowInvalid, OSError) as error:
+        raise DataError(f"{paths[0]}: not a readable Parquet dataset ({str(error).splitlines()[0]})") from None
+    batches = iter(dataset.to_batches(batch_size=batch_rows, use_threads=True))
+    return _plain_schema(dataset.schema), batches, dataset.count_rows()
+
+
+def _open_arrow(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.RecordBatch], int | None]:
+    try:
+        source = pa.memory_map(path)
+        try:
+            reader = paipc.open_file(source)
+            schema = reader.schema
+
+            def stream() -> Iterator[pa.RecordBatch]:
+                for index in range(reader.num_record_batches):
+                    yield from _split(reader.get_batch(index), batch_rows)
+        except pa.ArrowInvalid:
+            source = pa.memory_map(path)
+            stream_reader = paipc.open_stream(source)
+            schema = stream_reader.schema
+
+            def stream() -> Iterator[pa.RecordBatch]:
+                for batch in stream_reader:
+                    yield from _split(batch, batch_rows)
+    except (pa.ArrowInvalid, OSError) as error:
+        raise DataError(f"{path}: not a readable Arrow/Feather file ({str(error).splitlines()[0]})") from None
+    return schema, stream(), None
+
+
+def _open_jsonl(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.RecordBatch], int | None]:
+    if os.path.getsize(path) == 0:
+        raise DataError(f"{path}: empty file")
+    try:
+        reader = pajson.open_json(path, read_options=pajson.ReadOptions(block_size=_CSV_BLOCK, use_threads=False))
+    except (pa.ArrowInvalid, OSError) as error:
+        raise DataError(f"{path}: {str(error).splitlines()[0]}") from None
+
+    def stream() -> Iterator[pa.RecordBatch]:
+        try:
+            for batch in reader:
+                yield from _split(batch, batch_rows)
+        except pa.ArrowInvalid as error:
+            raise DataError(f"{path}: {str(error).splitlines()[0]}") from None
+
+    return reader.schema, stream(), None

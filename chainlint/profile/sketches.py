@@ -1,0 +1,133 @@
+"""Deterministic, mergeable summaries for columns with too many distinct values to count.
+
+- `HyperLogLog`: distinct count with the published standard error 1.04/sqrt(m) (Flajolet,
+  Fusy, Gandouet & Meunier 2007); registers merge by maximum. Vectorised with numpy: values
+  are hashed with a fixed 64-bit mixer, so the same data always gives the same registers.
+- `WeightedSample`: a bounded set of weighted points for quantiles and frequent values: every
+  `stride`-th value with weight `stride`; when full, it is compacted to equally spaced weighted
+  quantiles and the stride doubles. Each compaction adds at most 2/capacity of rank error,
+  which the summary tracks (`rank_error`); the systematic pick itself is a sample, not a bound.
+"""
+
+from __future__ import annotations
+
+import base64
+import zlib
+
+import numpy as np
+import pandas as pd
+
+HLL_PRECISION = 12
+
+
+def hash64(values: np.ndarray) -> np.ndarray:
+    """A fixed 64-bit mix (splitmix64 finaliser) of integer or float bit patterns, in place."""
+    if values.dtype.kind == "f":
+        h = (values.astype(np.float64) + 0.0).view(np.uint64)  # -0.0 + 0.0 is +0.0: one value
+    else:
+        h = values.astype(np.int64).view(np.uint64)
+    with np.errstate(over="ignore"):
+        h += np.uint64(0x9E3779B97F4A7C15)
+        h ^= h >> np.uint64(30)
+        h *= np.uint64(0xBF58476D1CE4E5B9)
+        h ^= h >> np.uint64(27)
+        h *= np.uint64(0x94D049BB133111EB)
+        h ^= h >> np.uint64(31)
+    return h
+
+
+def hash_objects(values: np.ndarray) -> np.ndarray:
+    """Hash strings (or other objects) with pandas' fixed-key vectorised hash."""
+    return pd.util.hash_array(values.astype(object), categorize=False)
+
+
+class HyperLogLog:
+    __slots__ = ("registers",)
+
+    def __init__(self, registers: np.ndarray | None = None) -> None:
+        self.registers = registers if registers is not None else np.zeros(1 << HLL_PRECISION, dtype=np.uint8)
+
+    def add_hashes(self, hashes: np.ndarray) -> None:
+        if hashes.size == 0:
+            return
+        index = (hashes & np.uint64((1 << HLL_PRECISION) - 1)).astype(np.intp)
+        # Rank: 1 + leading zeros of the other 52 bits; frexp(0.0) gives exponent 0, rank 53.
+        _, exponent = np.frexp((hashes >> np.uint64(HLL_PRECISION)).astype(np.float64))
+        np.maximum.at(self.registers, index, (53 - exponent).astype(np.uint8))
+
+    def merge(self, other: HyperLogLog) -> HyperLogLog:
+        return HyperLogLog(np.maximum(self.registers, other.registers))
+
+    def estimate(self) -> float:
+        m = float(self.registers.size)
+        alpha = 0.7213 / (1 + 1.079 / m)
+        raw = alpha * m * m / float(np.sum(np.power(2.0, -self.registers.astype(np.float64))))
+        zeros = int(np.count_nonzero(self.registers == 0))
+        if raw <= 2.5 * m and zeros:
+            return m * np.log(m / zeros)
+        return raw
+
+    @staticmethod
+    def standard_error() -> float:
+        return 1.04 / np.sqrt(1 << HLL_PRECISION)
+
+    def encode(self) -> str:
+        return base64.b64encode(zlib.compress(self.registers.tobytes(), 9)).decode("ascii")
+
+    @classmethod
+    def decode(cls, text: str) -> HyperLogLog:
+        raw = np.frombuffer(zlib.decompress(base64.b64decode(text)), dtype=np.uint8).copy()
+        if raw.size != 1 << HLL_PRECISION:
+            raise ValueError("distinct-count sketch has the wrong size")
+        return cls(raw)
+
+
+class WeightedSample:
+    """Weighted points standing for the non-null values seen; bounded by `capacity`."""
+
+    def __init__(self, capacity: int = 1 << 16, expected: int = 0) -> None:
+        """`expected`: the number of values to come, when known, so that the stride can start
+        where no compaction will be needed."""
+        self.capacity = capacity
+        self.stride = max(1, expected // capacity)
+        self.offset = 0
+        self.chunks: list[tuple[np.ndarray, np.ndarray]] = []
+        self.size = 0
+        self.rank_error = 0.0
+
+    def add(self, values: np.ndarray) -> None:
+        """Add a batch of non-null values: every `stride`-th one, continuing across batches."""
+        if values.size == 0:
+            return
+        start = (-self.offset) % self.stride
+        picked = values[start :: self.stride]
+        self.offset = (self.offset + values.size) % self.stride
+        self.add_weighted(picked, np.full(picked.size, float(self.stride)))
+
+    def add_weighted(self, values: np.ndarray, weights: np.ndarray) -> None:
+        if values.size == 0:
+            return
+        self.chunks.append((values, weights))
+        self.size += values.size
+        if self.size > self.capacity:
+            self.compact()
+
+    def points(self) -> tuple[np.ndarray, np.ndarray]:
+        if not self.chunks:
+            return np.array([]), np.array([])
+        values = np.concatenate([c[0] for c in self.chunks])
+        weights = np.concatenate([c[1] for c in self.chunks])
+        order = np.argsort(values, kind="stable")
+        return values[order], weights[order]
+
+    def compact(self) -> None:
+        values, weights = self.points()
+        keep = self.capacity // 2
+        total = weights.sum()
+        targets = (np.arange(keep) + 0.5) * (total / keep)
+        positions = np.searchsorted(np.cumsum(weights), targets, side="left")
+        positions = np.minimum(positions, values.size - 1)
+        self.chunks = [(values[positions], np.full(keep, total / keep))]
+        self.size = keep
+        self.rank_error += 1.0 / keep
+        self.stride *= 2

@@ -1,0 +1,123 @@
+"""The profile store: `.chainlint/` beside the project, holding `profiles/NAME.json`.
+
+Writes go to a temporary file in the same folder and are renamed into place, so a profile is
+either the old one or the new one, never half of each.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import secrets
+import tempfile
+from pathlib import Path
+from typing import Any
+
+from chainlint.profile.format import ProfileError, dumps, loads
+
+STORE_FOLDER = ".chainlint"
+_NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]*$")
+
+
+class StoreError(Exception):
+    """The store cannot be found, read or written."""
+
+
+def find_store(start: str | os.PathLike[str] = ".") -> Path:
+    """The nearest `.chainlint/` upward, else `.chainlint/` beside the nearest pyproject.toml,
+    else `.chainlint/` in the start folder."""
+    start_path = Path(start).resolve()
+    if start_path.is_file():
+        start_path = start_path.parent
+    for folder in (start_path, *start_path.parents):
+        if (folder / STORE_FOLDER).is_dir():
+            return folder / STORE_FOLDER
+    for folder in (start_path, *start_path.parents):
+        if (folder / "pyproject.toml").is_file():
+            return folder / STORE_FOLDER
+    return start_path / STORE_FOLDER
+
+
+def check_name(name: str) -> str:
+    if not _NAME.match(name):
+        raise StoreError(f"profile name {name!r} must be letters, digits, '_', '-' or '.', starting with a letter or digit")
+    return name
+
+
+def profile_path(store: Path, name: str) -> Path:
+    return store / "profiles" / f"{check_name(name)}.json"
+
+
+def write_atomic(path: Path, text: str) -> None:
+    """Write `text` to `path` via a temporary file and an atomic rename."""
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    except OSError as error:
+        raise StoreError(f"{path.parent}: cannot write: {error.strerror}") from None
+    try:
+        with os.fdopen(handle, "w", encoding="utf-8", newline="\n") as out:
+            out.write(text)
+            out.flush()
+            os.fsync(out.fileno())
+        if path.exists():
+            os.chmod(temporary, path.stat().st_mode & 0o777)
+        else:
+            os.chmod(temporary, 0o644)
+        os.replace(temporary, path)
+    except OSError as error:
+        os.unlink(temporary)
+        raise StoreError(f"{path}: cannot write: {error.strerror}") from None
+
+
+def load_profile(path: Path) -> dict[str, Any]:
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ProfileError(f"{path}: no such profile") from None
+    except (OSError, UnicodeDecodeError) as error:
+        raise ProfileError(f"{path}: cannot read: {getattr(error, 'strerror', None) or error}") from None
+    return loads(text, str(path))
+
+
+def save_profile(store: Path, document: dict[str, Any]) -> tuple[Path, bool]:
+    """Write a profile; returns its path and whether the file changed.
+
+    When only the creation time would differ, the existing file is kept byte for byte, so that
+    re-profiling unchanged data changes nothing in the repository.
+    """
+    path = profile_path(store, document["name"])
+    if path.exists():
+        try:
+            old = load_profile(path)
+        except ProfileError:
+            old = None
+        if old is not None and {**old, "created": None} == {**json.loads(dumps(document)), "created": None}:
+            return path, False
+    write_atomic(path, dumps(document))
+    return path, True
+
+
+def list_profiles(store: Path) -> list[Path]:
+    folder = store / "profiles"
+    return sorted(folder.glob("*.json")) if folder.is_dir() else []
+
+
+def redaction_key(store: Path, create: bool) -> bytes:
+    """The store's key for redacted values (`.chainlint/config.json`), made on first use."""
+    config_path = store / "config.json"
+    config: dict[str, Any] = {}
+    if config_path.exists():
+        try:
+            config = json.loads(config_path.read_text(encoding="utf-8"))
+        except (OSError, json.JSONDecodeError) as error:
+            raise StoreError(f"{config_path}: cannot read the store configuration: {error}") from None
+    key = config.get("redaction_key")
+    if isinstance(key, str) and re.fullmatch(r"[0-9a-f]{64}", key):
+        return bytes.fromhex(key)
+    if not create:
+        return b""
+    config["redaction_key"] = secrets.token_hex(32)
+    write_atomic(config_path, dumps(config))
+    return bytes.fromhex(config["redaction_key"])

@@ -1,0 +1,178 @@
+"""`chainlint profile` on bad input, the store, determinism, privacy and the format."""
+
+from __future__ import annotations
+
+import gzip
+import json
+from pathlib import Path
+
+import pandas as pd
+import pytest
+from click.testing import CliRunner
+
+from chainlint.cli import main
+from chainlint.profile.columns import redact_value
+from chainlint.profile.store import find_store, load_profile, redaction_key
+
+
+def _run(*args: str):
+    return CliRunner().invoke(main, list(args))
+
+
+def _profile(tmp_path: Path, data: Path, *options: str, name: str = "p"):
+    return _run("profile", str(data), "--name", name, "--store", str(tmp_path / "store"), *options)
+
+
+def _error_line(result) -> str:
+    assert result.exit_code == 2, result.output
+    lines = [line for line in result.output.splitlines() if line.startswith("chainlint: error:")]
+    assert len(lines) == 1, result.output
+    return lines[0]
+
+
+def test_missing_file(tmp_path: Path) -> None:
+    assert "no such file" in _error_line(_profile(tmp_path, tmp_path / "nope.csv"))
+
+
+def test_empty_and_header_only(tmp_path: Path) -> None:
+    empty = tmp_path / "empty.csv"
+    empty.write_text("")
+    assert f"{empty}: empty file" in _error_line(_profile(tmp_path, empty))
+    header = tmp_path / "header.csv"
+    header.write_text("a,b\n")
+    assert "no data rows" in _error_line(_profile(tmp_path, header))
+
+
+def test_malformed_csv_row_names_file_and_line(tmp_path: Path) -> None:
+    path = tmp_path / "bad.csv"
+    path.write_text("a,b\n1,2\n3,4\n5,6,7\n8,9\n")
+    line = _error_line(_profile(tmp_path, path))
+    assert f"{path}:4: malformed CSV row (expected 2 fields, found 3)" in line
+
+
+def test_non_utf8_csv(tmp_path: Path) -> None:
+    path = tmp_path / "latin.csv"
+    path.write_bytes(b"name,n\ncaf\xe9,1\n")
+    assert "UTF-8" in _error_line(_profile(tmp_path, path))
+
+
+def test_unknown_format_and_unreadable_parquet(tmp_path: Path) -> None:
+    (tmp_path / "x.xlsx").write_text("?")
+    assert "unknown data format" in _error_line(_profile(tmp_path, tmp_path / "x.xlsx"))
+    (tmp_path / "x.parquet").write_text("not parquet")
+    assert "not a readable Parquet file" in _error_line(_profile(tmp_path, tmp_path / "x.parquet"))
+
+
+def test_duplicate_column_names(tmp_path: Path) -> None:
+    path = tmp_path / "dup.csv"
+    path.write_text("a,a\n1,2\n")
+    assert "duplicate column names: 'a'" in _error_line(_profile(tmp_path, path))
+
+
+def test_awkward_columns_profile_fine(tmp_path: Path) -> None:
+    path = tmp_path / "odd.csv"
+    rows = ["mixed,all_null,two words,größe,long"]
+    rows += [f"{i if i % 2 else 'x' + str(i)},,{i % 3},{i % 7},{'z' * 100_000 if i == 3 else 'a'}" for i in range(50)]
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    result = _profile(tmp_path, path)
+    assert result.exit_code == 0, result.output
+    columns = load_profile(tmp_path / "store" / "profiles" / "p.json")["columns"]
+    assert columns["mixed"]["type"] == "str"
+    assert columns["all_null"]["nulls"] == 50
+    assert columns["two words"]["distinct"]["value"] == 3
+    assert columns["größe"]["distinct"]["value"] == 7
+    assert all(len(str(v)) < 100 for v, _ in columns["long"]["top"]["values"])
+
+
+def test_failed_run_leaves_existing_profile_intact(tmp_path: Path) -> None:
+    good = tmp_path / "good.csv"
+    good.write_text("a\n" + "1\n" * 10)
+    assert _profile(tmp_path, good).exit_code == 0
+    target = tmp_path / "store" / "profiles" / "p.json"
+    before = target.read_bytes()
+    bad = tmp_path / "bad.csv"
+    bad.write_text("a\n1\n2,3\n")
+    _error_line(_profile(tmp_path, bad))
+    assert target.read_bytes() == before
+    assert sorted(p.name for p in target.parent.iterdir()) == ["p.json"]
+
+
+def test_unwritable_store(tmp_path: Path) -> None:
+    data = tmp_path / "d.csv"
+    data.write_text("a\n1\n")
+    blocker = tmp_path / "file"
+    blocker.write_text("")
+    result = _run("profile", str(data), "--name", "p", "--store", str(blocker / "store"))
+    assert "cannot write" in _error_line(result)
+
+
+def test_corrupt_and_future_profiles_are_refused(tmp_path: Path) -> None:
+    profiles = tmp_path / "store" / "profiles"
+    profiles.mkdir(parents=True)
+    (profiles / "broken.json").write_text("{not json")
+    (profiles / "future.json").write_text(json.dumps({"format": "chainlint-profile", "format_version": 99}))
+    (profiles / "pickle.json").write_bytes(b"\x80\x04\x95")
+    store = str(tmp_path / "store")
+    assert "broken.json:1:2: not valid JSON" in _error_line(_run("profiles", "--store", store, "show", "broken"))
+    assert "newer than this chainlint understands" in _error_line(_run("profiles", "--store", store, "show", "future"))
+    assert "pickle.json" in _error_line(_run("profiles", "--store", store, "show", "pickle"))
+
+
+def test_reprofiling_unchanged_data_is_byte_identical(tmp_path: Path) -> None:
+    data = tmp_path / "d.parquet"
+    pd.DataFrame({"a": [1, 2, 2, 3] * 50, "s": ["x", "y", "y", "z"] * 50, "f": [0.5, 1.5, 2.5, None] * 50}).to_parquet(data)
+    first = _profile(tmp_path, data)
+    assert first.exit_code == 0 and "(written)" in first.output
+    path = tmp_path / "store" / "profiles" / "p.json"
+    before = path.read_bytes()
+    second = _profile(tmp_path, data)
+    assert "(unchanged)" in second.output
+    assert path.read_bytes() == before
+    other_store = tmp_path / "other"
+    assert _run("profile", str(data), "--name", "p", "--store", str(other_store)).exit_code == 0
+    strip = lambda raw: {k: v for k, v in json.loads(raw).items() if k != "created"}  # noqa: E731
+    assert strip((other_store / "profiles" / "p.json").read_bytes()) == strip(before)
+
+
+def test_redacted_column_is_stored_as_keyed_hashes(tmp_path: Path) -> None:
+    data = tmp_path / "d.csv"
+    data.write_text("account,n\n" + "".join(f"ACC-{i % 3},{i}\n" for i in range(60)))
+    assert _profile(tmp_path, data, "--redact", "account").exit_code == 0
+    text = (tmp_path / "store" / "profiles" / "p.json").read_text()
+    assert "ACC-" not in text
+    key = redaction_key(tmp_path / "store", create=False)
+    assert len(key) == 32 and key.hex() not in text
+    listed = dict(load_profile(tmp_path / "store" / "profiles" / "p.json")["columns"]["account"]["top"]["values"])
+    assert listed[redact_value(key, "ACC-1")] == 20
+
+
+def test_unknown_redact_column(tmp_path: Path) -> None:
+    data = tmp_path / "d.csv"
+    data.write_text("a\n1\n")
+    assert "--redact names no column" in _error_line(_profile(tmp_path, data, "--redact", "b"))
+
+
+def test_gzip_csv_and_listing(tmp_path: Path) -> None:
+    data = tmp_path / "d.csv.gz"
+    with gzip.open(data, "wt") as handle:
+        handle.write("a,b\n" + "1,x\n" * 20)
+    assert _profile(tmp_path, data, name="zipped").exit_code == 0
+    listing = _run("profiles", "--store", str(tmp_path / "store"))
+    assert listing.exit_code == 0 and listing.output.startswith("zipped ")
+    shown = _run("profiles", "--store", str(tmp_path / "store"), "show", "zipped")
+    assert "b  (str)  nulls 0 (0.0%)  distinct 1" in shown.output and "'x' 100.0%" in shown.output
+
+
+def test_store_is_found_beside_the_project(tmp_path: Path) -> None:
+    (tmp_path / "pyproject.toml").write_text("[project]\nname = 'x'\n")
+    (tmp_path / "src" / "pkg").mkdir(parents=True)
+    assert find_store(tmp_path / "src" / "pkg") == (tmp_path / ".chainlint").resolve()
+    (tmp_path / "src" / ".chainlint").mkdir()
+    assert find_store(tmp_path / "src" / "pkg") == (tmp_path / "src" / ".chainlint").resolve()
+
+
+@pytest.mark.parametrize("name", ["../escape", "", "a/b", ".hidden"])
+def test_bad_profile_names(tmp_path: Path, name: str) -> None:
+    data = tmp_path / "d.csv"
+    data.write_text("a\n1\n")
+    assert "profile name" in _error_line(_profile(tmp_path, data, name=name))
