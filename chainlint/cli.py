@@ -5,12 +5,15 @@ from __future__ import annotations
 import sys
 import time
 from collections.abc import Sequence
+from dataclasses import replace
 from pathlib import Path
 from typing import NoReturn
 
 import click
 
 from chainlint import __version__
+from chainlint.analysis.check import RULES, Options, plan_results
+from chainlint.analysis.check import check as run_check
 from chainlint.analysis.model import FileError
 from chainlint.analysis.run import analyse_files
 from chainlint.discover import discover
@@ -29,8 +32,10 @@ from chainlint.profile.store import (
     redaction_key,
     save_profile,
 )
-from chainlint.report.profiles import profile_line, profile_summary
+from chainlint.report.check import check_json, check_lines, check_summary
 from chainlint.report.explain import all_errors, explain_json, explain_text, summary
+from chainlint.report.profiles import profile_line, profile_summary
+from chainlint.rules import RuleContext
 
 EXIT_OK, EXIT_FINDINGS, EXIT_ERROR = 0, 1, 2
 
@@ -47,29 +52,82 @@ def main() -> None:
     """Keep chains of pandas row filters in a cheap, result-preserving order."""
 
 
-@main.command()
-@click.argument("paths", nargs=-1, required=True, type=click.Path())
-@click.option("--format", "output_format", type=click.Choice(["text", "json"]), default="text", show_default=True)
-@click.option("--exclude", multiple=True, metavar="GLOB", help="Skip paths matching GLOB (gitignore syntax); repeatable.")
-@click.option("--max-file-size", type=click.FloatRange(min=0.001), default=4.0, show_default=True, metavar="MB",
-              help="Report files larger than this instead of parsing them.")
-@_jobs_option
-def explain(paths: Sequence[str], output_format: str, exclude: Sequence[str], max_file_size: float, jobs: int | None) -> None:
-    """List every chain of row filters in PATHS: steps, predicates, and which steps may move."""
+def _analysis_options(function):  # type: ignore[no-untyped-def]
+    """Options shared by `explain` and `check`."""
+    options = [
+        click.argument("paths", nargs=-1, required=True, type=click.Path()),
+        click.option("--exclude", multiple=True, metavar="GLOB", help="Skip paths matching GLOB (gitignore syntax); repeatable."),
+        click.option("--max-file-size", type=click.FloatRange(min=0.001), default=4.0, show_default=True, metavar="MB",
+                     help="Report files larger than this instead of parsing them."),
+        click.option("--store", type=click.Path(file_okay=False), help="Profile store (default: the nearest .chainlint/ of each file)."),
+        click.option("--rows", type=click.IntRange(min=1), help="Production row count: scale estimates to it (default: the profile's rows)."),
+        _jobs_option,
+    ]
+    for option in reversed(options):
+        function = option(function)
+    return function
+
+
+def _analyse(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, jobs: int | None):  # type: ignore[no-untyped-def]
     found = discover(paths, exclude)
     results = analyse_files(found.files, jobs=jobs, max_bytes=int(max_file_size * 1024 * 1024))
-    discovery_errors = [FileError(e.path, 1, 1, e.message) for e in found.errors]
-    errors = all_errors(results, discovery_errors)
+    return results, [FileError(e.path, 1, 1, e.message) for e in found.errors]
+
+
+@main.command()
+@_analysis_options
+@click.option("--format", "output_format", type=click.Choice(["text", "json"]), default="text", show_default=True)
+def explain(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, store: str | None, rows: int | None,
+            jobs: int | None, output_format: str) -> None:
+    """List every chain of row filters in PATHS: steps, predicates, which steps may move, and the plan."""
+    results, discovery_errors = _analyse(paths, exclude, max_file_size, jobs)
+    planned, store_errors = plan_results(results, Options(store=Path(store) if store else None, rows=rows))
+    errors = all_errors(results, discovery_errors + store_errors)
     if output_format == "json":
-        click.echo(explain_json(results, discovery_errors), nl=False)
+        click.echo(explain_json(planned, errors), nl=False)
     else:
-        text = explain_text(results)
+        text = explain_text(planned)
         if text:
             click.echo(text)
         for error in errors:
             click.echo(f"{error.path}:{error.line}:{error.column}: error: {error.message}", err=True)
         click.echo(summary(results, len({e.path for e in errors})))
     sys.exit(EXIT_ERROR if errors else EXIT_OK)
+
+
+@main.command("check")
+@_analysis_options
+@click.option("--format", "output_format", type=click.Choice(["text", "json"]), default="text", show_default=True)
+@click.option("--min-gain", type=click.FloatRange(min=1.0), default=1.25, show_default=True,
+              help="Report a reorder only when the planned order is estimated at least this many times faster.")
+@click.option("--min-saving-ms", type=click.FloatRange(min=0.0), default=5.0, show_default=True,
+              help="... and saves at least this many milliseconds at the estimated row count.")
+@click.option("--rule", "rules", multiple=True, type=click.Choice(sorted(RULES)),
+              help="Run only these rules (default: all but `unbound`); repeatable.")
+def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, store: str | None, rows: int | None,
+                  jobs: int | None, output_format: str, min_gain: float, min_saving_ms: float, rules: Sequence[str]) -> None:
+    """Report chains of row filters in PATHS that run in a costly order, and literals the data never holds.
+
+    Exit status: 0 without findings, 1 with findings, 2 when a file or profile could not be read.
+    """
+    results, discovery_errors = _analyse(paths, exclude, max_file_size, jobs)
+    options = Options(
+        store=Path(store) if store else None,
+        rows=rows,
+        rules=frozenset(rules) if rules else Options().rules,
+        context=RuleContext(min_gain=min_gain, min_saving=min_saving_ms / 1e3),
+    )
+    result = run_check(results, options)
+    result = replace(result, errors=tuple(discovery_errors) + result.errors)
+    if output_format == "json":
+        click.echo(check_json(result), nl=False)
+    else:
+        for line in check_lines(result):
+            click.echo(line)
+        for error in sorted(result.errors, key=lambda e: (e.path, e.line, e.column)):
+            click.echo(f"{error.path}:{error.line}:{error.column}: error: {error.message}", err=True)
+        click.echo(check_summary(result))
+    sys.exit(EXIT_ERROR if result.errors else EXIT_FINDINGS if result.findings else EXIT_OK)
 
 
 class _Progress:

@@ -55,11 +55,29 @@ class Step:
 
 
 @dataclass(frozen=True)
+class FrameOrigin:
+    """What the code says about a chain's first frame.
+
+    `kind`: `read` (assigned from `pd.read_csv/read_parquet/read_feather/read_json`, `path`
+    the literal or module-constant path when there is one), `parameter` (a parameter of the
+    enclosing function), `assigned` (assigned from anything else) or `unknown`; `profile`: a
+    `# chainlint: profile=NAME` comment on the assigning statement.
+    """
+
+    name: str
+    kind: str
+    reader: str | None = None
+    path: str | None = None
+    profile: str | None = None
+
+
+@dataclass(frozen=True)
 class Chain:
     """A maximal run of two or more row filters applied to one frame.
 
     `form` is `method` for one expression (`df[a].query(b)`) or `statements` for a run of
-    assignments (`x = df[a]` / `x = x[b]`); `frame` is the source text of the first frame.
+    assignments (`x = df[a]` / `x = x[b]`); `frame` is the source text of the first frame;
+    `profile_comment` a `# chainlint: profile=NAME` on the chain's first line or the line above.
     """
 
     path: str
@@ -67,6 +85,8 @@ class Chain:
     frame: str
     form: str
     steps: tuple[Step, ...]
+    origin: FrameOrigin | None = None
+    profile_comment: str | None = None
 
     def segments(self) -> tuple[tuple[int, ...], ...]:
         """Indices of the movable steps, grouped into the runs between barriers."""

@@ -2,15 +2,21 @@
 
 from __future__ import annotations
 
+import multiprocessing
 import os
 from collections.abc import Iterable, Sequence
 from concurrent.futures import ProcessPoolExecutor
-import multiprocessing
 
 from chainlint.analysis.model import FileAnalysis, FileError
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import find_seams
-from chainlint.parse.source import DEFAULT_MAX_BYTES, SourceError, SourceText, parse_tree, read_source
+from chainlint.parse.source import (
+    DEFAULT_MAX_BYTES,
+    SourceError,
+    SourceText,
+    parse_tree,
+    read_source,
+)
 
 #: Below this many files a process pool costs more than it saves.
 _POOL_THRESHOLD = 16

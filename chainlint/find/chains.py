@@ -11,6 +11,7 @@ import ast
 from dataclasses import dataclass
 
 from chainlint.analysis.model import Chain, Span, Step
+from chainlint.find.origins import Origins, profile_comment
 from chainlint.find.predicates import dotted_name
 from chainlint.find.screen import Seams
 from chainlint.find.steps import Names, Shape, StepContext, build_step, peel
@@ -62,6 +63,7 @@ class _Finder:
         self.names = names
         self.chains: list[Chain] = []
         self.absorbed: set[int] = set()
+        self.origins = Origins(names.pandas, source.lines)
 
     # -- positions ------------------------------------------------------------------------
     def text_of(self, node: ast.AST) -> str:
@@ -101,10 +103,28 @@ class _Finder:
 
     # -- walking --------------------------------------------------------------------------
     def block(self, statements: list[ast.stmt]) -> None:
-        self.runs(statements)
-        for statement in statements:
-            if self.seams.meets(statement.lineno, statement.end_lineno or statement.lineno):
+        """Walk a block in order, so that a chain sees the assignments made before it."""
+        runs = self.runs(statements)
+        for index, statement in enumerate(statements):
+            if index in runs:
+                self.chains.append(self.statement_run(runs[index]))
+            if isinstance(statement, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)):
+                self.scoped(statement)
+            elif self.seams.meets(statement.lineno, statement.end_lineno or statement.lineno):
                 self.node(statement)
+            self.origins.record(statement)
+
+    def scoped(self, definition: ast.FunctionDef | ast.AsyncFunctionDef | ast.ClassDef) -> None:
+        if not self.seams.meets(definition.lineno, definition.end_lineno or definition.lineno):
+            return
+        for decorator in definition.decorator_list:
+            self.expression(decorator)
+        if not isinstance(definition, ast.ClassDef):
+            for default in definition.args.defaults + [d for d in definition.args.kw_defaults if d is not None]:
+                self.expression(default)
+        self.origins.enter(definition if not isinstance(definition, ast.ClassDef) else None)
+        self.block(definition.body)
+        self.origins.leave()
 
     def node(self, node: ast.AST) -> None:
         for _, value in ast.iter_fields(node):
@@ -154,7 +174,17 @@ class _Finder:
         root = dotted_name(decomposed.base)
         outer = frozenset([root]) if root else frozenset()
         steps = self.steps(decomposed, root, outer, statement=0)
-        return Chain(self.source.path, self.node_span(node), frame, "method", steps)
+        span = self.node_span(node)
+        return Chain(self.source.path, span, frame, "method", steps, self.origins.lookup(root, decomposed.base), self.comment_near(span.line))
+
+    def comment_near(self, line: int) -> str | None:
+        lines = self.source.lines
+        for number in (line, line - 1):
+            if 0 < number <= len(lines):
+                found = profile_comment(lines[number - 1])
+                if found:
+                    return found
+        return None
 
     def steps(
         self, decomposed: _Decomposed, own: str | None, outer: frozenset[str], statement: int
@@ -172,7 +202,9 @@ class _Finder:
             built.append(build_step(shape, context))
         return tuple(built)
 
-    def runs(self, statements: list[ast.stmt]) -> None:
+    def runs(self, statements: list[ast.stmt]) -> dict[int, list[tuple[ast.stmt, _Decomposed]]]:
+        """Statement runs of a block, by the index of their first statement."""
+        found: dict[int, list[tuple[ast.stmt, _Decomposed]]] = {}
         index = 0
         while index < len(statements):
             first = self.assignment(statements[index])
@@ -189,10 +221,11 @@ class _Finder:
                 members.append((statements[following], later[1]))
                 following += 1
             if len(members) >= 2 and self.seams.meets(members[0][0].lineno, members[-1][0].end_lineno or 0):
-                self.chains.append(self.statement_run(members))
+                found[index] = members
                 for statement, _ in members:
                     self.absorbed.add(id(statement.value))  # type: ignore[attr-defined]
             index = following if len(members) >= 2 else index + 1
+        return found
 
     def statement_run(self, members: list[tuple[ast.stmt, _Decomposed]]) -> Chain:
         first_base = members[0][1].base
@@ -205,7 +238,8 @@ class _Finder:
         start = self.node_span(members[0][0])
         end = self.node_span(members[-1][0])
         span = Span(start.line, start.column, end.end_line, end.end_column)
-        return Chain(self.source.path, span, self.text_of(first_base), "statements", tuple(steps))
+        origin = self.origins.lookup(root, first_base)
+        return Chain(self.source.path, span, self.text_of(first_base), "statements", tuple(steps), origin, self.comment_near(span.line))
 
     def assignment(self, statement: ast.stmt) -> tuple[str, _Decomposed] | None:
         """`(x, steps)` for a statement `x = <expression ending in filter steps>`."""

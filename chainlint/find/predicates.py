@@ -13,7 +13,12 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from chainlint.analysis.model import Barrier
-from chainlint.find.barriers import FRAME_ATTRIBUTES, NOT_COLUMNS, frame_reason, is_frame_method
+from chainlint.find.barriers import (
+    FRAME_ATTRIBUTES,
+    NOT_COLUMNS,
+    frame_reason,
+    is_frame_method,
+)
 from chainlint.ir import (
     PREDICATE_TYPES,
     Arith,

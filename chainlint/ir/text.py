@@ -9,6 +9,7 @@ from __future__ import annotations
 import ast
 import re
 
+from chainlint.ir.build import make_and, make_or
 from chainlint.ir.nodes import (
     COMPARE_OPS,
     INCLUSIVE,
@@ -26,7 +27,6 @@ from chainlint.ir.nodes import (
     Range,
     StrTest,
 )
-from chainlint.ir.build import make_and, make_or
 
 
 class PredicateSyntaxError(ValueError):

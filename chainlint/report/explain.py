@@ -6,7 +6,9 @@ import json
 from collections.abc import Sequence
 from typing import Any
 
+from chainlint.analysis.check import PlannedChain
 from chainlint.analysis.model import Chain, FileAnalysis, FileError, Step
+from chainlint.plan.chains import ChainPlan
 
 
 def step_record(step: Step) -> dict[str, Any]:
@@ -46,17 +48,83 @@ def all_errors(results: Sequence[FileAnalysis], extra: Sequence[FileError] = ())
     return sorted([e for r in results for e in r.errors] + list(extra), key=lambda e: (e.path, e.line, e.column))
 
 
-def explain_json(results: Sequence[FileAnalysis], extra_errors: Sequence[FileError] = ()) -> str:
+def planned_record(item: PlannedChain) -> dict[str, Any]:
+    record = chain_record(item.chain)
+    plan = item.plan
+    if plan is None:
+        record["binding"] = None
+        record["reason"] = item.binding.reason
+        record.update(order=None, speedup=None, rows=None, written_seconds=None, planned_seconds=None, fused_seconds=None)
+        for step in record["steps"]:
+            step.update(selectivity=None, basis=None, rows_in=None, rows_out=None, seconds=None)
+        return record
+    record["binding"] = {"profile": item.binding.profile, "how": item.binding.how}
+    record.update(
+        order=list(plan.order),
+        speedup=round(plan.speedup, 4),
+        rows=plan.rows,
+        written_seconds=round(plan.written_seconds, 6),
+        planned_seconds=round(plan.planned_seconds, 6),
+        fused_seconds=round(plan.fused_seconds, 6),
+    )
+    for step, estimate in zip(record["steps"], plan.written):
+        step.update(
+            selectivity=round(estimate.selectivity, 6),
+            basis=estimate.basis,
+            rows_in=round(estimate.rows_in, 1),
+            rows_out=round(estimate.rows_out, 1),
+            seconds=round(estimate.seconds, 6),
+        )
+    return record
+
+
+def explain_json(planned: Sequence[PlannedChain], errors: Sequence[FileError]) -> str:
     document = {
-        "chains": [chain_record(c) for r in results for c in r.chains],
-        "errors": [error_record(e) for e in all_errors(results, extra_errors)],
+        "chains": [planned_record(item) for item in planned],
+        "errors": [error_record(e) for e in sorted(errors, key=lambda e: (e.path, e.line, e.column))],
     }
     return json.dumps(document, indent=2, ensure_ascii=False, sort_keys=False) + "\n"
 
 
-def explain_text(results: Sequence[FileAnalysis]) -> str:
-    blocks = [_chain_text(c) for r in results for c in r.chains]
-    return "\n".join(blocks)
+def explain_text(planned: Sequence[PlannedChain]) -> str:
+    return "\n".join(_chain_text(item.chain) + _plan_text(item) for item in planned)
+
+
+def _plan_text(item: PlannedChain) -> str:
+    plan = item.plan
+    if plan is None:
+        return f"  no plan: {item.binding.reason}\n"
+    lines = [f"  profile `{plan.binding.profile}` (by {plan.binding.how}), {plan.rows:,} rows"]
+    lines += _order_table("written", plan, plan.written)
+    lines += _order_table("planned", plan, plan.planned)
+    lines.append(
+        f"  written {_ms(plan.written_seconds)}, planned {_ms(plan.planned_seconds)} "
+        f"({plan.speedup:.2f}x), fused into one mask {_ms(plan.fused_seconds)}"
+    )
+    return "\n".join(lines) + "\n"
+
+
+def _ms(seconds: float) -> str:
+    return f"{seconds * 1e3:.1f} ms"
+
+
+def _order_table(title: str, plan: ChainPlan, estimates) -> list[str]:  # type: ignore[no-untyped-def]
+    rows = [(title, "rows in", "rows out", "keeps", "basis", "time")]
+    for estimate in estimates:
+        rows.append((
+            f"step {estimate.step + 1}",
+            f"{estimate.rows_in:,.0f}",
+            f"{estimate.rows_out:,.0f}",
+            f"{estimate.selectivity:.2%}",
+            estimate.basis,
+            _ms(estimate.seconds),
+        ))
+    widths = [max(len(r[i]) for r in rows) for i in range(6)]
+    aligned = []
+    for row in rows:
+        cells = [row[0].ljust(widths[0])] + [row[i].rjust(widths[i]) if i != 4 else row[i].ljust(widths[i]) for i in range(1, 6)]
+        aligned.append("    " + "  ".join(cells))
+    return aligned
 
 
 def _chain_text(chain: Chain) -> str:

@@ -1,0 +1,93 @@
+"""The main job: analyse files, bind each chain to a profile, plan it, and apply the rules."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from chainlint.analysis.model import Chain, FileAnalysis, FileError
+from chainlint.bind.binding import Binding, bind_chain
+from chainlint.bind.profiles import load_store
+from chainlint.config import ConfigError, bindings, nearest_pyproject
+from chainlint.plan.chains import ChainPlan, plan_chain
+from chainlint.profile.store import find_store
+from chainlint.rules import Finding, RuleContext, never_matches, reorder, unbound
+
+#: Rule names, and whether each runs unless asked otherwise.
+RULES = {reorder.NAME: True, never_matches.NAME: True, unbound.NAME: False}
+
+
+@dataclass(frozen=True)
+class Options:
+    store: Path | None = None
+    rows: int | None = None
+    rules: frozenset[str] = frozenset(name for name, on in RULES.items() if on)
+    context: RuleContext = field(default_factory=RuleContext)
+
+
+@dataclass(frozen=True)
+class PlannedChain:
+    """A chain, its binding, and (when bound) its plan and the profile it was planned with."""
+
+    chain: Chain
+    binding: Binding
+    plan: ChainPlan | None = None
+    profile: dict[str, Any] | None = field(default=None, compare=False, repr=False)
+    key: bytes = field(default=b"", compare=False, repr=False)
+
+
+@dataclass(frozen=True)
+class CheckResult:
+    chains: tuple[PlannedChain, ...]
+    findings: tuple[Finding, ...]
+    errors: tuple[FileError, ...]
+    files: int
+
+
+def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[list[PlannedChain], list[FileError]]:
+    """Bind and plan every chain; store and configuration problems become located errors."""
+    planned: list[PlannedChain] = []
+    errors: dict[str, FileError] = {}
+    for result in results:
+        if not result.chains:
+            continue
+        profiles = load_store((options.store or find_store(Path(result.path))).resolve())
+        problems = list(profiles.errors)
+        try:
+            config = bindings(nearest_pyproject(Path(result.path)))
+        except ConfigError as error:
+            problems.append(str(error))
+            config = ()
+        for message in problems:
+            errors.setdefault(message, FileError(message.split(":")[0], 1, 1, message))
+        for chain in result.chains:
+            binding = bind_chain(chain, profiles, config)
+            if binding.profile is None:
+                planned.append(PlannedChain(chain, binding))
+                continue
+            document = profiles.profiles[binding.profile]
+            plan = plan_chain(chain, binding, document, profiles.key, options.rows)
+            planned.append(PlannedChain(chain, binding, plan, document, profiles.key))
+    return planned, list(errors.values())
+
+
+def apply_rules(planned: Sequence[PlannedChain], options: Options) -> list[Finding]:
+    findings: list[Finding] = []
+    for item in planned:
+        if unbound.NAME in options.rules:
+            findings.extend(unbound.check(item.chain, item.binding))
+        if item.plan is None or item.profile is None:
+            continue
+        if reorder.NAME in options.rules:
+            findings.extend(reorder.check(item.plan, options.context))
+        if never_matches.NAME in options.rules:
+            findings.extend(never_matches.check(item.plan, item.profile, item.key))
+    return sorted(findings, key=lambda f: (f.path, f.span.line, f.span.column, f.rule))
+
+
+def check(results: Sequence[FileAnalysis], options: Options) -> CheckResult:
+    planned, errors = plan_results(results, options)
+    file_errors = [e for r in results for e in r.errors]
+    return CheckResult(tuple(planned), tuple(apply_rules(planned, options)), tuple(file_errors + errors), len(results))

@@ -1,0 +1,1 @@
+"""Binding: which profile describes the frame a chain filters."""

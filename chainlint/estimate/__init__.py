@@ -1,0 +1,1 @@
+"""Estimation: selectivity of predicates from a profile, and the cost of running steps."""

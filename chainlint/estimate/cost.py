@@ -1,0 +1,137 @@
+"""A cost model of pandas 3 boolean-mask filtering, in nanoseconds.
+
+Measured on pandas 3.1.1, a 2,000,000 x 40 frame (the figures issue #4 records). A step costs
+`n_in * (predicate + per-input-row take) + n_out * per-kept-row take + fixed`:
+- predicate per input row: numeric `==`/`>` 0.4-0.9, float `between` 1.4, pyarrow `str` `==`
+  3.7-5.7, `str` `isin` 13-15, int `isin` 3-13, `.str.contains` 40-45, object `==` 31,
+  category `==` 0.13, each `&` 0.23;
+- taking the kept rows: numeric columns 0.2 per input row in all, plus per kept row per column
+  8-10 at 5% kept or less, 2.3 at 30%, 1.6 at 70% or more; pyarrow string columns 1.3 per
+  input row per column, plus per kept row per column 41-44 at 1-5% and 9.4 at 30% or more;
+  a mask that keeps every row copies nothing;
+- a fixed 0.4-1 ms per step.
+Values marked "assumed" were not measured; `CostModel` holds all of them so that a
+calibration can replace them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from chainlint.ir import (
+    And,
+    Arith,
+    Column,
+    Compare,
+    Member,
+    Node,
+    Not,
+    NullTest,
+    Opaque,
+    Or,
+    Range,
+    StrTest,
+)
+
+
+@dataclass(frozen=True)
+class CostModel:
+    compare: dict[str, float] = field(default_factory=lambda: {"numeric": 0.65, "str": 4.7, "object": 31.0, "category": 0.13})
+    member: dict[str, float] = field(default_factory=lambda: {"numeric": 8.0, "str": 14.0, "object": 40.0, "category": 1.0})
+    between: float = 1.4
+    null_test: float = 0.5  # assumed
+    string_test: float = 42.0
+    arith: float = 0.7  # assumed, per operation
+    combine: float = 0.23
+    opaque: float = 10.0  # assumed
+    numeric_take_in: float = 0.2
+    string_take_in: float = 1.3
+    numeric_take_kept: tuple[tuple[float, float], ...] = ((0.0, 9.0), (0.05, 9.0), (0.30, 2.3), (0.70, 1.6), (1.0, 1.6))
+    string_take_kept: tuple[tuple[float, float], ...] = ((0.0, 42.0), (0.05, 42.0), (0.30, 9.4), (1.0, 9.4))
+    fixed: float = 700_000.0
+
+
+DEFAULT_MODEL = CostModel()
+
+
+@dataclass(frozen=True)
+class FrameShape:
+    """What the cost depends on in the frame: its column kinds, from the profile."""
+
+    kinds: dict[str, str]
+
+    @property
+    def numeric_columns(self) -> int:
+        return sum(1 for kind in self.kinds.values() if kind in ("numeric", "category"))
+
+    @property
+    def string_columns(self) -> int:
+        return sum(1 for kind in self.kinds.values() if kind in ("str", "object"))
+
+
+def column_kind(pandas_type: str) -> str:
+    if pandas_type == "str":
+        return "str"
+    if pandas_type == "object":
+        return "object"
+    if pandas_type == "category":
+        return "category"
+    return "numeric"
+
+
+def shape_of(profile: dict) -> FrameShape:
+    return FrameShape({name: column_kind(column["type"]) for name, column in profile["columns"].items()})
+
+
+def predicate_cost(node: Node, shape: FrameShape, model: CostModel = DEFAULT_MODEL) -> float:
+    """Nanoseconds per input row to evaluate the predicate."""
+    if isinstance(node, (And, Or)):
+        return sum(predicate_cost(p, shape, model) for p in node.parts) + model.combine * (len(node.parts) - 1)
+    if isinstance(node, Not):
+        return predicate_cost(node.operand, shape, model) + model.combine
+    if isinstance(node, Opaque):
+        return model.opaque
+    if isinstance(node, Arith):
+        return model.arith + predicate_cost(node.left, shape, model) + predicate_cost(node.right, shape, model)
+    kind = _operand_kind(node, shape)
+    if isinstance(node, Compare):
+        extra = sum(predicate_cost(side, shape, model) for side in (node.left, node.right) if isinstance(side, (Arith, Opaque)))
+        return model.compare[kind] + extra
+    if isinstance(node, Member):
+        return model.member[kind]
+    if isinstance(node, Range):
+        return model.between if kind != "str" else 2 * model.compare["str"]
+    if isinstance(node, NullTest):
+        return model.null_test
+    if isinstance(node, StrTest):
+        return model.string_test
+    return 0.0
+
+
+def _operand_kind(node: Node, shape: FrameShape) -> str:
+    operand = getattr(node, "operand", None) or getattr(node, "left", None)
+    if isinstance(operand, Column):
+        return shape.kinds.get(operand.name, "numeric")
+    return "numeric"
+
+
+def _interpolate(points: tuple[tuple[float, float], ...], share: float) -> float:
+    xs, ys = zip(*points)
+    return float(np.interp(share, xs, ys))
+
+
+def take_cost(rows_in: float, kept: float, shape: FrameShape, model: CostModel = DEFAULT_MODEL) -> float:
+    """Nanoseconds to copy the kept rows of every column; `kept` is the share kept."""
+    if kept >= 1.0:
+        return 0.0
+    rows_out = rows_in * kept
+    numeric = rows_in * model.numeric_take_in + rows_out * shape.numeric_columns * _interpolate(model.numeric_take_kept, kept)
+    strings = shape.string_columns * (rows_in * model.string_take_in + rows_out * _interpolate(model.string_take_kept, kept))
+    return numeric + strings
+
+
+def step_cost(rows_in: float, predicate: float, kept: float, shape: FrameShape, model: CostModel = DEFAULT_MODEL) -> float:
+    """Nanoseconds for one step that receives `rows_in` rows and keeps the share `kept`."""
+    return rows_in * predicate + take_cost(rows_in, kept, shape, model) + model.fixed

@@ -1,0 +1,268 @@
+"""Selectivity of a predicate from a profile: the share of the rows it receives that it keeps.
+
+Methods (every estimate carries its basis, weakest part wins):
+- equality: the most-common-values list; for a value not listed, the rest spread evenly over
+  the other distinct values, (1 - sum of MCV shares - null share) / (distinct - number of MCVs),
+  as PostgreSQL's planner documents ("Row Estimation Examples");
+- ranges: interpolation in the equi-depth histogram, using the MCV share at the bound;
+- membership: sums of equalities; null tests: exact; `.str` tests: evaluated over the listed
+  values, the rest at the default pattern selectivity;
+- `not`, `and`, `or`: under independence.
+Defaults where nothing is known are PostgreSQL's (src/include/utils/selfuncs.h, from memory):
+0.005 for equality and pattern matches, 1/3 for inequalities.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from chainlint.ir import (
+    And,
+    Column,
+    Compare,
+    Literal,
+    Member,
+    Named,
+    Node,
+    Not,
+    NullTest,
+    Or,
+    Range,
+    StrTest,
+)
+from chainlint.profile.columns import redact_value
+
+DEFAULT_EQ = 0.005
+DEFAULT_INEQ = 1.0 / 3.0
+DEFAULT_MATCH = 0.005
+
+#: Bases from strongest to weakest.
+BASES = ("exact", "most-common", "histogram", "default")
+
+
+@dataclass(frozen=True)
+class Estimate:
+    selectivity: float
+    basis: str
+
+
+def _weakest(*bases: str) -> str:
+    return max(bases, key=BASES.index)
+
+
+def _clip(value: float) -> float:
+    return min(1.0, max(0.0, value))
+
+
+class ColumnStats:
+    """One column of a profile, read for estimation."""
+
+    def __init__(self, column: dict[str, Any], key: bytes) -> None:
+        rows = max(column["rows"], 1)
+        self.rows = rows
+        self.null_share = column["nulls"] / rows
+        self.redacted = bool(column.get("redacted"))
+        self.key = key
+        top = column.get("top") or {"values": [], "exact": False, "complete": False}
+        self.mcv: dict[Any, float] = {}
+        for value, count in top["values"]:
+            self.mcv[_normal(value)] = count / rows
+        self.complete = bool(top.get("exact") and top.get("complete"))
+        suppressed = column.get("suppressed") or {"values": 0, "rows": 0}
+        self.suppressed_values = suppressed["values"]
+        self.suppressed_share = suppressed["rows"] / rows
+        distinct = column.get("distinct") or {"value": 0}
+        self.distinct = max(int(distinct["value"]), len(self.mcv))
+        self.temporal = column.get("type", "").startswith("datetime")
+        bounds = (column.get("histogram") or {}).get("bounds")
+        self.bounds = None
+        if bounds and not self.temporal and all(isinstance(b, (int, float)) for b in bounds):
+            self.bounds = np.array(bounds, dtype=np.float64)
+        self.type = column.get("type", "")
+
+    def lookup(self, value: Any) -> Any:
+        return redact_value(self.key, value) if self.redacted else _normal(value)
+
+    def equal(self, value: Any) -> Estimate:
+        key = self.lookup(value)
+        if key in self.mcv:
+            return Estimate(self.mcv[key], "exact" if self.complete else "most-common")
+        if self.complete:
+            if self.suppressed_values == 0:
+                return Estimate(0.0, "exact")
+            return Estimate(self.suppressed_share / self.suppressed_values, "most-common")
+        others = self.distinct - len(self.mcv)
+        if others <= 0:
+            return Estimate(0.0, "most-common")
+        rest = 1.0 - sum(self.mcv.values()) - self.null_share
+        return Estimate(_clip(rest / others), "most-common")
+
+    def below(self, value: float, inclusive: bool) -> Estimate:
+        """Share of all rows with a non-null value < value (or <=)."""
+        numeric = _number(value)
+        if numeric is None:
+            return Estimate(DEFAULT_INEQ, "default")
+        if self.complete and not self.suppressed_values and self.mcv and all(_number(v) is not None for v in self.mcv):
+            share = sum(s for v, s in self.mcv.items() if (_number(v) <= numeric if inclusive else _number(v) < numeric))
+            return Estimate(_clip(share), "exact")
+        if self.bounds is None:
+            return Estimate(DEFAULT_INEQ, "default")
+        bounds = self.bounds
+        buckets = len(bounds) - 1
+        non_null = 1.0 - self.null_share
+        if numeric < bounds[0]:
+            return Estimate(0.0, "histogram")
+        if numeric > bounds[-1]:
+            return Estimate(non_null, "histogram")
+        low = int(np.searchsorted(bounds, numeric, side="left"))
+        high = int(np.searchsorted(bounds, numeric, side="right"))
+        if low == high:
+            left, right = bounds[low - 1], bounds[low]
+            fraction = (low - 1 + (numeric - left) / (right - left)) / buckets
+            return Estimate(_clip(fraction * non_null), "histogram")
+        # `value` is a bound: F(value) lies in [(high-1)/B, high/B), F(value-) in [(low-1)/B, low/B).
+        at_most = 1.0 if high > buckets else (high - 0.5) / buckets
+        below = 0.0 if low == 0 else (low - 0.5) / buckets
+        if not inclusive:
+            equal = self.mcv.get(self.lookup(value))
+            at_most = at_most - equal / max(non_null, 1e-12) if equal is not None else below
+        return Estimate(_clip(at_most * non_null), "histogram")
+
+
+def _normal(value: Any) -> Any:
+    if isinstance(value, float) and value.is_integer():
+        return int(value)
+    return value
+
+
+def _number(value: Any) -> float | None:
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return None
+    return float(value)
+
+
+class Estimator:
+    """Selectivities of IR nodes against one profile."""
+
+    def __init__(self, profile: dict[str, Any], key: bytes = b"") -> None:
+        self.columns = {name: ColumnStats(column, key) for name, column in profile["columns"].items()}
+
+    def estimate(self, node: Node) -> Estimate:
+        if isinstance(node, Not):
+            inner = self.estimate(node.operand)
+            return Estimate(_clip(1.0 - inner.selectivity), inner.basis)
+        if isinstance(node, And):
+            parts = [self.estimate(p) for p in node.parts]
+            return Estimate(math.prod(p.selectivity for p in parts), _weakest(*(p.basis for p in parts)))
+        if isinstance(node, Or):
+            parts = [self.estimate(p) for p in node.parts]
+            keep = 1.0 - math.prod(1.0 - p.selectivity for p in parts)
+            return Estimate(keep, _weakest(*(p.basis for p in parts)))
+        stats = self._stats(node)
+        if isinstance(node, NullTest):
+            if stats is None:
+                return Estimate(1.0 - DEFAULT_EQ if node.negated else DEFAULT_EQ, "default")
+            return Estimate(1.0 - stats.null_share if node.negated else stats.null_share, "exact")
+        if isinstance(node, Compare):
+            return self._compare(node, stats)
+        if isinstance(node, Member):
+            return self._member(node, stats)
+        if isinstance(node, Range):
+            return self._range(node, stats)
+        if isinstance(node, StrTest):
+            return self._string(node, stats)
+        return Estimate(DEFAULT_INEQ, "default")
+
+    def _stats(self, node: Node) -> ColumnStats | None:
+        operand = getattr(node, "operand", None) or getattr(node, "left", None)
+        if isinstance(operand, Column):
+            return self.columns.get(operand.name)
+        return None
+
+    def _compare(self, node: Compare, stats: ColumnStats | None) -> Estimate:
+        literal = node.right.value if isinstance(node.right, Literal) else None
+        known = stats is not None and isinstance(node.right, Literal) and literal is not None
+        if node.op in ("==", "!="):
+            if not known:
+                equal = Estimate(DEFAULT_EQ, "default")
+            else:
+                equal = stats.equal(literal)  # type: ignore[union-attr]
+            if node.op == "==":
+                return equal
+            return Estimate(_clip(1.0 - equal.selectivity), equal.basis)
+        if not known or stats.redacted:  # type: ignore[union-attr]
+            return Estimate(DEFAULT_INEQ, "default")
+        assert stats is not None
+        non_null = 1.0 - stats.null_share
+        if node.op in ("<", "<="):
+            return stats.below(literal, node.op == "<=")
+        below = stats.below(literal, node.op == ">")
+        return Estimate(_clip(non_null - below.selectivity), below.basis)
+
+    def _member(self, node: Member, stats: ColumnStats | None) -> Estimate:
+        if stats is None or isinstance(node.values, Named) or not all(isinstance(v, Literal) for v in node.values):
+            share = Estimate(min(DEFAULT_EQ * (1 if isinstance(node.values, Named) else len(node.values)), 1.0), "default")
+        else:
+            values = {stats.lookup(v.value) for v in node.values if isinstance(v, Literal) and v.value is not None}
+            parts = [stats.equal(v) for v in values]
+            total = sum(p.selectivity for p in parts)
+            share = Estimate(_clip(min(total, 1.0 - stats.null_share)), _weakest("exact", *(p.basis for p in parts)))
+        if node.negated:
+            return Estimate(_clip(1.0 - share.selectivity), share.basis)
+        return share
+
+    def _range(self, node: Range, stats: ColumnStats | None) -> Estimate:
+        low = node.low.value if isinstance(node.low, Literal) else None
+        high = node.high.value if isinstance(node.high, Literal) else None
+        if stats is None or low is None or high is None or stats.redacted:
+            return Estimate(DEFAULT_EQ, "default")
+        include_low = node.inclusive in ("both", "left")
+        include_high = node.inclusive in ("both", "right")
+        upper = stats.below(high, include_high)
+        lower = stats.below(low, not include_low)
+        return Estimate(_clip(upper.selectivity - lower.selectivity), _weakest(upper.basis, lower.basis))
+
+    def _string(self, node: StrTest, stats: ColumnStats | None) -> Estimate:
+        if stats is None or stats.redacted or not isinstance(node.pattern, Literal) or not isinstance(node.pattern.value, str):
+            return Estimate(DEFAULT_MATCH, "default")
+        test = _string_test(node)
+        if test is None:
+            return Estimate(DEFAULT_MATCH, "default")
+        listed = sum(share for value, share in stats.mcv.items() if isinstance(value, str) and test(value))
+        rest = _clip(1.0 - sum(stats.mcv.values()) - stats.null_share)
+        if stats.complete and not stats.suppressed_values:
+            return Estimate(_clip(listed), "exact")
+        return Estimate(_clip(listed + rest * DEFAULT_MATCH), "most-common")
+
+
+def _string_test(node: StrTest):  # type: ignore[no-untyped-def]
+    """A Python predicate with the pandas method's meaning, for the listed values."""
+    pattern = node.pattern.value  # type: ignore[attr-defined]
+    options = {key: value.value for key, value in node.options if isinstance(value, Literal)}
+    if node.method == "startswith":
+        return lambda v: v.startswith(pattern)
+    if node.method == "endswith":
+        return lambda v: v.endswith(pattern)
+    flags = int(options.get("flags", 0) or 0)
+    if options.get("case") is False:
+        flags |= re.IGNORECASE
+    if node.method == "contains" and options.get("regex") is False:
+        if flags & re.IGNORECASE:
+            return lambda v: pattern.lower() in v.lower()
+        return lambda v: pattern in v
+    try:
+        compiled = re.compile(pattern, flags)
+    except re.error:
+        return None
+    method = {"contains": compiled.search, "match": compiled.match, "fullmatch": compiled.fullmatch}[node.method]
+    return lambda v: method(v) is not None
+
+
+def estimate_step(estimator: Estimator | None, node: Node) -> Estimate:
+    """A step's selectivity; without a profile, the default for an inequality."""
+    return estimator.estimate(node) if estimator is not None else Estimate(DEFAULT_INEQ, "default")

@@ -1,0 +1,97 @@
+"""Where a chain's frame comes from, as far as the code says: what the binding stage needs.
+
+Recorded per scope while the finder walks statements in order: `x = pd.read_parquet("f")`
+(with a literal path or a module-level string constant), function parameters, and
+`# chainlint: profile=NAME` comments on the assigning statement.
+"""
+
+from __future__ import annotations
+
+import ast
+import re
+from dataclasses import dataclass, field
+
+from chainlint.analysis.model import FrameOrigin
+
+PROFILE_COMMENT = re.compile(r"#\s*chainlint:\s*profile\s*=\s*([A-Za-z0-9][A-Za-z0-9_.\-]*)")
+READERS = frozenset({"read_csv", "read_parquet", "read_feather", "read_json"})
+
+
+def profile_comment(line: str) -> str | None:
+    match = PROFILE_COMMENT.search(line)
+    return match.group(1) if match else None
+
+
+@dataclass
+class Scope:
+    parameters: frozenset[str] = frozenset()
+    assigned: dict[str, FrameOrigin] = field(default_factory=dict)
+
+
+class Origins:
+    """Scopes from the module inward; lookups fall back outward as Python's closures do."""
+
+    def __init__(self, pandas: frozenset[str], lines: tuple[str, ...]) -> None:
+        self.pandas = pandas
+        self.lines = lines
+        self.constants: dict[str, str] = {}
+        self.scopes: list[Scope] = [Scope()]
+
+    def enter(self, function: ast.FunctionDef | ast.AsyncFunctionDef | None) -> None:
+        names: set[str] = set()
+        if function is not None:
+            arguments = function.args
+            for argument in arguments.posonlyargs + arguments.args + arguments.kwonlyargs:
+                names.add(argument.arg)
+        self.scopes.append(Scope(frozenset(names)))
+
+    def leave(self) -> None:
+        self.scopes.pop()
+
+    def comment_on(self, statement: ast.stmt) -> str | None:
+        for number in range(statement.lineno, (statement.end_lineno or statement.lineno) + 1):
+            found = profile_comment(self.lines[number - 1]) if number <= len(self.lines) else None
+            if found:
+                return found
+        return None
+
+    def record(self, statement: ast.stmt) -> None:
+        """Note what a statement binds, after the finder has looked at it."""
+        if not isinstance(statement, ast.Assign) or len(statement.targets) != 1:
+            return
+        target = statement.targets[0]
+        if not isinstance(target, ast.Name):
+            return
+        value = statement.value
+        if len(self.scopes) == 1 and isinstance(value, ast.Constant) and isinstance(value.value, str):
+            self.constants[target.id] = value.value
+        reader, path = self.reader_call(value)
+        kind = "read" if reader else "assigned"
+        self.scopes[-1].assigned[target.id] = FrameOrigin(target.id, kind, reader, path, self.comment_on(statement))
+
+    def reader_call(self, value: ast.expr) -> tuple[str | None, str | None]:
+        """`("read_parquet", "data/x.parquet")` for `pd.read_parquet("data/x.parquet")`."""
+        if not (isinstance(value, ast.Call) and isinstance(value.func, ast.Attribute)):
+            return None, None
+        func = value.func
+        if not (isinstance(func.value, ast.Name) and func.value.id in self.pandas and func.attr in READERS):
+            return None, None
+        argument = value.args[0] if value.args else next((k.value for k in value.keywords if k.arg in ("path", "filepath_or_buffer", "path_or_buf")), None)
+        if isinstance(argument, ast.Constant) and isinstance(argument.value, str):
+            return func.attr, argument.value
+        if isinstance(argument, ast.Name):
+            return func.attr, self.constants.get(argument.id)
+        return func.attr, None
+
+    def lookup(self, name: str | None, base: ast.expr) -> FrameOrigin | None:
+        reader, path = self.reader_call(base)
+        if reader:
+            return FrameOrigin(name or "", "read", reader, path, None)
+        if name is None:
+            return None
+        for scope in reversed(self.scopes):
+            if name in scope.assigned:
+                return scope.assigned[name]
+            if name in scope.parameters:
+                return FrameOrigin(name, "parameter", None, None, None)
+        return FrameOrigin(name, "unknown", None, None, None)

@@ -1,0 +1,1 @@
+"""Planning: the cheapest order of a chain's movable steps, never across a barrier."""

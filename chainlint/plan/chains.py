@@ -1,0 +1,143 @@
+"""The plan of one chain: estimates per step, the written and the planned order, their costs.
+
+Barriers stay where they are; each segment of movable steps between them is planned for the
+rows that reach it. Selectivities are taken as independent.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from chainlint.analysis.model import Chain
+from chainlint.bind.binding import Binding
+from chainlint.estimate.cost import (
+    DEFAULT_MODEL,
+    CostModel,
+    FrameShape,
+    predicate_cost,
+    shape_of,
+    step_cost,
+)
+from chainlint.estimate.selectivity import Estimate, Estimator
+from chainlint.plan.planner import plan_segment
+
+
+@dataclass(frozen=True)
+class StepEstimate:
+    """One step in one order: the share of its own input it keeps, its rows and its time."""
+
+    step: int
+    selectivity: float
+    basis: str
+    rows_in: float
+    rows_out: float
+    seconds: float
+
+
+@dataclass(frozen=True)
+class ChainPlan:
+    chain: Chain
+    binding: Binding
+    rows: int
+    written: tuple[StepEstimate, ...]
+    planned: tuple[StepEstimate, ...]
+    fused_seconds: float
+
+    @property
+    def order(self) -> tuple[int, ...]:
+        return tuple(e.step for e in self.planned)
+
+    @property
+    def written_seconds(self) -> float:
+        return sum(e.seconds for e in self.written)
+
+    @property
+    def planned_seconds(self) -> float:
+        return sum(e.seconds for e in self.planned)
+
+    @property
+    def speedup(self) -> float:
+        return self.written_seconds / self.planned_seconds if self.planned_seconds > 0 else 1.0
+
+
+def plan_chain(chain: Chain, binding: Binding, profile: dict, key: bytes, rows: int | None = None,
+               model: CostModel = DEFAULT_MODEL) -> ChainPlan:
+    """Plan a bound chain; `rows` scales the estimates to a production row count."""
+    estimator = Estimator(profile, key)
+    shape = shape_of(profile)
+    total_rows = rows or profile["rows"]
+    estimates = [estimator.estimate(step.predicate) for step in chain.steps]
+    predicates = [predicate_cost(step.predicate, shape, model) for step in chain.steps]
+
+    def rows_after(mask: int) -> float:
+        return total_rows * math.prod(estimates[i].selectivity for i in range(len(estimates)) if mask >> i & 1)
+
+    def cost(step: int, rows_in: float, kept: float) -> float:
+        return step_cost(rows_in, predicates[step], kept, shape, model)
+
+    planned: list[int] = []
+    done = 0
+    index = 0
+    while index < len(chain.steps):
+        if not chain.steps[index].movable:
+            planned.append(index)
+            done |= 1 << index
+            index += 1
+            continue
+        segment = []
+        while index < len(chain.steps) and chain.steps[index].movable:
+            segment.append(index)
+            index += 1
+        base = done
+
+        def segment_rows(mask: int, base: int = base) -> float:
+            return rows_after(base | mask)
+
+        order, _ = plan_segment(segment, segment_rows, cost)
+        planned.extend(order)
+        for step in segment:
+            done |= 1 << step
+    written = _walk(range(len(chain.steps)), estimates, rows_after, cost)
+    planned_estimates = _walk(planned, estimates, rows_after, cost)
+    fused = _fused_seconds(chain, estimates, predicates, total_rows, shape, model)
+    return ChainPlan(chain, binding, total_rows, written, planned_estimates, fused)
+
+
+def _walk(order, estimates: list[Estimate], rows_after, cost) -> tuple[StepEstimate, ...]:  # type: ignore[no-untyped-def]
+    out = []
+    mask = 0
+    for step in order:
+        rows_in = rows_after(mask)
+        mask |= 1 << step
+        rows_out = rows_after(mask)
+        kept = 1.0 if rows_in <= 0 else rows_out / rows_in
+        seconds = cost(step, rows_in, kept) / 1e9
+        out.append(StepEstimate(step, estimates[step].selectivity, estimates[step].basis, rows_in, rows_out, seconds))
+    return tuple(out)
+
+
+def _fused_seconds(chain: Chain, estimates: list[Estimate], predicates: list[float], rows: float,
+                   shape: FrameShape, model: CostModel) -> float:
+    """Each segment of movable steps as one mask joined with `&`, barriers as written."""
+    total = 0.0
+    rows_in = float(rows)
+    index = 0
+    steps = chain.steps
+    while index < len(steps):
+        if not steps[index].movable:
+            kept = estimates[index].selectivity
+            total += step_cost(rows_in, predicates[index], kept, shape, model)
+            rows_in *= kept
+            index += 1
+            continue
+        segment = []
+        while index < len(steps) and steps[index].movable:
+            segment.append(index)
+            index += 1
+        kept = math.prod(estimates[i].selectivity for i in segment)
+        predicate = sum(predicates[i] for i in segment) + model.combine * (len(segment) - 1)
+        total += step_cost(rows_in, predicate, kept, shape, model)
+        rows_in *= kept
+    return total / 1e9
+

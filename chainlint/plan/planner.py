@@ -1,0 +1,81 @@
+"""The cheapest order of one segment of movable steps.
+
+Under independence, with a per-row cost a_i and a selectivity s_i that do not depend on the
+order, ascending a_i / (1 - s_i) is optimal (rank ordering: Ibaraki & Kameda 1984;
+Krishnamurthy, Boral & Zaniolo 1986; Hellerstein 1998). chainlint's take cost depends on the
+share a step keeps, and joint selectivities may be known, so the planner runs an exact dynamic
+program over subsets (2^k * k) for up to 12 steps, and a greedy rank order beyond.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Sequence
+
+#: `cost(step, rows_in, kept_share)` in nanoseconds.
+StepCost = Callable[[int, float, float], float]
+#: `rows_after(mask)`: rows left after the steps in the bit mask (in any order).
+RowsAfter = Callable[[int], float]
+
+EXACT_LIMIT = 12
+
+
+def order_cost(order: Sequence[int], rows_after: RowsAfter, cost: StepCost) -> float:
+    total, mask = 0.0, 0
+    for step in order:
+        rows_in = rows_after(mask)
+        mask |= 1 << step
+        total += cost(step, rows_in, _share(rows_after(mask), rows_in))
+    return total
+
+
+def _share(rows_out: float, rows_in: float) -> float:
+    return 1.0 if rows_in <= 0 else min(1.0, rows_out / rows_in)
+
+
+def plan_segment(steps: Sequence[int], rows_after: RowsAfter, cost: StepCost) -> tuple[tuple[int, ...], float]:
+    """The cheapest order of `steps` (indices into the bit masks) and its cost."""
+    steps = list(steps)
+    if len(steps) <= 1:
+        return tuple(steps), order_cost(steps, rows_after, cost)
+    if len(steps) > EXACT_LIMIT:
+        return _greedy(steps, rows_after, cost)
+    full = 0
+    for step in steps:
+        full |= 1 << step
+    best: dict[int, tuple[float, tuple[int, ...]]] = {0: (0.0, ())}
+    # Masks in order of size, so every subset is final before it is extended.
+    for size in range(len(steps)):
+        for mask, (spent, order) in [(m, v) for m, v in best.items() if bin(m).count("1") == size]:
+            rows_in = rows_after(mask)
+            for step in steps:
+                bit = 1 << step
+                if mask & bit:
+                    continue
+                after = mask | bit
+                total = spent + cost(step, rows_in, _share(rows_after(after), rows_in))
+                if after not in best or total < best[after][0] - 1e-9 or (
+                    math.isclose(total, best[after][0], rel_tol=1e-12) and order + (step,) < best[after][1]
+                ):
+                    best[after] = (total, order + (step,))
+    spent, order = best[full]
+    return order, spent
+
+
+def _greedy(steps: list[int], rows_after: RowsAfter, cost: StepCost) -> tuple[tuple[int, ...], float]:
+    order: list[int] = []
+    mask = 0
+    remaining = list(steps)
+    while remaining:
+        rows_in = rows_after(mask)
+
+        def rank(step: int, mask: int = mask, rows_in: float = rows_in) -> float:
+            kept = _share(rows_after(mask | 1 << step), rows_in)
+            spend = cost(step, rows_in, kept)
+            return spend / max(1.0 - kept, 1e-12)
+
+        choice = min(remaining, key=lambda s: (rank(s), s))
+        order.append(choice)
+        remaining.remove(choice)
+        mask |= 1 << choice
+    return tuple(order), order_cost(order, rows_after, cost)

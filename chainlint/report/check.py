@@ -1,0 +1,54 @@
+"""`chainlint check` output: GNU `path:line:col: rule: message` lines and a summary, or JSON."""
+
+from __future__ import annotations
+
+import json
+from collections import Counter
+from typing import Any
+
+from chainlint.analysis.check import CheckResult
+from chainlint.report.explain import error_record
+from chainlint.rules import Finding
+
+
+def finding_record(finding: Finding) -> dict[str, Any]:
+    return {
+        "rule": finding.rule,
+        "path": finding.path,
+        "line": finding.span.line,
+        "column": finding.span.column,
+        "end_line": finding.span.end_line,
+        "end_column": finding.span.end_column,
+        "message": finding.message,
+        "speedup": None if finding.speedup is None else round(finding.speedup, 4),
+        "current_seconds": None if finding.current_seconds is None else round(finding.current_seconds, 6),
+        "planned_seconds": None if finding.planned_seconds is None else round(finding.planned_seconds, 6),
+        "order": None if finding.order is None else list(finding.order),
+    }
+
+
+def check_json(result: CheckResult) -> str:
+    document = {
+        "findings": [finding_record(f) for f in result.findings],
+        "errors": [error_record(e) for e in sorted(result.errors, key=lambda e: (e.path, e.line, e.column))],
+    }
+    return json.dumps(document, indent=2, ensure_ascii=False) + "\n"
+
+
+def check_lines(result: CheckResult) -> list[str]:
+    return [f"{f.path}:{f.span.line}:{f.span.column}: {f.rule}: {f.message}" for f in result.findings]
+
+
+def check_summary(result: CheckResult) -> str:
+    chains = len(result.chains)
+    bound = sum(1 for c in result.chains if c.plan is not None)
+    by_rule = Counter(f.rule for f in result.findings)
+    if result.findings:
+        parts = ", ".join(f"{count} {rule}" for rule, count in sorted(by_rule.items()))
+        head = f"{len(result.findings)} finding{'s' if len(result.findings) != 1 else ''} ({parts})"
+    else:
+        head = "no findings"
+    text = f"{head}; {chains} chain{'s' if chains != 1 else ''} in {result.files} file{'s' if result.files != 1 else ''}, {bound} planned with a profile"
+    if result.errors:
+        text += f"; {len(result.errors)} error{'s' if len(result.errors) != 1 else ''}"
+    return text

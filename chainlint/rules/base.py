@@ -1,0 +1,27 @@
+"""What a rule returns, and what it is given."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from chainlint.analysis.model import Span
+
+
+@dataclass(frozen=True)
+class Finding:
+    rule: str
+    path: str
+    span: Span
+    message: str
+    speedup: float | None = None
+    current_seconds: float | None = None
+    planned_seconds: float | None = None
+    order: tuple[int, ...] | None = None
+
+
+@dataclass(frozen=True)
+class RuleContext:
+    """Thresholds: `min_gain` (speedup) and `min_saving` (seconds at the estimated row count)."""
+
+    min_gain: float = 1.25
+    min_saving: float = 0.005

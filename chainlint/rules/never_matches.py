@@ -1,0 +1,51 @@
+"""`never-matches`: an equality or membership literal that an exact profile never saw."""
+
+from __future__ import annotations
+
+import difflib
+
+from chainlint.estimate.selectivity import ColumnStats
+from chainlint.ir import And, Column, Compare, Literal, Member, Node, Not, Or
+from chainlint.plan.chains import ChainPlan
+from chainlint.rules.base import Finding
+
+NAME = "never-matches"
+SUMMARY = "a literal the data never holds"
+
+
+def _tests(node: Node):  # type: ignore[no-untyped-def]
+    """(column, literal) pairs tested for equality anywhere in the predicate."""
+    if isinstance(node, (And, Or)):
+        for part in node.parts:
+            yield from _tests(part)
+    elif isinstance(node, Not):
+        yield from _tests(node.operand)
+    elif isinstance(node, Compare) and node.op in ("==", "!=") and isinstance(node.left, Column) and isinstance(node.right, Literal):
+        yield node.left.name, node.right.value
+    elif isinstance(node, Member) and isinstance(node.operand, Column) and isinstance(node.values, tuple):
+        for value in node.values:
+            if isinstance(value, Literal):
+                yield node.operand.name, value.value
+
+
+def check(plan: ChainPlan, profile: dict, key: bytes) -> list[Finding]:
+    findings = []
+    for step in plan.chain.steps:
+        for column, value in _tests(step.predicate):
+            if column not in profile["columns"] or value is None:
+                continue
+            stats = ColumnStats(profile["columns"][column], key)
+            if not stats.complete or stats.redacted or stats.lookup(value) in stats.mcv:
+                continue
+            if any(isinstance(v, str) for v in stats.mcv) != isinstance(value, str):
+                continue
+            known = [str(v) for v in stats.mcv]
+            close = difflib.get_close_matches(str(value), known, n=3, cutoff=0.5)
+            hint = f"; did you mean {' or '.join(repr(c) for c in close)}?" if close else ""
+            if stats.suppressed_values:
+                seen = f"occurs in fewer than {profile['settings']['min_count']} rows of profile `{plan.binding.profile}`, if at all"
+            else:
+                seen = f"never occurs in profile `{plan.binding.profile}`"
+            message = f"`{column}` == {value!r} {seen} ({len(known)} known values){hint}"
+            findings.append(Finding(NAME, plan.chain.path, step.span, message))
+    return findings

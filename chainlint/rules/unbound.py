@@ -1,0 +1,16 @@
+"""`unbound` (off by default): a chain no profile describes, so nothing can be estimated."""
+
+from __future__ import annotations
+
+from chainlint.analysis.model import Chain
+from chainlint.bind.binding import Binding
+from chainlint.rules.base import Finding
+
+NAME = "unbound"
+SUMMARY = "a chain with no profile"
+
+
+def check(chain: Chain, binding: Binding) -> list[Finding]:
+    if binding.profile is not None:
+        return []
+    return [Finding(NAME, chain.path, chain.span, f"chain on `{chain.frame}` has no profile: {binding.reason}")]
