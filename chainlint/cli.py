@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import NoReturn
 
 import click
+import pandas
 
 from chainlint import __version__
 from chainlint.analysis.check import RULES, Options, plan_results
@@ -17,9 +18,11 @@ from chainlint.analysis.check import check as run_check
 from chainlint.analysis.model import FileError
 from chainlint.analysis.run import analyse_files
 from chainlint.discover import discover
+from chainlint.estimate.calibrate import COST_MODEL_FILE, model_to_json
+from chainlint.estimate.calibrate import calibrate as measure_model
 from chainlint.profile.build import profile_dataset
 from chainlint.profile.columns import Settings
-from chainlint.profile.format import ProfileError
+from chainlint.profile.format import ProfileError, dumps
 from chainlint.profile.merge import merge_profiles
 from chainlint.profile.readers import BATCH_ROWS, DataError, open_dataset
 from chainlint.profile.store import (
@@ -31,6 +34,7 @@ from chainlint.profile.store import (
     profile_path,
     redaction_key,
     save_profile,
+    write_atomic,
 )
 from chainlint.report.check import check_json, check_lines, check_summary
 from chainlint.report.explain import all_errors, explain_json, explain_text, summary
@@ -238,3 +242,22 @@ def merge(folder: Path, name: str, parts: Sequence[str]) -> None:
     except (ProfileError, StoreError) as error:
         _fail(str(error))
     click.echo(f"profile {name}: merged from {len(parts)} parts -> {path} ({'written' if changed else 'unchanged'})")
+
+
+@main.command()
+@click.option("--store", type=click.Path(file_okay=False), help="Profile store folder (default: the project's .chainlint/).")
+@click.option("--rows", type=click.IntRange(min=10_000), default=400_000, show_default=True, help="Rows of the frame timed.")
+def calibrate(store: str | None, rows: int) -> None:
+    """Re-measure the cost model on this machine and keep it in the store (cost-model.json)."""
+    folder = _store(store)
+    click.echo(f"timing pandas {pandas.__version__} on {rows:,} rows ...", err=True)
+    model = measure_model(rows)
+    path = folder / COST_MODEL_FILE
+    try:
+        write_atomic(path, dumps(model_to_json(model)))
+    except StoreError as error:
+        _fail(str(error))
+    click.echo(
+        f"cost model -> {path}: numeric == {model.compare['numeric']:.2f} ns/row, str == {model.compare['str']:.2f} ns/row, "
+        f"fixed {model.fixed / 1e6:.2f} ms/step"
+    )

@@ -159,8 +159,6 @@ def test_binding_rules_in_order(project: Path, tmp_path: Path) -> None:
     document = json.loads((root / ".chainlint" / "profiles" / "other.json").read_text())
     document["source"]["files"][0]["path"] = "elsewhere/other_flights.parquet"
     (root / ".chainlint" / "profiles" / "other.json").write_text(json.dumps(document))
-    from chainlint.bind.profiles import load_store
-    load_store.cache_clear()
     by_source = _binding(root, "import pandas as pd\nPATH = 'x/other_flights.parquet'\nframe = pd.read_parquet(PATH)\n" + chain_text)
     assert by_source["binding"] == {"profile": "other", "how": "source"}
     (root / "pyproject.toml").write_text("[tool.chainlint.bindings]\n'fr*' = 'flights'\n")
@@ -189,3 +187,18 @@ def test_bundled_demo_has_real_findings() -> None:
     assert result.exit_code == 1
     rules = [line.split(": ")[1] for line in result.output.splitlines() if ": reorder: " in line or ": never-matches: " in line]
     assert rules.count("reorder") >= 2 and rules.count("never-matches") == 1
+
+
+def test_calibrate_writes_a_model_that_check_uses(project: Path, tmp_path: Path) -> None:
+    store = tmp_path / "store"
+    shutil.copytree(project / ".chainlint", store)
+    result = CliRunner().invoke(main, ["calibrate", "--store", str(store), "--rows", "20000"])
+    assert result.exit_code == 0, result.output
+    model = json.loads((store / "cost-model.json").read_text())["model"]
+    assert model["compare"]["numeric"] > 0 and model["fixed"] > 0
+    assert [p[0] for p in model["numeric_take_kept"]] == [0.0, 0.01, 0.05, 0.3, 0.7, 1.0]
+    status, _ = _findings(project, "--store", str(store))
+    assert status == 1
+    (store / "cost-model.json").write_text('{"format": "chainlint-cost-model", "model": {"bogus": 1}}')
+    result = _check("--store", str(store), str(project / "pipeline.py"))
+    assert result.exit_code == 2 and "cost-model.json" in result.output and "bogus" in result.output

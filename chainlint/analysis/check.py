@@ -68,7 +68,7 @@ def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[lis
                 planned.append(PlannedChain(chain, binding))
                 continue
             document = profiles.profiles[binding.profile]
-            plan = plan_chain(chain, binding, document, profiles.key, options.rows)
+            plan = plan_chain(chain, binding, document, profiles.key, options.rows, profiles.model)
             planned.append(PlannedChain(chain, binding, plan, document, profiles.key))
     return planned, list(errors.values())
 

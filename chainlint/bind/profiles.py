@@ -2,11 +2,14 @@
 
 from __future__ import annotations
 
+import json
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
 from typing import Any
 
+from chainlint.estimate.calibrate import COST_MODEL_FILE, model_from_json
+from chainlint.estimate.cost import DEFAULT_MODEL, CostModel
 from chainlint.profile.format import ProfileError
 from chainlint.profile.store import (
     StoreError,
@@ -22,11 +25,28 @@ class ProfileSet:
     profiles: dict[str, dict[str, Any]] = field(default_factory=dict)
     errors: tuple[str, ...] = ()
     key: bytes = b""
+    model: CostModel = DEFAULT_MODEL
+
+
+def load_store(store: Path) -> ProfileSet:
+    """Every readable profile of a store; unreadable ones become error messages naming the file.
+
+    Loaded once per state of the store's files (names, sizes, modification times), so a
+    long-running process sees a re-profiled or recalibrated store without restarting.
+    """
+    files = [*list_profiles(store), store / "config.json", store / COST_MODEL_FILE]
+    signature = []
+    for path in files:
+        try:
+            stat = path.stat()
+        except OSError:
+            continue
+        signature.append((path.name, stat.st_size, stat.st_mtime_ns))
+    return _load(store, tuple(signature))
 
 
 @lru_cache(maxsize=32)
-def load_store(store: Path) -> ProfileSet:
-    """Every readable profile of a store; unreadable ones become error messages naming the file."""
+def _load(store: Path, signature: tuple[tuple[str, int, int], ...]) -> ProfileSet:
     profiles: dict[str, dict[str, Any]] = {}
     errors: list[str] = []
     for path in list_profiles(store):
@@ -41,4 +61,11 @@ def load_store(store: Path) -> ProfileSet:
     except StoreError as error:
         errors.append(str(error))
         key = b""
-    return ProfileSet(store, profiles, tuple(errors), key)
+    model = DEFAULT_MODEL
+    model_path = store / COST_MODEL_FILE
+    if model_path.exists():
+        try:
+            model = model_from_json(json.loads(model_path.read_text(encoding="utf-8")))
+        except (OSError, ValueError, TypeError) as error:
+            errors.append(f"{model_path}: cannot use the calibrated cost model: {error}")
+    return ProfileSet(store, profiles, tuple(errors), key, model)

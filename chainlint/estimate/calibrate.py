@@ -1,0 +1,134 @@
+"""Re-measure the cost model on this machine (`chainlint calibrate`), in a few seconds.
+
+Builds a frame of numeric and pyarrow string columns, times the predicate kinds and the take
+of masks that keep different shares, and fits the figures `CostModel` holds. Every timing is
+the minimum of a few repeats, which is the least disturbed by other work on the machine.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from dataclasses import asdict, fields
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from chainlint.estimate.cost import CostModel
+
+_COLUMNS = 8
+COST_MODEL_FILE = "cost-model.json"
+
+
+def _best(function: Callable[[], object], repeat: int = 5) -> float:
+    times = []
+    for _ in range(repeat):
+        start = time.perf_counter()
+        function()
+        times.append(time.perf_counter() - start)
+    return min(times)
+
+
+def calibrate(rows: int = 400_000, seed: int = 1) -> CostModel:
+    rng = np.random.default_rng(seed)
+    numbers = pd.DataFrame({f"n{i}": rng.random(rows) for i in range(_COLUMNS)})
+    labels = np.array([f"label{k}" for k in range(50)], dtype=object)
+    strings = pd.DataFrame({f"s{i}": pd.array(labels[rng.integers(0, 50, rows)], dtype="str") for i in range(_COLUMNS)})
+    n, s = numbers["n0"], strings["s0"]
+    obj = s.astype(object)
+    cat = s.astype("category")
+    integers = pd.Series(rng.integers(0, 100, rows))
+    per_row = 1e9 / rows
+
+    def cost(function: Callable[[], object]) -> float:
+        return _best(function) * per_row
+
+    compare = {
+        "numeric": cost(lambda: n > 0.5),
+        "str": cost(lambda: s == "label3"),
+        "object": cost(lambda: obj == "label3"),
+        "category": cost(lambda: cat == "label3"),
+    }
+    five = [f"label{k}" for k in range(5)]
+    member = {
+        "numeric": cost(lambda: integers.isin([1, 2, 3, 4, 5])),
+        "str": cost(lambda: s.isin(five)),
+        "object": cost(lambda: obj.isin(five)),
+        "category": cost(lambda: cat.isin(five)),
+    }
+    a, b = n > 0.5, numbers["n1"] > 0.5
+    combine = cost(lambda: a & b)
+    between = cost(lambda: n.between(0.2, 0.7))
+    string_test = cost(lambda: s.str.contains("bel1", regex=False))
+    null_test = cost(lambda: n.isna())
+    shares = (0.01, 0.05, 0.30, 0.70)
+    numeric_points, string_points = [], []
+    numeric_in = string_in = 0.0
+    for frame, points in ((numbers, numeric_points), (strings, string_points)):
+        nothing = np.zeros(rows, dtype=bool)
+        base = _best(lambda frame=frame, nothing=nothing: frame[nothing]) * per_row
+        if frame is numbers:
+            numeric_in = base
+        else:
+            string_in = base / _COLUMNS
+        for share in shares:
+            mask = rng.random(rows) < share
+            kept = int(mask.sum())
+            seconds = _best(lambda frame=frame, mask=mask: frame[mask])
+            points.append((share, max((seconds * 1e9 - base * rows) / (kept * _COLUMNS), 0.0)))
+    tiny = numbers.iloc[:10]
+    tiny_mask = np.ones(10, dtype=bool)
+    tiny_mask[0] = False
+    fixed = _best(lambda: tiny[tiny_mask], repeat=50) * 1e9
+    default = CostModel()
+    return CostModel(
+        compare=compare,
+        member=member,
+        between=between,
+        null_test=null_test,
+        string_test=string_test,
+        arith=default.arith,
+        combine=combine,
+        opaque=default.opaque,
+        numeric_take_in=numeric_in,
+        string_take_in=string_in,
+        numeric_take_kept=_curve(numeric_points),
+        string_take_kept=_curve(string_points),
+        fixed=fixed,
+    )
+
+
+def _curve(points: list[tuple[float, float]]) -> tuple[tuple[float, float], ...]:
+    ordered = sorted(points)
+    return ((0.0, ordered[0][1]),) + tuple(ordered) + ((1.0, ordered[-1][1]),)
+
+
+def _round(value: Any) -> Any:
+    """Four significant digits: the measurements are no more precise, and diffs stay small."""
+    if isinstance(value, float):
+        return float(f"{value:.4g}")
+    if isinstance(value, dict):
+        return {k: _round(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_round(v) for v in value]
+    return value
+
+
+def model_to_json(model: CostModel) -> dict[str, Any]:
+    return {"format": "chainlint-cost-model", "format_version": 1, "model": _round(asdict(model))}
+
+
+def model_from_json(document: dict[str, Any]) -> CostModel:
+    """A stored model; fields it lacks keep the measured defaults."""
+    if document.get("format") != "chainlint-cost-model":
+        raise ValueError("not a chainlint cost model")
+    values = dict(document.get("model", {}))
+    known = {f.name for f in fields(CostModel)}
+    unknown = set(values) - known
+    if unknown:
+        raise ValueError(f"unknown cost model fields: {', '.join(sorted(unknown))}")
+    for key in ("numeric_take_kept", "string_take_kept"):
+        if key in values:
+            values[key] = tuple(tuple(float(x) for x in p) for p in values[key])
+    return CostModel(**values)
