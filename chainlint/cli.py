@@ -39,7 +39,8 @@ from chainlint.profile.store import (
 from chainlint.report.check import check_json, check_lines, check_summary
 from chainlint.report.explain import all_errors, explain_json, explain_text, summary
 from chainlint.report.profiles import profile_line, profile_summary
-from chainlint.rules import RuleContext
+from chainlint.rewrite.fixes import FileFix, attach_fixes, unified_diff, write_fix
+from chainlint.rules import Finding, RuleContext
 
 EXIT_OK, EXIT_FINDINGS, EXIT_ERROR = 0, 1, 2
 
@@ -108,11 +109,15 @@ def explain(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, 
               help="... and saves at least this many milliseconds at the estimated row count.")
 @click.option("--rule", "rules", multiple=True, type=click.Choice(sorted(RULES)),
               help="Run only these rules (default: all but `unbound`); repeatable.")
+@click.option("--diff", "show_diff", is_flag=True, help="Print the reorder fixes as a unified diff; change nothing.")
+@click.option("--fix", "write", is_flag=True, help="Rewrite the files: put each costly chain into the planned order.")
 def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, store: str | None, rows: int | None,
-                  jobs: int | None, output_format: str, min_gain: float, min_saving_ms: float, rules: Sequence[str]) -> None:
+                  jobs: int | None, output_format: str, min_gain: float, min_saving_ms: float, rules: Sequence[str],
+                  show_diff: bool, write: bool) -> None:
     """Report chains of row filters in PATHS that run in a costly order, and literals the data never holds.
 
-    Exit status: 0 without findings, 1 with findings, 2 when a file or profile could not be read.
+    Exit status: 0 without findings (or when --fix fixed them all), 1 with findings,
+    2 when a file or profile could not be read.
     """
     results, discovery_errors = _analyse(paths, exclude, max_file_size, jobs)
     options = Options(
@@ -122,16 +127,45 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
         context=RuleContext(min_gain=min_gain, min_saving=min_saving_ms / 1e3),
     )
     result = run_check(results, options)
-    result = replace(result, errors=tuple(discovery_errors) + result.errors)
+    findings, fixes = attach_fixes(result.findings, results)
+    result = replace(result, findings=tuple(findings), errors=tuple(discovery_errors) + result.errors)
+    remaining = list(result.findings)
+    if write:
+        remaining = _write_fixes(result.findings, fixes)
+    fixed = len(result.findings) - len(remaining)
     if output_format == "json":
         click.echo(check_json(result), nl=False)
+    elif show_diff:
+        for path in sorted(fixes):
+            if fixes[path].new_text is not None:
+                click.echo(unified_diff(fixes[path]), nl=False)
     else:
-        for line in check_lines(result):
+        for line in check_lines(replace(result, findings=tuple(remaining))):
             click.echo(line)
+    if output_format != "json":
         for error in sorted(result.errors, key=lambda e: (e.path, e.line, e.column)):
             click.echo(f"{error.path}:{error.line}:{error.column}: error: {error.message}", err=True)
-        click.echo(check_summary(result))
-    sys.exit(EXIT_ERROR if result.errors else EXIT_FINDINGS if result.findings else EXIT_OK)
+        click.echo(check_summary(replace(result, findings=tuple(remaining)), fixed), err=show_diff)
+    sys.exit(EXIT_ERROR if result.errors else EXIT_FINDINGS if remaining else EXIT_OK)
+
+
+def _write_fixes(findings: Sequence[Finding], fixes: dict[str, FileFix]) -> list[Finding]:
+    """Write every file that has a verified rewrite; the findings that remain unfixed."""
+    written: set[str] = set()
+    for path in sorted(fixes):
+        fix = fixes[path]
+        reason = fix.error if fix.new_text is None else write_fix(fix)
+        if reason is None:
+            written.add(path)
+        else:
+            click.echo(f"{path}:1:1: warning: not rewritten: {reason}", err=True)
+    remaining = []
+    for finding in findings:
+        if finding.rule == "reorder" and finding.fix is not None and finding.path in written:
+            click.echo(f"{finding.path}:{finding.span.line}:{finding.span.column}: fixed: reorder: steps now run as {', '.join(str(i + 1) for i in finding.order or ())}")
+        else:
+            remaining.append(finding)
+    return remaining
 
 
 class _Progress:

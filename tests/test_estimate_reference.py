@@ -12,13 +12,12 @@ from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
+from flights import flights
 
 from chainlint.cli import main
 from chainlint.estimate.selectivity import Estimator
 from chainlint.find.query import convert_query
 from chainlint.profile.store import load_profile
-
-from flights import flights
 
 PREDICATES = [
     "carrier == 'UA'", "carrier == 'AA'", "carrier == 'DL'", "carrier == 'WN'", "carrier == 'OO'",

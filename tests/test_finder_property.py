@@ -9,14 +9,19 @@ from __future__ import annotations
 
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
+from strategies import (
+    column_names,
+    predicates,
+    python_mask,
+    query_renderable,
+    query_text,
+)
 
 from chainlint.analysis.run import analyse_source
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import Seams, find_seams
 from chainlint.ir import Column, NullTest, make_and
 from chainlint.parse.source import decode_source, parse_tree
-
-from strategies import column_names, predicates, python_mask, query_renderable, query_text
 
 FORMS = ("loc_lambda", "getitem_lambda", "loc_mask", "getitem_mask", "query", "dropna")
 

@@ -4,10 +4,19 @@ from __future__ import annotations
 
 import pytest
 from hypothesis import given, settings
-
-from chainlint.ir import Column, Compare, Literal, Member, Not, PredicateSyntaxError, Range, StrTest, parse_predicate
-
 from strategies import ir_trees
+
+from chainlint.ir import (
+    Column,
+    Compare,
+    Literal,
+    Member,
+    Not,
+    PredicateSyntaxError,
+    Range,
+    StrTest,
+    parse_predicate,
+)
 
 
 @settings(max_examples=400, deadline=None)

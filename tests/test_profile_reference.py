@@ -13,11 +13,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 from click.testing import CliRunner
+from flights import flights
 
 from chainlint.cli import main
 from chainlint.profile.store import load_profile
-
-from flights import flights
 
 
 @pytest.fixture(scope="module")

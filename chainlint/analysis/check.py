@@ -40,10 +40,13 @@ class PlannedChain:
 
 @dataclass(frozen=True)
 class CheckResult:
+    """Findings, and those a `# chainlint: keep` comment suppressed (counted, not hidden)."""
+
     chains: tuple[PlannedChain, ...]
     findings: tuple[Finding, ...]
     errors: tuple[FileError, ...]
     files: int
+    suppressed: tuple[Finding, ...] = ()
 
 
 def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[list[PlannedChain], list[FileError]]:
@@ -73,21 +76,31 @@ def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[lis
     return planned, list(errors.values())
 
 
-def apply_rules(planned: Sequence[PlannedChain], options: Options) -> list[Finding]:
+def apply_rules(planned: Sequence[PlannedChain], options: Options) -> tuple[list[Finding], list[Finding]]:
+    """(findings, suppressed findings), each in path and position order."""
     findings: list[Finding] = []
+    suppressed: list[Finding] = []
     for item in planned:
+        found: list[Finding] = []
         if unbound.NAME in options.rules:
-            findings.extend(unbound.check(item.chain, item.binding))
-        if item.plan is None or item.profile is None:
-            continue
-        if reorder.NAME in options.rules:
-            findings.extend(reorder.check(item.plan, options.context))
-        if never_matches.NAME in options.rules:
-            findings.extend(never_matches.check(item.plan, item.profile, item.key))
-    return sorted(findings, key=lambda f: (f.path, f.span.line, f.span.column, f.rule))
+            found.extend(unbound.check(item.chain, item.binding))
+        if item.plan is not None and item.profile is not None:
+            if reorder.NAME in options.rules:
+                found.extend(reorder.check(item.plan, options.context))
+            if never_matches.NAME in options.rules:
+                found.extend(never_matches.check(item.plan, item.profile, item.key))
+        keep = item.chain.keep
+        for finding in found:
+            (suppressed if keep is not None and (not keep or finding.rule in keep) else findings).append(finding)
+
+    def order(f: Finding) -> tuple[str, int, int, str]:
+        return (f.path, f.span.line, f.span.column, f.rule)
+
+    return sorted(findings, key=order), sorted(suppressed, key=order)
 
 
 def check(results: Sequence[FileAnalysis], options: Options) -> CheckResult:
     planned, errors = plan_results(results, options)
     file_errors = [e for r in results for e in r.errors]
-    return CheckResult(tuple(planned), tuple(apply_rules(planned, options)), tuple(file_errors + errors), len(results))
+    findings, suppressed = apply_rules(planned, options)
+    return CheckResult(tuple(planned), tuple(findings), tuple(file_errors + errors), len(results), tuple(suppressed))

@@ -35,7 +35,9 @@ class Step:
     `span` covers the step's own text (`.loc[...]`, `[...]`, `.query(...)`, `.dropna(...)`),
     `statement` is the index of its statement within a statement run (0 in a method chain),
     `mask_frame` says, for masks, whether the mask is built from the frame the step filters
-    (`own`), from the chain's first frame (`outer`), or from another frame (`foreign`).
+    (`own`), from the chain's first frame (`outer`), or from another frame (`foreign`);
+    `mask_name` is the name the mask reads columns from and `mask_span` the mask's text;
+    `own` is the name of the frame the step filters when it filters a named frame directly.
     """
 
     kind: str
@@ -44,6 +46,9 @@ class Step:
     barrier: Barrier | None = None
     mask_frame: str | None = None
     statement: int = 0
+    own: str | None = None
+    mask_name: str | None = None
+    mask_span: Span | None = None
 
     @property
     def movable(self) -> bool:
@@ -77,7 +82,8 @@ class Chain:
 
     `form` is `method` for one expression (`df[a].query(b)`) or `statements` for a run of
     assignments (`x = df[a]` / `x = x[b]`); `frame` is the source text of the first frame;
-    `profile_comment` a `# chainlint: profile=NAME` on the chain's first line or the line above.
+    `profile_comment` a `# chainlint: profile=NAME` on the chain's first line or the line above;
+    `keep` the rules a `# chainlint: keep [RULE...]` there suppresses (empty: all of them).
     """
 
     path: str
@@ -87,6 +93,7 @@ class Chain:
     steps: tuple[Step, ...]
     origin: FrameOrigin | None = None
     profile_comment: str | None = None
+    keep: tuple[str, ...] | None = None
 
     def segments(self) -> tuple[tuple[int, ...], ...]:
         """Indices of the movable steps, grouped into the runs between barriers."""
@@ -114,6 +121,10 @@ class FileError:
 
 @dataclass(frozen=True)
 class FileAnalysis:
+    """One file's chains and errors; `digest` identifies the text analysed (to spot a file
+    that changed on disk before it is rewritten)."""
+
     path: str
     chains: tuple[Chain, ...] = ()
     errors: tuple[FileError, ...] = ()
+    digest: str = ""

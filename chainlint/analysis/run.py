@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import hashlib
 import multiprocessing
 import os
 from collections.abc import Iterable, Sequence
@@ -26,7 +27,7 @@ def analyse_source(source: SourceText) -> FileAnalysis:
     """Find the chains of an already decoded file (the editor's in-memory text, say)."""
     seams = find_seams(source.text)
     if seams.empty:
-        return FileAnalysis(source.path)
+        return FileAnalysis(source.path, digest=text_digest(source.text))
     try:
         tree = parse_tree(source)
         chains = find_chains(source, tree, seams)
@@ -35,7 +36,11 @@ def analyse_source(source: SourceText) -> FileAnalysis:
     except RecursionError:
         message = "nesting too deep to analyse"
         return FileAnalysis(source.path, errors=(FileError(source.path, 1, 1, message),))
-    return FileAnalysis(source.path, chains=tuple(chains))
+    return FileAnalysis(source.path, chains=tuple(chains), digest=text_digest(source.text))
+
+
+def text_digest(text: str) -> str:
+    return hashlib.sha256(text.encode("utf-8", "surrogatepass")).hexdigest()
 
 
 def analyse_file(path: str, max_bytes: int = DEFAULT_MAX_BYTES) -> FileAnalysis:

@@ -11,7 +11,7 @@ import ast
 from dataclasses import dataclass
 
 from chainlint.analysis.model import Chain, Span, Step
-from chainlint.find.origins import Origins, profile_comment
+from chainlint.find.origins import Origins, keep_comment, profile_comment
 from chainlint.find.predicates import dotted_name
 from chainlint.find.screen import Seams
 from chainlint.find.steps import Names, Shape, StepContext, build_step, peel
@@ -175,7 +175,16 @@ class _Finder:
         outer = frozenset([root]) if root else frozenset()
         steps = self.steps(decomposed, root, outer, statement=0)
         span = self.node_span(node)
-        return Chain(self.source.path, span, frame, "method", steps, self.origins.lookup(root, decomposed.base), self.comment_near(span.line))
+        return Chain(self.source.path, span, frame, "method", steps, self.origins.lookup(root, decomposed.base), self.comment_near(span.line), self.keep_near(span.line))
+
+    def keep_near(self, line: int) -> tuple[str, ...] | None:
+        lines = self.source.lines
+        for number in (line, line - 1):
+            if 0 < number <= len(lines):
+                found = keep_comment(lines[number - 1])
+                if found is not None:
+                    return found
+        return None
 
     def comment_near(self, line: int) -> str | None:
         lines = self.source.lines
@@ -196,6 +205,7 @@ class _Finder:
                 outer=outer,
                 names=self.names,
                 text_of=self.text_of,
+                span_of=self.node_span,
                 span=self.step_span(shape),
                 statement=statement,
             )
@@ -239,7 +249,10 @@ class _Finder:
         end = self.node_span(members[-1][0])
         span = Span(start.line, start.column, end.end_line, end.end_column)
         origin = self.origins.lookup(root, first_base)
-        return Chain(self.source.path, span, self.text_of(first_base), "statements", tuple(steps), origin, self.comment_near(span.line))
+        return Chain(
+            self.source.path, span, self.text_of(first_base), "statements", tuple(steps), origin,
+            self.comment_near(span.line), self.keep_near(span.line),
+        )
 
     def assignment(self, statement: ast.stmt) -> tuple[str, _Decomposed] | None:
         """`(x, steps)` for a statement `x = <expression ending in filter steps>`."""

@@ -17,6 +17,17 @@ PROFILE_COMMENT = re.compile(r"#\s*chainlint:\s*profile\s*=\s*([A-Za-z0-9][A-Za-
 READERS = frozenset({"read_csv", "read_parquet", "read_feather", "read_json"})
 
 
+KEEP_COMMENT = re.compile(r"#\s*chainlint:\s*keep\b([ \t\w,-]*)")
+
+
+def keep_comment(line: str) -> tuple[str, ...] | None:
+    """The rules `# chainlint: keep [RULE...]` names (empty: every rule), or None."""
+    match = KEEP_COMMENT.search(line)
+    if match is None:
+        return None
+    return tuple(sorted(r for r in re.split(r"[\s,]+", match.group(1)) if r))
+
+
 def profile_comment(line: str) -> str | None:
     match = PROFILE_COMMENT.search(line)
     return match.group(1) if match else None

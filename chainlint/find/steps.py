@@ -143,13 +143,14 @@ class StepContext:
     outer: frozenset[str]
     names: Names
     text_of: Callable[[ast.AST], str]
+    span_of: Callable[[ast.AST], Span]
     span: Span
     statement: int
 
 
 def build_step(shape: Shape, context: StepContext) -> Step:
     """Convert a shaped step's predicate and classify whether it may move."""
-    mask_frame = None
+    mask_frame = mask_name = mask_span = None
     extra: list[Barrier] = []
     if shape.kind.endswith("lambda"):
         converted = _convert_lambda(shape.arg, context)
@@ -157,6 +158,7 @@ def build_step(shape: Shape, context: StepContext) -> Step:
         assert shape.arg is not None
         frame, mask_frame, extra = _choose_mask_frame(mask_frames(shape.arg, context.names), context)
         converted = convert(shape.arg, _dialect(frame, context), context.text_of)
+        mask_name, mask_span = frame, context.span_of(shape.arg)
     elif shape.kind == "query":
         converted = _convert_query_step(shape, context)
     else:
@@ -170,6 +172,9 @@ def build_step(shape: Shape, context: StepContext) -> Step:
         barrier=barrier,
         mask_frame=mask_frame,
         statement=context.statement,
+        own=context.own,
+        mask_name=mask_name,
+        mask_span=mask_span,
     )
 
 

@@ -104,8 +104,12 @@ def decode_source(path: str, data: bytes) -> SourceText:
         line = len(_NEWLINE.findall(text, 0, nul)) + 1
         column = nul - max(text.rfind("\n", 0, nul), text.rfind("\r", 0, nul))
         raise SourceError("file contains a NUL byte", line, column)
-    lines = tuple(_split_lines(text))
-    return SourceText(path=path, text=text, encoding=encoding, lines=lines)
+    return text_source(path, text, encoding)
+
+
+def text_source(path: str, text: str, encoding: str = "utf-8") -> SourceText:
+    """A SourceText for text already decoded (an editor's buffer, a rewritten file)."""
+    return SourceText(path=path, text=text, encoding=encoding, lines=tuple(_split_lines(text)))
 
 
 def _split_lines(text: str) -> list[str]:

@@ -24,22 +24,37 @@ def finding_record(finding: Finding) -> dict[str, Any]:
         "current_seconds": None if finding.current_seconds is None else round(finding.current_seconds, 6),
         "planned_seconds": None if finding.planned_seconds is None else round(finding.planned_seconds, 6),
         "order": None if finding.order is None else list(finding.order),
+        "fix": None if finding.fix is None else {
+            "line": finding.fix.span.line,
+            "column": finding.fix.span.column,
+            "end_line": finding.fix.span.end_line,
+            "end_column": finding.fix.span.end_column,
+            "text": finding.fix.text,
+        },
+        "fix_error": finding.fix_error,
     }
 
 
 def check_json(result: CheckResult) -> str:
     document = {
         "findings": [finding_record(f) for f in result.findings],
+        "suppressed": len(result.suppressed),
         "errors": [error_record(e) for e in sorted(result.errors, key=lambda e: (e.path, e.line, e.column))],
     }
     return json.dumps(document, indent=2, ensure_ascii=False) + "\n"
 
 
 def check_lines(result: CheckResult) -> list[str]:
-    return [f"{f.path}:{f.span.line}:{f.span.column}: {f.rule}: {f.message}" for f in result.findings]
+    lines = []
+    for f in result.findings:
+        lines.append(f"{f.path}:{f.span.line}:{f.span.column}: {f.rule}: {f.message}")
+        if f.fix_error:
+            lines.append(f"{f.path}:{f.span.line}:{f.span.column}: note: no automatic fix: {f.fix_error}")
+    return lines
 
 
-def check_summary(result: CheckResult) -> str:
+def check_summary(result: CheckResult, fixed: int = 0) -> str:
+    """One line; `fixed` findings were rewritten and are no longer counted as findings."""
     chains = len(result.chains)
     bound = sum(1 for c in result.chains if c.plan is not None)
     by_rule = Counter(f.rule for f in result.findings)
@@ -49,6 +64,10 @@ def check_summary(result: CheckResult) -> str:
     else:
         head = "no findings"
     text = f"{head}; {chains} chain{'s' if chains != 1 else ''} in {result.files} file{'s' if result.files != 1 else ''}, {bound} planned with a profile"
+    if fixed:
+        text = f"{fixed} fixed; " + text
+    if result.suppressed:
+        text += f"; {len(result.suppressed)} kept as written by a `chainlint: keep` comment"
     if result.errors:
         text += f"; {len(result.errors)} error{'s' if len(result.errors) != 1 else ''}"
     return text

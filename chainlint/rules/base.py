@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from chainlint.analysis.model import Span
+from chainlint.rewrite.permute import Edit
 
 
 @dataclass(frozen=True)
@@ -17,6 +18,8 @@ class Finding:
     current_seconds: float | None = None
     planned_seconds: float | None = None
     order: tuple[int, ...] | None = None
+    fix: Edit | None = None
+    fix_error: str | None = None
 
 
 @dataclass(frozen=True)

@@ -1,0 +1,1 @@
+"""The rewriter: turns `reorder` findings into verified edits, and writes them safely."""

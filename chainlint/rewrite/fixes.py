@@ -1,0 +1,133 @@
+"""Attach a verified edit to every `reorder` finding, and write the edits safely.
+
+Writing: the file is read again and must be the text that was analysed; the new text goes to
+a temporary file in the same folder with the original's encoding (BOM and coding cookie
+included), newline style and permission bits, and replaces the original atomically. If the
+file changed on disk meanwhile, or any check fails, nothing is written and the reason is given.
+"""
+
+from __future__ import annotations
+
+import difflib
+import os
+import tempfile
+from collections import defaultdict
+from collections.abc import Sequence
+from dataclasses import dataclass, replace
+
+from chainlint.analysis.model import Chain, FileAnalysis
+from chainlint.analysis.run import text_digest
+from chainlint.parse.source import SourceError, SourceText, read_source
+from chainlint.rewrite.permute import Edit, RewriteError, apply_edits, chain_edit
+from chainlint.rewrite.verify import verify
+from chainlint.rules import Finding
+
+
+@dataclass(frozen=True)
+class FileFix:
+    """The rewrite of one file: its old and new text, or why it cannot be rewritten."""
+
+    path: str
+    source: SourceText | None
+    new_text: str | None
+    error: str | None = None
+
+
+def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -> tuple[list[Finding], dict[str, FileFix]]:
+    """Findings with their `fix` (or `fix_error`), and the rewrite of each file concerned."""
+    digests = {r.path: r.digest for r in results}
+    chains = {(c.path, c.span.line, c.span.column): c for r in results for c in r.chains}
+    by_file: dict[str, list[Finding]] = defaultdict(list)
+    for finding in findings:
+        if finding.rule == "reorder" and finding.order is not None:
+            by_file[finding.path].append(finding)
+    updated: dict[int, Finding] = {}
+    files: dict[str, FileFix] = {}
+    for path, reorders in by_file.items():
+        try:
+            source = read_source(path)
+        except SourceError as error:
+            files[path] = FileFix(path, None, None, f"cannot read it again: {error.message}")
+            continue
+        if text_digest(source.text) != digests.get(path):
+            files[path] = FileFix(path, source, None, "the file changed on disk since it was read; left alone")
+            for finding in reorders:
+                updated[id(finding)] = replace(finding, fix_error=files[path].error)
+            continue
+        prepared: list[tuple[Finding, Chain, Edit]] = []
+        for finding in reorders:
+            chain = chains[(path, finding.span.line, finding.span.column)]
+            assert finding.order is not None
+            try:
+                prepared.append((finding, chain, chain_edit(source, chain, finding.order)))
+            except RewriteError as error:
+                updated[id(finding)] = replace(finding, fix_error=str(error))
+        # One verification of the whole file; only when it fails is each edit tried alone,
+        # to keep the good ones and say which chain could not be rewritten.
+        accepted = _verified(source, prepared)
+        if len(accepted) < len(prepared):
+            accepted = [item for item in prepared if _verified(source, [item], updated)]
+        for finding, _, edit in accepted:
+            updated[id(finding)] = replace(finding, fix=edit)
+        if accepted:
+            files[path] = FileFix(path, source, apply_edits(source.text, [edit for _, _, edit in accepted]))
+    return [updated.get(id(f), f) for f in findings], files
+
+
+def _verified(source: SourceText, items: list[tuple[Finding, Chain, Edit]],
+              refusals: dict[int, Finding] | None = None) -> list[tuple[Finding, Chain, Edit]]:
+    """`items` when their edits together pass verification, else none (noting why)."""
+    if not items:
+        return []
+    try:
+        verify(source, apply_edits(source.text, [edit for _, _, edit in items]), [(chain, f.order) for f, chain, _ in items])  # type: ignore[misc]
+    except RewriteError as error:
+        if refusals is not None:
+            for finding, _, _ in items:
+                refusals[id(finding)] = replace(finding, fix_error=str(error))
+        return []
+    return items
+
+
+def unified_diff(fix: FileFix) -> str:
+    assert fix.source is not None and fix.new_text is not None
+    name = os.path.relpath(fix.path)
+    return "".join(
+        difflib.unified_diff(
+            fix.source.text.splitlines(keepends=True),
+            fix.new_text.splitlines(keepends=True),
+            fromfile=f"a/{name}",
+            tofile=f"b/{name}",
+        )
+    )
+
+
+def write_fix(fix: FileFix) -> str | None:
+    """Write one file's rewrite atomically; the reason when it was not written."""
+    assert fix.source is not None and fix.new_text is not None
+    path = fix.path
+    try:
+        current = read_source(path)
+        status = os.stat(path)
+    except (SourceError, OSError) as error:
+        return f"cannot read it again: {getattr(error, 'message', error)}"
+    if current.text != fix.source.text:
+        return "the file changed on disk since it was read; left alone"
+    data = fix.new_text.encode(fix.source.encoding)
+    folder = os.path.dirname(os.path.abspath(path))
+    try:
+        handle, temporary = tempfile.mkstemp(prefix=f".{os.path.basename(path)}.", suffix=".chainlint", dir=folder)
+    except OSError as error:
+        return f"cannot write in {folder}: {error.strerror}"
+    try:
+        with os.fdopen(handle, "wb") as out:
+            out.write(data)
+            out.flush()
+            os.fsync(out.fileno())
+        os.chmod(temporary, status.st_mode & 0o7777)
+        os.replace(temporary, path)
+    except OSError as error:
+        if os.path.exists(temporary):
+            os.unlink(temporary)
+        return f"cannot write: {error.strerror}"
+    return None
