@@ -5,12 +5,12 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
 
 from chainlint.analysis.model import Chain, FileAnalysis, FileError
 from chainlint.bind.binding import Binding, bind_chain
 from chainlint.bind.profiles import load_store
 from chainlint.config import ConfigError, bindings, nearest_pyproject
+from chainlint.estimate.selectivity import Estimator
 from chainlint.plan.chains import ChainPlan, plan_chain
 from chainlint.profile.store import find_store
 from chainlint.rules import Finding, RuleContext, never_matches, reorder, unbound
@@ -29,13 +29,12 @@ class Options:
 
 @dataclass(frozen=True)
 class PlannedChain:
-    """A chain, its binding, and (when bound) its plan and the profile it was planned with."""
+    """A chain, its binding, and (when bound) its plan and the estimator of its profile."""
 
     chain: Chain
     binding: Binding
     plan: ChainPlan | None = None
-    profile: dict[str, Any] | None = field(default=None, compare=False, repr=False)
-    key: bytes = field(default=b"", compare=False, repr=False)
+    estimator: Estimator | None = field(default=None, compare=False, repr=False)
 
 
 @dataclass(frozen=True)
@@ -53,6 +52,7 @@ def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[lis
     """Bind and plan every chain; store and configuration problems become located errors."""
     planned: list[PlannedChain] = []
     errors: dict[str, FileError] = {}
+    estimators: dict[int, Estimator] = {}
     for result in results:
         if not result.chains:
             continue
@@ -71,8 +71,11 @@ def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[lis
                 planned.append(PlannedChain(chain, binding))
                 continue
             document = profiles.profiles[binding.profile]
-            plan = plan_chain(chain, binding, document, profiles.key, options.rows, profiles.model)
-            planned.append(PlannedChain(chain, binding, plan, document, profiles.key))
+            estimator = estimators.get(id(document))
+            if estimator is None:
+                estimator = estimators[id(document)] = Estimator(document, profiles.key)
+            plan = plan_chain(chain, binding, estimator, options.rows, profiles.model)
+            planned.append(PlannedChain(chain, binding, plan, estimator))
     return planned, list(errors.values())
 
 
@@ -84,11 +87,11 @@ def apply_rules(planned: Sequence[PlannedChain], options: Options) -> tuple[list
         found: list[Finding] = []
         if unbound.NAME in options.rules:
             found.extend(unbound.check(item.chain, item.binding))
-        if item.plan is not None and item.profile is not None:
+        if item.plan is not None and item.estimator is not None:
             if reorder.NAME in options.rules:
                 found.extend(reorder.check(item.plan, options.context))
             if never_matches.NAME in options.rules:
-                found.extend(never_matches.check(item.plan, item.profile, item.key))
+                found.extend(never_matches.check(item.plan, item.estimator))
         keep = item.chain.keep
         for finding in found:
             (suppressed if keep is not None and (not keep or finding.rule in keep) else findings).append(finding)

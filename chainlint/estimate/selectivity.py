@@ -21,6 +21,7 @@ from typing import Any
 
 import numpy as np
 
+from chainlint.estimate.cost import shape_of
 from chainlint.ir import (
     And,
     Column,
@@ -150,7 +151,9 @@ class Estimator:
     """Selectivities of IR nodes against one profile."""
 
     def __init__(self, profile: dict[str, Any], key: bytes = b"") -> None:
+        self.profile = profile
         self.columns = {name: ColumnStats(column, key) for name, column in profile["columns"].items()}
+        self.shape = shape_of(profile)
 
     def estimate(self, node: Node) -> Estimate:
         if isinstance(node, Not):

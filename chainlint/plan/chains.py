@@ -16,7 +16,6 @@ from chainlint.estimate.cost import (
     CostModel,
     FrameShape,
     predicate_cost,
-    shape_of,
     step_cost,
 )
 from chainlint.estimate.selectivity import Estimate, Estimator
@@ -61,11 +60,11 @@ class ChainPlan:
         return self.written_seconds / self.planned_seconds if self.planned_seconds > 0 else 1.0
 
 
-def plan_chain(chain: Chain, binding: Binding, profile: dict, key: bytes, rows: int | None = None,
+def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int | None = None,
                model: CostModel = DEFAULT_MODEL) -> ChainPlan:
-    """Plan a bound chain; `rows` scales the estimates to a production row count."""
-    estimator = Estimator(profile, key)
-    shape = shape_of(profile)
+    """Plan a bound chain with the estimator of its profile; `rows` scales the estimates."""
+    profile = estimator.profile
+    shape = estimator.shape
     total_rows = rows or profile["rows"]
     estimates = [estimator.estimate(step.predicate) for step in chain.steps]
     predicates = [predicate_cost(step.predicate, shape, model) for step in chain.steps]

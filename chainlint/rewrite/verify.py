@@ -1,7 +1,8 @@
 """Prove an edited file is the original with exactly the chains' steps permuted.
 
-In the spirit of a formatter's AST-equivalence check: the new text must parse with `ast` and
-with libcst; outside the rewritten chains its `ast` must equal the original's (top-level
+In the spirit of a formatter's AST-equivalence check: the new file must parse with `ast`, and
+every rewritten top-level statement with libcst (the rest is text the edit did not touch);
+outside the rewritten chains its `ast` must equal the original's (top-level
 statements that hold no chain must keep their exact text); and the finder, run again, must see
 each chain with the same predicates in the planned order and its barriers where they were.
 """
@@ -56,10 +57,6 @@ def verify(old: SourceText, new_text: str, rewritten: Sequence[tuple[Chain, tupl
         new_tree = parse_tree(new)
     except SourceError as error:
         raise RewriteError(f"the rewritten file does not parse: {error.message}") from None
-    try:
-        libcst.parse_module(new_text)
-    except libcst.ParserSyntaxError as error:
-        raise RewriteError(f"libcst cannot parse the rewritten file: {error.message}") from None
     old_chains = [chain for chain, _ in rewritten]
     found = find_chains(new, new_tree, find_seams(new_text))
     new_chains = []
@@ -78,9 +75,14 @@ def verify(old: SourceText, new_text: str, rewritten: Sequence[tuple[Chain, tupl
     old_blank, new_blank = _Blank(old, old_chains), _Blank(new, new_chains)
     for before, after in zip(old_tree.body, new_tree.body):
         if _touches(before, old_chains):
-            # Statements holding a chain: equal once the chains are blanked out.
+            # Statements holding a chain: equal once the chains are blanked out, and the
+            # rewritten text must read through libcst, the lossless parser.
             if ast.dump(old_blank.visit(before)) != ast.dump(new_blank.visit(after)):
                 raise RewriteError("the rewrite would change code outside the chain")
+            try:
+                libcst.parse_statement(_text(new, after))
+            except libcst.ParserSyntaxError as error:
+                raise RewriteError(f"libcst cannot parse the rewritten code: {error.message}") from None
         elif _text(old, before) != _text(new, after):
             # The others are text the edit did not touch; equal text at a statement
             # boundary parses to the same tree.

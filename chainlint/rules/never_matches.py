@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import difflib
 
-from chainlint.estimate.selectivity import ColumnStats
+from chainlint.estimate.selectivity import Estimator
 from chainlint.ir import And, Column, Compare, Literal, Member, Node, Not, Or
 from chainlint.plan.chains import ChainPlan
 from chainlint.rules.base import Finding
@@ -28,13 +28,14 @@ def _tests(node: Node):  # type: ignore[no-untyped-def]
                 yield node.operand.name, value.value
 
 
-def check(plan: ChainPlan, profile: dict, key: bytes) -> list[Finding]:
+def check(plan: ChainPlan, estimator: Estimator) -> list[Finding]:
     findings = []
+    min_count = estimator.profile["settings"]["min_count"]
     for step in plan.chain.steps:
         for column, value in _tests(step.predicate):
-            if column not in profile["columns"] or value is None:
+            stats = estimator.columns.get(column)
+            if stats is None or value is None:
                 continue
-            stats = ColumnStats(profile["columns"][column], key)
             if not stats.complete or stats.redacted or stats.lookup(value) in stats.mcv:
                 continue
             if any(isinstance(v, str) for v in stats.mcv) != isinstance(value, str):
@@ -43,7 +44,7 @@ def check(plan: ChainPlan, profile: dict, key: bytes) -> list[Finding]:
             close = difflib.get_close_matches(str(value), known, n=3, cutoff=0.5)
             hint = f"; did you mean {' or '.join(repr(c) for c in close)}?" if close else ""
             if stats.suppressed_values:
-                seen = f"occurs in fewer than {profile['settings']['min_count']} rows of profile `{plan.binding.profile}`, if at all"
+                seen = f"occurs in fewer than {min_count} rows of profile `{plan.binding.profile}`, if at all"
             else:
                 seen = f"never occurs in profile `{plan.binding.profile}`"
             message = f"`{column}` == {value!r} {seen} ({len(known)} known values){hint}"
