@@ -10,7 +10,6 @@ from pathlib import Path
 from typing import NoReturn
 
 import click
-import pandas
 
 from chainlint import __version__
 from chainlint.analysis.check import RULES, Options, plan_results
@@ -39,7 +38,6 @@ from chainlint.profile.store import (
 from chainlint.report.check import check_json, check_lines, check_summary
 from chainlint.report.explain import all_errors, explain_json, explain_text, summary
 from chainlint.report.profiles import profile_line, profile_summary
-from chainlint.rewrite.fixes import FileFix, attach_fixes, unified_diff, write_fix
 from chainlint.rules import Finding, RuleContext
 
 EXIT_OK, EXIT_FINDINGS, EXIT_ERROR = 0, 1, 2
@@ -127,8 +125,13 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
         context=RuleContext(min_gain=min_gain, min_saving=min_saving_ms / 1e3),
     )
     result = run_check(results, options)
-    findings, fixes = attach_fixes(result.findings, results)
-    result = replace(result, findings=tuple(findings), errors=tuple(discovery_errors) + result.errors)
+    fixes: dict = {}  # type: ignore[type-arg]
+    if any(f.rule == "reorder" for f in result.findings):
+        from chainlint.rewrite.fixes import attach_fixes  # libcst loads only when there is a fix to make
+
+        findings, fixes = attach_fixes(result.findings, results)
+        result = replace(result, findings=tuple(findings))
+    result = replace(result, errors=tuple(discovery_errors) + result.errors)
     remaining = list(result.findings)
     if write:
         remaining = _write_fixes(result.findings, fixes)
@@ -136,6 +139,8 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
     if output_format == "json":
         click.echo(check_json(result), nl=False)
     elif show_diff:
+        from chainlint.rewrite.fixes import unified_diff
+
         for path in sorted(fixes):
             if fixes[path].new_text is not None:
                 click.echo(unified_diff(fixes[path]), nl=False)
@@ -149,8 +154,10 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
     sys.exit(EXIT_ERROR if result.errors else EXIT_FINDINGS if remaining else EXIT_OK)
 
 
-def _write_fixes(findings: Sequence[Finding], fixes: dict[str, FileFix]) -> list[Finding]:
+def _write_fixes(findings: Sequence[Finding], fixes: dict) -> list[Finding]:  # type: ignore[type-arg]
     """Write every file that has a verified rewrite; the findings that remain unfixed."""
+    from chainlint.rewrite.fixes import write_fix
+
     written: set[str] = set()
     for path in sorted(fixes):
         fix = fixes[path]
@@ -284,7 +291,7 @@ def merge(folder: Path, name: str, parts: Sequence[str]) -> None:
 def calibrate(store: str | None, rows: int) -> None:
     """Re-measure the cost model on this machine and keep it in the store (cost-model.json)."""
     folder = _store(store)
-    click.echo(f"timing pandas {pandas.__version__} on {rows:,} rows ...", err=True)
+    click.echo(f"timing pandas on {rows:,} rows ...", err=True)
     model = measure_model(rows)
     path = folder / COST_MODEL_FILE
     try:

@@ -183,7 +183,7 @@ def test_a_file_changed_on_disk_is_left_alone(project: Path, monkeypatch: pytest
         path.write_text(path.read_text() + "\n# edited meanwhile\n")
         return real(fix)
 
-    monkeypatch.setattr("chainlint.cli.write_fix", edit_then_write)
+    monkeypatch.setattr(fixes, "write_fix", edit_then_write)
     result = _run("--fix", str(path))
     assert "not rewritten: the file changed on disk" in result.output
     assert path.read_text().endswith("# edited meanwhile\n") and '"weight_kg"] > 0.5]\n        .loc[lambda d: d["depot"]' in path.read_text()

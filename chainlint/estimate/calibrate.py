@@ -13,7 +13,6 @@ from dataclasses import asdict, fields
 from typing import Any
 
 import numpy as np
-import pandas as pd
 
 from chainlint.estimate.cost import CostModel
 
@@ -31,6 +30,8 @@ def _best(function: Callable[[], object], repeat: int = 5) -> float:
 
 
 def calibrate(rows: int = 400_000, seed: int = 1) -> CostModel:
+    import pandas as pd  # only this command runs pandas itself
+
     rng = np.random.default_rng(seed)
     numbers = pd.DataFrame({f"n{i}": rng.random(rows) for i in range(_COLUMNS)})
     labels = np.array([f"label{k}" for k in range(50)], dtype=object)

@@ -15,7 +15,6 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 
@@ -49,18 +48,24 @@ def value_kind(arrow_type: pa.DataType) -> str:
 
 
 def pandas_type(arrow_type: pa.DataType, has_nulls: bool) -> str:
-    """The dtype pandas 3 gives this column when it reads the file."""
+    """The dtype pandas 3 gives this column when it reads the file (default numpy backend)."""
+    if pa.types.is_dictionary(arrow_type):
+        return "category"
     kind = value_kind(arrow_type)
     if kind == "string":
         return "str"
-    if kind == "integer" and has_nulls:
-        return "float64"
-    if kind == "boolean" and has_nulls:
-        return "object"
-    try:
-        return str(pa.schema([pa.field("c", arrow_type)]).empty_table().to_pandas().dtypes.iloc[0])
-    except (pa.ArrowNotImplementedError, TypeError, ValueError):
-        return "object"
+    if kind == "integer":
+        return "float64" if has_nulls else str(arrow_type.to_pandas_dtype().__name__)
+    if kind == "boolean":
+        return "object" if has_nulls else "bool"
+    if kind == "float":
+        return str(arrow_type.to_pandas_dtype().__name__)
+    if pa.types.is_timestamp(arrow_type):
+        zone = f", {arrow_type.tz}" if arrow_type.tz else ""
+        return f"datetime64[{arrow_type.unit}{zone}]"
+    if pa.types.is_duration(arrow_type):
+        return f"timedelta64[{arrow_type.unit}]"
+    return "object"
 
 
 def redact_value(key: bytes, value: Any) -> str:
@@ -107,12 +112,10 @@ class ColumnProfiler:
             indices = array.indices.to_numpy(zero_copy_only=False)
             if array.null_count:
                 indices = indices[array.is_valid().to_numpy(zero_copy_only=False)]
-            counts = np.bincount(indices.astype(np.int64), minlength=len(array.dictionary))
-            used = np.flatnonzero(counts)
-            self.counter.add(array.dictionary.to_numpy(zero_copy_only=False)[used], counts[used])
+            self.counter.add_indices(array.dictionary, np.bincount(indices.astype(np.int64), minlength=len(array.dictionary)))
         else:
             table = pc.value_counts(array.drop_null() if array.null_count else array)
-            self.counter.add(table.field("values").to_numpy(zero_copy_only=False), table.field("counts").to_numpy())
+            self.counter.add(table.field("values"), table.field("counts").to_numpy())
         if len(self.counter) > self.settings.distinct_cap:
             values, counts = self.counter.table()
             self.exact = False
@@ -214,14 +217,14 @@ class ColumnProfiler:
     def top_sampled(self, points: np.ndarray, weights: np.ndarray) -> dict[str, Any]:
         if points.size == 0:
             return {"values": [], "exact": False, "complete": False, "error": 0}
-        summed = pd.Series(weights).groupby(points, sort=True).agg(["sum", "size"])
+        starts = np.concatenate([[0], np.flatnonzero(points[1:] != points[:-1]) + 1])
+        sums = np.add.reduceat(weights, starts)
+        sizes = np.diff(np.append(starts, points.size))
+        keep = np.flatnonzero((sizes >= 2) & (sums >= self.settings.min_count))
+        ranked = keep[np.argsort(-sums[keep], kind="stable")][: self.settings.top]  # ties stay in value order
         heaviest = float(weights.max())
-        keep = summed[(summed["size"] >= 2) & (summed["sum"] >= self.settings.min_count)]
-        sums = keep["sum"].to_numpy()
-        ranked = np.argsort(-sums, kind="stable")[: self.settings.top]  # ties stay in value order
-        values = keep.index.to_numpy()
         return {
-            "values": [[_plain(values[i]), int(round(sums[i]))] for i in ranked],
+            "values": [[_plain(points[starts[i]]), int(round(sums[i]))] for i in ranked],
             "exact": False,
             "complete": False,
             "error": int(math.ceil(2 * heaviest + self.sample.rank_error * (self.rows - self.nulls))),  # type: ignore[union-attr]
@@ -263,35 +266,59 @@ class ColumnProfiler:
 
 
 class _Counter:
-    """Exact counts of values, keyed by a growing hash index (a few thousand values at most)."""
+    """Exact counts of values, keyed by a growing Arrow array (a few thousand values at most);
+    pyarrow's `index_in` looks a batch's values up in one vectorised pass."""
 
     def __init__(self) -> None:
-        self.index = pd.Index([])
+        self.values: pa.Array | None = None
         self.counts = np.zeros(0, dtype=np.int64)
+        # Counts by index of the current Parquet dictionary, folded in when it changes: the
+        # batches of one row group share their dictionary, so most batches need no lookup.
+        self.dictionary: pa.Array | None = None
+        self.dictionary_counts: np.ndarray | None = None
 
     def __len__(self) -> int:
-        return len(self.index)
+        self.fold()
+        return 0 if self.values is None else len(self.values)
 
-    def add(self, values: np.ndarray, counts: np.ndarray) -> None:
+    def add_indices(self, dictionary: pa.Array, counts: np.ndarray) -> None:
+        if self.dictionary is not None and (self.dictionary is dictionary or self.dictionary.equals(dictionary)):
+            self.dictionary_counts += counts  # type: ignore[operator]
+            return
+        self.fold()
+        self.dictionary, self.dictionary_counts = dictionary, counts.astype(np.int64)
+
+    def fold(self) -> None:
+        if self.dictionary is None or self.dictionary_counts is None:
+            return
+        used = np.flatnonzero(self.dictionary_counts)
+        dictionary, counts = self.dictionary, self.dictionary_counts
+        self.dictionary = self.dictionary_counts = None
+        self.add(dictionary.take(pa.array(used)), counts[used])
+
+    def add(self, values: pa.Array, counts: np.ndarray) -> None:
         if len(values) == 0:
             return
-        if len(self.index) == 0:
-            self.index = pd.Index(values)
-            self.counts = counts.astype(np.int64)
+        counts = counts.astype(np.int64)
+        if self.values is None:
+            self.values, self.counts = values, counts.copy()
             return
-        positions = self.index.get_indexer(values)
+        positions = pc.index_in(values, value_set=self.values).fill_null(-1).to_numpy(zero_copy_only=False).astype(np.int64)
         new = positions < 0
         if new.any():
-            self.index = self.index.append(pd.Index(values[new]))
-            self.counts = np.concatenate([self.counts, np.zeros(int(new.sum()), dtype=np.int64)])
-            positions[new] = np.arange(len(self.index) - int(new.sum()), len(self.index))
-        np.add.at(self.counts, positions, counts.astype(np.int64))
+            added = values.filter(pa.array(new))
+            positions[new] = np.arange(len(self.values), len(self.values) + len(added))
+            self.values = pa.concat_arrays([self.values, added.cast(self.values.type)])
+            self.counts = np.concatenate([self.counts, np.zeros(len(added), dtype=np.int64)])
+        np.add.at(self.counts, positions, counts)
 
     def table(self) -> tuple[np.ndarray, np.ndarray]:
         """Values in ascending order with their counts."""
-        values = self.index.to_numpy()
-        order = np.argsort(values, kind="stable")
-        return values[order], self.counts[order]
+        self.fold()
+        if self.values is None:
+            return np.array([]), np.zeros(0, dtype=np.int64)
+        order = pc.sort_indices(self.values).to_numpy()
+        return self.values.take(pa.array(order)).to_numpy(zero_copy_only=False), self.counts[order]
 
 
 def _equi_depth(values: np.ndarray, weights: np.ndarray, buckets: int) -> list[Any]:

@@ -17,7 +17,6 @@ from datetime import UTC, datetime
 
 import pyarrow as pa
 import pyarrow.csv as pacsv
-import pyarrow.dataset as pads
 import pyarrow.ipc as paipc
 import pyarrow.json as pajson
 import pyarrow.parquet as pq
@@ -285,6 +284,8 @@ def _plain_schema(schema: pa.Schema) -> pa.Schema:
 
 
 def _open_parquet_dataset(paths: Sequence[str], batch_rows: int) -> tuple[pa.Schema, Iterator[pa.RecordBatch], int | None]:
+    import pyarrow.dataset as pads  # imports pandas: loaded only for folders of Parquet files
+
     try:
         parts = [pads.dataset(p, format="parquet", partitioning="hive") for p in paths]
         dataset = parts[0] if len(parts) == 1 else pads.dataset(parts)
