@@ -19,6 +19,7 @@ from chainlint.analysis.run import analyse_files
 from chainlint.discover import discover
 from chainlint.estimate.calibrate import COST_MODEL_FILE, model_to_json
 from chainlint.estimate.calibrate import calibrate as measure_model
+from chainlint.plan.chains import plan_chain
 from chainlint.profile.build import profile_dataset
 from chainlint.profile.columns import Settings
 from chainlint.profile.format import ProfileError, dumps
@@ -127,7 +128,9 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
     result = run_check(results, options)
     fixes: dict = {}  # type: ignore[type-arg]
     if any(f.rule == "reorder" for f in result.findings):
-        from chainlint.rewrite.fixes import attach_fixes  # libcst loads only when there is a fix to make
+        from chainlint.rewrite.fixes import (
+            attach_fixes,  # libcst loads only when there is a fix to make
+        )
 
         findings, fixes = attach_fixes(result.findings, results)
         result = replace(result, findings=tuple(findings))
@@ -302,3 +305,82 @@ def calibrate(store: str | None, rows: int) -> None:
         f"cost model -> {path}: numeric == {model.compare['numeric']:.2f} ns/row, str == {model.compare['str']:.2f} ns/row, "
         f"fixed {model.fixed / 1e6:.2f} ms/step"
     )
+
+
+@main.command()
+@click.argument("target", metavar="FILE[:LINE]")
+@click.option("--data", "data", multiple=True, required=True, help="Data to run on (as for `profile`); repeatable.")
+@click.option("--repeat", type=click.IntRange(min=1), default=5, show_default=True, help="Timed runs of each order.")
+@click.option("--rows", type=click.IntRange(min=1), help="Use only the first N rows.")
+@click.option("--columns", help="Comma-separated columns to load (default: all; width is part of the cost).")
+@click.option("--store", type=click.Path(file_okay=False), help="Profile store (default: the nearest .chainlint/ of FILE).")
+@click.option("--format", "output_format", type=click.Choice(["text", "json"]), default="text", show_default=True)
+@click.option("--plot", type=click.Path(dir_okay=False), help="Also draw the measurement as an SVG picture.")
+def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, columns: str | None, store: str | None,
+            output_format: str, plot: str | None) -> None:
+    """Time the written and the planned order of the chains in FILE (or the one at LINE) on real data."""
+    from chainlint.measure.report import measure_json, measure_text
+    from chainlint.measure.run import MeasureError, load_table, measure_chain
+    from chainlint.measure.svg import measurement_svg
+
+    path, _, line_text = target.partition(":")
+    if line_text and not line_text.isdigit():
+        path, line_text = target, ""
+    result = analyse_files([path], jobs=1)[0]
+    if result.errors:
+        error = result.errors[0]
+        _fail(f"{error.path}:{error.line}:{error.column}: {error.message}")
+    chains = [c for c in result.chains if not line_text or c.span.line <= int(line_text) <= c.span.end_line]
+    if not chains:
+        _fail(f"{target}: no chain of row filters {'at that line' if line_text else 'in this file'}")
+    try:
+        table = load_table(data, rows, [c.strip() for c in columns.split(",")] if columns else None)
+    except (DataError, MeasureError) as error:
+        _fail(str(error))
+    frame = table.to_pandas()
+    planned, problems = plan_results([replace(result, chains=tuple(chains))], Options(store=Path(store) if store else None, rows=len(frame)))
+    in_memory = None
+    measurements, notes = [], []
+    progress_shown = sys.stderr.isatty() and output_format == "text"
+    for item in planned:
+        plan = item.plan
+        if plan is None:
+            if in_memory is None:
+                in_memory = _profile_in_memory(table)
+            plan = plan_chain(item.chain, item.binding, in_memory, len(frame))
+            notes.append(f"{item.chain.path}:{item.chain.span.line}: no profile ({item.binding.reason}); planned with statistics of the data given")
+
+        def progress(done: int, total: int, line: int = item.chain.span.line) -> None:
+            if progress_shown:
+                click.echo(f"\r  chain at line {line}: run {done}/{total}", nl=False, err=True)
+
+        try:
+            measurements.append(measure_chain(frame, item.chain, plan.order, plan.speedup, repeat, progress))
+        except MeasureError as error:
+            notes.append(f"{item.chain.path}:{item.chain.span.line}: cannot measure: {error}")
+        if progress_shown:
+            click.echo("\r" + " " * 50 + "\r", nl=False, err=True)
+    for note in notes:
+        click.echo(note, err=True)
+    if output_format == "json":
+        click.echo(measure_json(measurements), nl=False)
+    else:
+        click.echo(measure_text(measurements), nl=False)
+    if plot and measurements:
+        try:
+            write_atomic(Path(plot), measurement_svg(measurements[0]))
+        except StoreError as error:
+            _fail(str(error))
+    different = [m for m in measurements if not m.same_result]
+    for m in different:
+        click.echo(f"{m.chain.path}:{m.chain.span.line}: error: the planned order returned a different frame than the written one", err=True)
+    sys.exit(EXIT_ERROR if different or not measurements else EXIT_OK)
+
+
+def _profile_in_memory(table):  # type: ignore[no-untyped-def]
+    """An estimator over statistics of the loaded data, for chains no stored profile describes."""
+    from chainlint.estimate.selectivity import Estimator
+    from chainlint.profile.readers import Dataset
+
+    dataset = Dataset(table.schema, [], "memory", iter(table.to_batches()), [], table.num_rows)
+    return Estimator(profile_dataset(dataset, "in-memory", Settings()))

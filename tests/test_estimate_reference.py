@@ -8,7 +8,6 @@ max(est/true, true/est) (Moerkotte, Neumann & Steidl, VLDB 2009).
 from __future__ import annotations
 
 import statistics
-from pathlib import Path
 
 import pytest
 from click.testing import CliRunner

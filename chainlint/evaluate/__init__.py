@@ -1,0 +1,1 @@
+"""Evaluation of chainlint's own predicate IR on data (never the user's code)."""

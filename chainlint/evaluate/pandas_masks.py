@@ -1,0 +1,106 @@
+"""Evaluate predicate IR on a pandas DataFrame as the boolean mask pandas itself would build.
+
+Only chainlint's IR is evaluated, with pandas operations that have the meaning of the user's
+filter (`==` on a column, `isin`, `between`, `.str` methods, `~`, `&`, `|`); nothing of the
+user's code runs. A predicate with a part chainlint does not model cannot be evaluated.
+"""
+
+from __future__ import annotations
+
+import operator
+from typing import Any
+
+import pandas as pd
+
+from chainlint.ir import (
+    And,
+    Arith,
+    Column,
+    Compare,
+    Literal,
+    Member,
+    Named,
+    Node,
+    Not,
+    NullTest,
+    Opaque,
+    Or,
+    Range,
+    StrTest,
+)
+
+_COMPARE = {"==": operator.eq, "!=": operator.ne, "<": operator.lt, "<=": operator.le, ">": operator.gt, ">=": operator.ge}
+_ARITH = {"+": operator.add, "-": operator.sub, "*": operator.mul, "/": operator.truediv, "//": operator.floordiv,
+          "%": operator.mod, "**": operator.pow}
+
+
+class NotEvaluable(Exception):
+    """The predicate has a part chainlint cannot evaluate (the message says which)."""
+
+
+def unevaluable(node: Node) -> str | None:
+    """Why `node` cannot be evaluated, or None when it can."""
+    if isinstance(node, Opaque):
+        return f"it holds code chainlint does not model (`{node.text}`)"
+    if isinstance(node, Named):
+        return f"it reads the name `{node.name}`, whose value is only known when the code runs"
+    children: list[Node] = []
+    if isinstance(node, (Arith, Compare)):
+        children = [node.left, node.right]
+    elif isinstance(node, Member):
+        children = [node.operand] + (list(node.values) if isinstance(node.values, tuple) else [node.values])
+    elif isinstance(node, Range):
+        children = [node.operand, node.low, node.high]
+    elif isinstance(node, (NullTest, Not)):
+        children = [node.operand]
+    elif isinstance(node, StrTest):
+        children = [node.operand, node.pattern] + [value for _, value in node.options]
+    elif isinstance(node, (And, Or)):
+        children = list(node.parts)
+    for child in children:
+        reason = unevaluable(child)
+        if reason:
+            return reason
+    return None
+
+
+def mask(frame: pd.DataFrame, node: Node) -> Any:
+    """The boolean mask (a Series aligned with `frame`) of `node`."""
+    if isinstance(node, Column):
+        return frame[node.name]
+    if isinstance(node, Literal):
+        return node.value
+    if isinstance(node, Arith):
+        return _ARITH[node.op](mask(frame, node.left), mask(frame, node.right))
+    if isinstance(node, Compare):
+        return _COMPARE[node.op](mask(frame, node.left), mask(frame, node.right))
+    if isinstance(node, Member):
+        values = [mask(frame, v) for v in node.values]  # type: ignore[union-attr]
+        test = mask(frame, node.operand).isin(values)
+        return ~test if node.negated else test
+    if isinstance(node, Range):
+        return mask(frame, node.operand).between(mask(frame, node.low), mask(frame, node.high), inclusive=node.inclusive)
+    if isinstance(node, NullTest):
+        column = mask(frame, node.operand)
+        return column.notna() if node.negated else column.isna()
+    if isinstance(node, StrTest):
+        options = {key: mask(frame, value) for key, value in node.options}
+        return getattr(mask(frame, node.operand).str, node.method)(mask(frame, node.pattern), **options)
+    if isinstance(node, Not):
+        return ~mask(frame, node.operand)
+    if isinstance(node, And):
+        result = mask(frame, node.parts[0])
+        for part in node.parts[1:]:
+            result = result & mask(frame, part)
+        return result
+    if isinstance(node, Or):
+        result = mask(frame, node.parts[0])
+        for part in node.parts[1:]:
+            result = result | mask(frame, part)
+        return result
+    raise NotEvaluable(unevaluable(node) or f"cannot evaluate {node.canonical()}")
+
+
+def apply_step(frame: pd.DataFrame, node: Node) -> pd.DataFrame:
+    """One filter step as pandas runs it: a boolean mask, then the rows it keeps."""
+    return frame[mask(frame, node)]

@@ -1,0 +1,1 @@
+"""Measuring chains on data: the written against the planned order, in pandas."""

@@ -1,0 +1,52 @@
+"""`chainlint measure` output: a table per chain, or JSON with the same figures."""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Sequence
+
+from chainlint.measure.run import Measurement, OrderTiming
+
+
+def _order_record(timing: OrderTiming) -> dict:
+    return {
+        "order": list(timing.order),
+        "seconds": round(timing.seconds, 6),
+        "step_seconds": [round(s, 6) for s in timing.step_seconds],
+        "rows_after": list(timing.rows_after),
+    }
+
+
+def measure_json(measurements: Sequence[Measurement]) -> str:
+    document = {
+        "measurements": [
+            {
+                "path": m.chain.path,
+                "line": m.chain.span.line,
+                "column": m.chain.span.column,
+                "rows": m.rows,
+                "written": _order_record(m.written),
+                "planned": _order_record(m.planned),
+                "measured_speedup": round(m.measured_speedup, 4),
+                "estimated_speedup": round(m.estimated_speedup, 4),
+                "same_result": m.same_result,
+            }
+            for m in measurements
+        ]
+    }
+    return json.dumps(document, indent=2, ensure_ascii=False) + "\n"
+
+
+def measure_text(measurements: Sequence[Measurement]) -> str:
+    blocks = []
+    for m in measurements:
+        lines = [f"{m.chain.path}:{m.chain.span.line}:{m.chain.span.column}: chain on `{m.chain.frame}`, {m.rows:,} rows"]
+        for name, timing in (("written", m.written), ("planned", m.planned)):
+            steps = ", ".join(str(i + 1) for i in timing.order)
+            rows = " -> ".join(f"{r:,}" for r in timing.rows_after)
+            per_step = ", ".join(f"{s * 1e3:.1f}" for s in timing.step_seconds)
+            lines.append(f"  {name:8} steps {steps:<14} {timing.seconds * 1e3:9.1f} ms  (per step ms: {per_step})  rows: {rows}")
+        verdict = "same frame" if m.same_result else "DIFFERENT FRAMES"
+        lines.append(f"  measured speedup {m.measured_speedup:.2f}x, estimated {m.estimated_speedup:.2f}x; both orders return the {verdict}")
+        blocks.append("\n".join(lines))
+    return "\n\n".join(blocks) + ("\n" if blocks else "")

@@ -1,0 +1,130 @@
+"""Measure a chain's written and planned order on real data (`chainlint measure`).
+
+Both orders are built from chainlint's own IR (never the user's code) and run as pandas runs a
+filter: a boolean mask, then the rows it keeps. After a warm-up, the two orders alternate for
+`repeat` runs; medians are reported, per step and in all. Both must return the same frame.
+"""
+
+from __future__ import annotations
+
+import statistics
+import time
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+import pandas as pd
+import pyarrow as pa
+
+from chainlint.analysis.model import Chain
+from chainlint.evaluate.pandas_masks import apply_step, unevaluable
+from chainlint.profile.readers import open_dataset
+
+
+class MeasureError(Exception):
+    """The measurement cannot be made or its result is wrong; the message says which."""
+
+
+@dataclass(frozen=True)
+class OrderTiming:
+    order: tuple[int, ...]
+    seconds: float
+    step_seconds: tuple[float, ...]
+    rows_after: tuple[int, ...]
+
+
+@dataclass(frozen=True)
+class Measurement:
+    chain: Chain
+    rows: int
+    written: OrderTiming
+    planned: OrderTiming
+    estimated_speedup: float
+    same_result: bool
+
+    @property
+    def measured_speedup(self) -> float:
+        return self.written.seconds / self.planned.seconds if self.planned.seconds > 0 else 1.0
+
+
+def load_table(data: Sequence[str], rows: int | None, columns: Sequence[str] | None) -> pa.Table:
+    """The data as one Arrow table (first `rows` rows, chosen `columns`), with the profile readers."""
+    dataset = open_dataset(data)
+    names = dataset.schema.names
+    if columns:
+        missing = [c for c in columns if c not in names]
+        if missing:
+            raise MeasureError(f"--columns names no column of the data: {', '.join(missing)}")
+    batches = []
+    taken = 0
+    for batch in dataset.batches:
+        if columns:
+            batch = batch.select(list(columns))
+        if rows is not None and taken + batch.num_rows > rows:
+            batch = batch.slice(0, rows - taken)
+        batches.append(batch)
+        taken += batch.num_rows
+        if rows is not None and taken >= rows:
+            break
+    schema = dataset.schema if not columns else pa.schema([dataset.schema.field(c) for c in columns])
+    table = pa.Table.from_batches([b.cast(schema) if b.schema != schema else b for b in batches], schema=schema)
+    return table.combine_chunks()
+
+
+def measurable(chain: Chain) -> str | None:
+    """Why a chain cannot be measured, or None."""
+    for number, step in enumerate(chain.steps, start=1):
+        reason = unevaluable(step.predicate)
+        if reason:
+            return f"step {number} cannot be built from chainlint's IR: {reason}"
+    return None
+
+
+def _run(frame: pd.DataFrame, chain: Chain, order: Sequence[int]) -> tuple[pd.DataFrame, list[float], list[int]]:
+    seconds, rows = [], []
+    current = frame
+    for index in order:
+        start = time.perf_counter()
+        current = apply_step(current, chain.steps[index].predicate)
+        seconds.append(time.perf_counter() - start)
+        rows.append(len(current))
+    return current, seconds, rows
+
+
+def measure_chain(
+    frame: pd.DataFrame,
+    chain: Chain,
+    planned: tuple[int, ...],
+    estimated_speedup: float,
+    repeat: int = 5,
+    progress: Callable[[int, int], None] | None = None,
+) -> Measurement:
+    reason = measurable(chain)
+    if reason:
+        raise MeasureError(reason)
+    written = tuple(range(len(chain.steps)))
+    orders = (written, planned)
+    try:
+        results = [_run(frame, chain, order)[0] for order in orders]  # warm-up, and the results
+    except (KeyError, TypeError, ValueError) as error:
+        raise MeasureError(f"the chain does not run on this data: {type(error).__name__}: {error}") from None
+    try:
+        pd.testing.assert_frame_equal(results[1], results[0])
+        same = True
+    except AssertionError:
+        same = False
+    totals: dict[tuple[int, ...], list[float]] = {order: [] for order in orders}
+    steps: dict[tuple[int, ...], list[list[float]]] = {order: [] for order in orders}
+    rows: dict[tuple[int, ...], list[int]] = {}
+    for run in range(repeat):
+        for order in orders if run % 2 == 0 else orders[::-1]:
+            _, seconds, rows[order] = _run(frame, chain, order)
+            totals[order].append(sum(seconds))
+            steps[order].append(seconds)
+        if progress is not None:
+            progress(run + 1, repeat)
+
+    def timing(order: tuple[int, ...]) -> OrderTiming:
+        per_step = tuple(statistics.median(run[k] for run in steps[order]) for k in range(len(order)))
+        return OrderTiming(order, statistics.median(totals[order]), per_step, tuple(rows[order]))
+
+    return Measurement(chain, len(frame), timing(written), timing(planned), estimated_speedup, same)
