@@ -16,6 +16,7 @@ from chainlint.analysis.check import RULES, Options, plan_results
 from chainlint.analysis.check import check as run_check
 from chainlint.analysis.model import FileError
 from chainlint.analysis.run import analyse_files
+from chainlint.config import Config, ConfigError, describe, load_config, override
 from chainlint.discover import discover
 from chainlint.estimate.calibrate import COST_MODEL_FILE, model_to_json
 from chainlint.estimate.calibrate import calibrate as measure_model
@@ -39,6 +40,7 @@ from chainlint.profile.store import (
 from chainlint.report.check import check_json, check_lines, check_summary
 from chainlint.report.explain import all_errors, explain_json, explain_text, summary
 from chainlint.report.profiles import profile_line, profile_summary
+from chainlint.report.sarif import check_sarif
 from chainlint.rules import Finding, RuleContext
 
 EXIT_OK, EXIT_FINDINGS, EXIT_ERROR = 0, 1, 2
@@ -72,6 +74,26 @@ def _analysis_options(function):  # type: ignore[no-untyped-def]
     return function
 
 
+def _config(paths: Sequence[str], **given) -> Config:  # type: ignore[no-untyped-def]
+    """The configuration nearest to the first path, with the command line's values over it."""
+    try:
+        config = load_config(Path(paths[0]) if paths else Path("."), set(RULES))
+    except ConfigError as error:
+        _fail(str(error))
+    return override(config, **given)
+
+
+def _options(config: Config) -> Options:
+    rules = frozenset(config.rules) if config.rules else Options().rules
+    return Options(
+        store=Path(config.store) if config.store else None,
+        rules=rules - set(config.skip),
+        context=RuleContext(min_gain=config.min_gain, min_saving=config.min_saving_ms / 1e3),
+        bindings=config.bindings,
+        profile_rows=config.rows,
+    )
+
+
 def _analyse(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, jobs: int | None):  # type: ignore[no-untyped-def]
     found = discover(paths, exclude)
     results = analyse_files(found.files, jobs=jobs, max_bytes=int(max_file_size * 1024 * 1024))
@@ -84,8 +106,9 @@ def _analyse(paths: Sequence[str], exclude: Sequence[str], max_file_size: float,
 def explain(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, store: str | None, rows: int | None,
             jobs: int | None, output_format: str) -> None:
     """List every chain of row filters in PATHS: steps, predicates, which steps may move, and the plan."""
-    results, discovery_errors = _analyse(paths, exclude, max_file_size, jobs)
-    planned, store_errors = plan_results(results, Options(store=Path(store) if store else None, rows=rows))
+    config = _config(paths, store=store, exclude=tuple(exclude) or None)
+    results, discovery_errors = _analyse(paths, config.exclude, max_file_size, jobs)
+    planned, store_errors = plan_results(results, replace(_options(config), rows=rows))
     errors = all_errors(results, discovery_errors + store_errors)
     if output_format == "json":
         click.echo(explain_json(planned, errors), nl=False)
@@ -101,30 +124,32 @@ def explain(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, 
 
 @main.command("check")
 @_analysis_options
-@click.option("--format", "output_format", type=click.Choice(["text", "json"]), default="text", show_default=True)
-@click.option("--min-gain", type=click.FloatRange(min=1.0), default=1.25, show_default=True,
-              help="Report a reorder only when the planned order is estimated at least this many times faster.")
-@click.option("--min-saving-ms", type=click.FloatRange(min=0.0), default=5.0, show_default=True,
-              help="... and saves at least this many milliseconds at the estimated row count.")
+@click.option("--format", "output_format", type=click.Choice(["text", "json", "sarif"]), default="text", show_default=True)
+@click.option("--min-gain", type=click.FloatRange(min=1.0),
+              help="Report a reorder only when the planned order is estimated at least this many times faster [default: 1.25].")
+@click.option("--min-saving-ms", type=click.FloatRange(min=0.0),
+              help="... and saves at least this many milliseconds at the estimated row count [default: 5].")
 @click.option("--rule", "rules", multiple=True, type=click.Choice(sorted(RULES)),
               help="Run only these rules (default: all but `unbound`); repeatable.")
+@click.option("--fail-rule", "fail_rules", multiple=True, type=click.Choice(sorted(RULES)),
+              help="Only findings of these rules make the exit status 1; the others only report (default: all run).")
+@click.option("--output", type=click.Path(dir_okay=False), help="Write the report to this file (atomically); the summary goes to stderr.")
 @click.option("--diff", "show_diff", is_flag=True, help="Print the reorder fixes as a unified diff; change nothing.")
 @click.option("--fix", "write", is_flag=True, help="Rewrite the files: put each costly chain into the planned order.")
 def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, store: str | None, rows: int | None,
-                  jobs: int | None, output_format: str, min_gain: float, min_saving_ms: float, rules: Sequence[str],
-                  show_diff: bool, write: bool) -> None:
+                  jobs: int | None, output_format: str, min_gain: float | None, min_saving_ms: float | None,
+                  rules: Sequence[str], fail_rules: Sequence[str], output: str | None, show_diff: bool, write: bool) -> None:
     """Report chains of row filters in PATHS that run in a costly order, and literals the data never holds.
 
     Exit status: 0 without findings (or when --fix fixed them all), 1 with findings,
     2 when a file or profile could not be read.
     """
-    results, discovery_errors = _analyse(paths, exclude, max_file_size, jobs)
-    options = Options(
-        store=Path(store) if store else None,
-        rows=rows,
-        rules=frozenset(rules) if rules else Options().rules,
-        context=RuleContext(min_gain=min_gain, min_saving=min_saving_ms / 1e3),
+    config = _config(
+        paths, store=store, exclude=tuple(exclude) or None, min_gain=min_gain, min_saving_ms=min_saving_ms,
+        rules=tuple(rules) or None, fail_rules=tuple(fail_rules) or None,
     )
+    results, discovery_errors = _analyse(paths, config.exclude, max_file_size, jobs)
+    options = replace(_options(config), rows=rows)
     result = run_check(results, options)
     fixes: dict = {}  # type: ignore[type-arg]
     if any(f.rule == "reorder" for f in result.findings):
@@ -140,21 +165,28 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
         remaining = _write_fixes(result.findings, fixes)
     fixed = len(result.findings) - len(remaining)
     if output_format == "json":
-        click.echo(check_json(result), nl=False)
+        report = check_json(result)
+    elif output_format == "sarif":
+        report = check_sarif(result, sorted(options.rules))
     elif show_diff:
         from chainlint.rewrite.fixes import unified_diff
 
-        for path in sorted(fixes):
-            if fixes[path].new_text is not None:
-                click.echo(unified_diff(fixes[path]), nl=False)
+        report = "".join(unified_diff(fixes[path]) for path in sorted(fixes) if fixes[path].new_text is not None)
     else:
-        for line in check_lines(replace(result, findings=tuple(remaining))):
-            click.echo(line)
-    if output_format != "json":
+        report = "".join(line + "\n" for line in check_lines(replace(result, findings=tuple(remaining))))
+    if output:
+        try:
+            write_atomic(Path(output), report)
+        except StoreError as error:
+            _fail(str(error))
+    else:
+        click.echo(report, nl=False)
+    if output_format == "text" or output:
         for error in sorted(result.errors, key=lambda e: (e.path, e.line, e.column)):
             click.echo(f"{error.path}:{error.line}:{error.column}: error: {error.message}", err=True)
-        click.echo(check_summary(replace(result, findings=tuple(remaining)), fixed), err=show_diff)
-    sys.exit(EXIT_ERROR if result.errors else EXIT_FINDINGS if remaining else EXIT_OK)
+        click.echo(check_summary(replace(result, findings=tuple(remaining)), fixed), err=show_diff or bool(output))
+    failing = set(config.fail_rules or options.rules)
+    sys.exit(EXIT_ERROR if result.errors else EXIT_FINDINGS if any(f.rule in failing for f in remaining) else EXIT_OK)
 
 
 def _write_fixes(findings: Sequence[Finding], fixes: dict) -> list[Finding]:  # type: ignore[type-arg]
@@ -384,3 +416,14 @@ def _profile_in_memory(table):  # type: ignore[no-untyped-def]
 
     dataset = Dataset(table.schema, [], "memory", iter(table.to_batches()), [], table.num_rows)
     return Estimator(profile_dataset(dataset, "in-memory", Settings()))
+
+
+@main.command("config")
+@click.argument("path", required=False, type=click.Path())
+def config_command(path: str | None) -> None:
+    """Print the effective configuration for PATH (default: here) and where each value came from."""
+    config = _config([path] if path else [])
+    click.echo(f"# from {config.source or 'defaults only (no chainlint.toml or [tool.chainlint] found)'}")
+    for key, value, origin in describe(config):
+        shown = dict(value) if key in ("bindings", "rows") else (list(value) if isinstance(value, tuple) else value)
+        click.echo(f"{key} = {shown!r}  # {origin}")

@@ -1,36 +1,136 @@
-"""`[tool.chainlint]` in the nearest pyproject.toml. For now: `bindings`, frame or parameter
-name globs mapped to profile names."""
+"""Configuration: `[tool.chainlint]` in pyproject.toml, or the top level of chainlint.toml.
+
+The nearest file upward from the first path analysed is used (a `chainlint.toml` wins over a
+`pyproject.toml` in the same folder). Command-line options override it; `chainlint config`
+prints every effective value and where it came from. Unknown keys are errors naming the key
+and the file, with the closest known key suggested.
+"""
 
 from __future__ import annotations
 
+import difflib
 import tomllib
-from functools import lru_cache
+from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
+from typing import Any
 
 
 class ConfigError(Exception):
     """A configuration file that cannot be used; the message names the file."""
 
 
-def nearest_pyproject(start: Path) -> Path | None:
+@dataclass(frozen=True)
+class Config:
+    store: str | None = None
+    bindings: tuple[tuple[str, str], ...] = ()
+    min_gain: float = 1.25
+    min_saving_ms: float = 5.0
+    rows: tuple[tuple[str, int], ...] = ()
+    rules: tuple[str, ...] | None = None
+    skip: tuple[str, ...] = ()
+    exclude: tuple[str, ...] = ()
+    fail_rules: tuple[str, ...] | None = None
+    source: str | None = None
+    origins: dict[str, str] = field(default_factory=dict, compare=False)
+
+    def rows_for(self, profile: str) -> int | None:
+        return dict(self.rows).get(profile)
+
+
+_KEYS = {f.name for f in fields(Config)} - {"source", "origins"}
+
+
+def find_config(start: Path) -> tuple[Path, dict[str, Any]] | None:
+    """The nearest configuration file upward from `start`, with its chainlint table."""
     folder = start.resolve()
-    if folder.is_file():
+    if not folder.is_dir():
         folder = folder.parent
     for candidate in (folder, *folder.parents):
-        if (candidate / "pyproject.toml").is_file():
-            return candidate / "pyproject.toml"
+        dedicated = candidate / "chainlint.toml"
+        if dedicated.is_file():
+            return dedicated, _read(dedicated)
+        pyproject = candidate / "pyproject.toml"
+        if pyproject.is_file():
+            table = _read(pyproject).get("tool", {}).get("chainlint")
+            if table is not None:
+                if not isinstance(table, dict):
+                    raise ConfigError(f"{pyproject}: [tool.chainlint] must be a table")
+                return pyproject, table
     return None
 
 
-@lru_cache(maxsize=64)
-def bindings(pyproject: Path | None) -> tuple[tuple[str, str], ...]:
-    if pyproject is None:
-        return ()
+def _read(path: Path) -> dict[str, Any]:
     try:
-        document = tomllib.loads(pyproject.read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError) as error:
-        raise ConfigError(f"{pyproject}: cannot read: {error}") from None
-    table = document.get("tool", {}).get("chainlint", {}).get("bindings", {})
-    if not isinstance(table, dict) or not all(isinstance(v, str) for v in table.values()):
-        raise ConfigError(f"{pyproject}: [tool.chainlint.bindings] must map name globs to profile names")
-    return tuple(table.items())
+        return tomllib.loads(path.read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError) as error:
+        raise ConfigError(f"{path}: cannot read: {error}") from None
+    except tomllib.TOMLDecodeError as error:
+        raise ConfigError(f"{path}: not valid TOML: {error}") from None
+
+
+def _strings(path: Path, key: str, value: Any) -> tuple[str, ...]:
+    if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+        raise ConfigError(f"{path}: `{key}` must be a list of strings")
+    return tuple(value)
+
+
+def _number(path: Path, key: str, value: Any, low: float) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or value < low:
+        raise ConfigError(f"{path}: `{key}` must be a number of at least {low:g}")
+    return float(value)
+
+
+def parse_config(path: Path, table: dict[str, Any], known_rules: set[str]) -> Config:
+    """Validate a chainlint table; every problem is an error naming the file and the key."""
+    values: dict[str, Any] = {}
+    for key, value in table.items():
+        if key not in _KEYS:
+            close = difflib.get_close_matches(key, sorted(_KEYS), n=1)
+            hint = f"; did you mean `{close[0]}`?" if close else f"; known keys: {', '.join(sorted(_KEYS))}"
+            raise ConfigError(f"{path}: unknown key `{key}`{hint}")
+        if key == "store":
+            if not isinstance(value, str):
+                raise ConfigError(f"{path}: `store` must be a path")
+            values[key] = str((path.parent / value).resolve())
+        elif key in ("bindings", "rows"):
+            if not isinstance(value, dict):
+                raise ConfigError(f"{path}: `{key}` must be a table")
+            kind = str if key == "bindings" else int
+            if not all(isinstance(v, kind) and not isinstance(v, bool) for v in value.values()):
+                what = "profile names" if key == "bindings" else "row counts"
+                raise ConfigError(f"{path}: `{key}` must map names to {what}")
+            values[key] = tuple(value.items())
+        elif key in ("min_gain", "min_saving_ms"):
+            values[key] = _number(path, key, value, 1.0 if key == "min_gain" else 0.0)
+        else:
+            items = _strings(path, key, value)
+            if key in ("rules", "skip", "fail_rules"):
+                unknown = [r for r in items if r not in known_rules]
+                if unknown:
+                    raise ConfigError(f"{path}: `{key}` names unknown rules: {', '.join(unknown)} (known: {', '.join(sorted(known_rules))})")
+            values[key] = items
+    origins = {key: str(path) for key in values}
+    return Config(**values, source=str(path), origins=origins)
+
+
+def load_config(start: Path, known_rules: set[str]) -> Config:
+    found = find_config(start)
+    if found is None:
+        return Config()
+    return parse_config(found[0], found[1], known_rules)
+
+
+def override(config: Config, **given: Any) -> Config:
+    """Command-line values (those not None) over the configuration."""
+    chosen = {key: value for key, value in given.items() if value is not None}
+    origins = dict(config.origins)
+    origins.update({key: "command line" for key in chosen})
+    return replace(config, **chosen, origins=origins)
+
+
+def describe(config: Config) -> list[tuple[str, Any, str]]:
+    """(key, effective value, where it came from) for every key."""
+    rows = []
+    for key in sorted(_KEYS):
+        rows.append((key, getattr(config, key), config.origins.get(key, "default")))
+    return rows

@@ -9,22 +9,33 @@ from pathlib import Path
 from chainlint.analysis.model import Chain, FileAnalysis, FileError
 from chainlint.bind.binding import Binding, bind_chain
 from chainlint.bind.profiles import load_store
-from chainlint.config import ConfigError, bindings, nearest_pyproject
 from chainlint.estimate.selectivity import Estimator
 from chainlint.plan.chains import ChainPlan, plan_chain
 from chainlint.profile.store import find_store
-from chainlint.rules import Finding, RuleContext, never_matches, reorder, unbound
+from chainlint.rules import (
+    CATALOG,
+    Finding,
+    RuleContext,
+    never_matches,
+    reorder,
+    unbound,
+)
 
 #: Rule names, and whether each runs unless asked otherwise.
-RULES = {reorder.NAME: True, never_matches.NAME: True, unbound.NAME: False}
+RULES = {module.NAME: module.NAME != unbound.NAME for module in CATALOG}
 
 
 @dataclass(frozen=True)
 class Options:
+    """What a run uses: `rows` scales every chain; `profile_rows` per profile (from the
+    configuration) where `rows` is not given; `bindings` the name globs of the configuration."""
+
     store: Path | None = None
     rows: int | None = None
     rules: frozenset[str] = frozenset(name for name, on in RULES.items() if on)
     context: RuleContext = field(default_factory=RuleContext)
+    bindings: tuple[tuple[str, str], ...] = ()
+    profile_rows: tuple[tuple[str, int], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -57,16 +68,10 @@ def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[lis
         if not result.chains:
             continue
         profiles = load_store((options.store or find_store(Path(result.path))).resolve())
-        problems = list(profiles.errors)
-        try:
-            config = bindings(nearest_pyproject(Path(result.path)))
-        except ConfigError as error:
-            problems.append(str(error))
-            config = ()
-        for message in problems:
+        for message in profiles.errors:
             errors.setdefault(message, FileError(message.split(":")[0], 1, 1, message))
         for chain in result.chains:
-            binding = bind_chain(chain, profiles, config)
+            binding = bind_chain(chain, profiles, options.bindings)
             if binding.profile is None:
                 planned.append(PlannedChain(chain, binding))
                 continue
@@ -74,7 +79,8 @@ def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[lis
             estimator = estimators.get(id(document))
             if estimator is None:
                 estimator = estimators[id(document)] = Estimator(document, profiles.key)
-            plan = plan_chain(chain, binding, estimator, options.rows, profiles.model)
+            rows = options.rows or dict(options.profile_rows).get(binding.profile)
+            plan = plan_chain(chain, binding, estimator, rows, profiles.model)
             planned.append(PlannedChain(chain, binding, plan, estimator))
     return planned, list(errors.values())
 

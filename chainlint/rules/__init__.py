@@ -1,5 +1,9 @@
 """Rules: each looks at analysed and planned chains and returns findings. One rule a module."""
 
+from chainlint.rules import never_matches, reorder, unbound
 from chainlint.rules.base import Finding, RuleContext
 
-__all__ = ["Finding", "RuleContext"]
+#: Every rule module, in the order rules are listed to users (and in SARIF `tool.driver.rules`).
+CATALOG = (reorder, never_matches, unbound)
+
+__all__ = ["CATALOG", "Finding", "RuleContext", "never_matches", "reorder", "unbound"]

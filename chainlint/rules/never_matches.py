@@ -10,6 +10,11 @@ from chainlint.plan.chains import ChainPlan
 from chainlint.rules.base import Finding
 
 NAME = "never-matches"
+LEVEL = "warning"
+DESCRIPTION = 'An equality or membership literal that an exact profile of the data never saw: a typo, or data that changed.'
+HELP = (
+    'The profile lists every value the column holds at least `min_count` times. A literal not among them matches no row (or very few). The message suggests the closest known values.'
+)
 SUMMARY = "a literal the data never holds"
 
 

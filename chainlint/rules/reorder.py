@@ -6,6 +6,11 @@ from chainlint.plan.chains import ChainPlan
 from chainlint.rules.base import Finding, RuleContext
 
 NAME = "reorder"
+LEVEL = "warning"
+DESCRIPTION = "The chain's steps run in an order whose estimated cost clearly exceeds that of the cheapest safe order: move the selective, cheap filters first."
+HELP = (
+    "Each row filter scans the rows it receives and copies every column of the rows it keeps. Running the selective, cheap filters first shrinks what the others scan and copy. chainlint estimates selectivities from the chain's profile and costs both orders; steps that depend on the frame they receive never move. `chainlint check --fix` rewrites the chain; `# chainlint: keep reorder` keeps it as written."
+)
 SUMMARY = "filters run in a costly order"
 
 

@@ -7,6 +7,11 @@ from chainlint.bind.binding import Binding
 from chainlint.rules.base import Finding
 
 NAME = "unbound"
+LEVEL = "note"
+DESCRIPTION = 'A chain no profile describes, so nothing about its order can be estimated.'
+HELP = (
+    "Bind it with `# chainlint: profile=NAME` on the chain's first line, with `[tool.chainlint.bindings]`, or by reading its data with a literal path that a profile records."
+)
 SUMMARY = "a chain with no profile"
 
 

@@ -1,0 +1,57 @@
+"""The pre-commit hooks, run by the real pre-commit framework (PyPI `pre-commit`) with
+`pre-commit try-repo` on a temporary git repository. pre-commit builds the hooks' own
+environment from this repository, so the first run installs chainlint's dependencies."""
+
+from __future__ import annotations
+
+import os
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parent.parent
+DEMO = ROOT / "examples"
+CLEAN = 'def good(scans):\n    return scans.loc[lambda d: d["status"] == "returned"].loc[lambda d: d["vehicle_type"] == "van"]\n'
+
+pytestmark = pytest.mark.skipif(shutil.which("git") is None, reason="git is needed to run pre-commit")
+
+
+@pytest.fixture(scope="module")
+def environment(tmp_path_factory: pytest.TempPathFactory) -> dict[str, str]:
+    home = tmp_path_factory.mktemp("pre-commit-home")
+    return {**os.environ, "PRE_COMMIT_HOME": str(home), "GIT_AUTHOR_NAME": "t", "GIT_AUTHOR_EMAIL": "t@example.invalid",
+            "GIT_COMMITTER_NAME": "t", "GIT_COMMITTER_EMAIL": "t@example.invalid"}
+
+
+def _repository(folder: Path, text: str, env: dict[str, str]) -> Path:
+    shutil.copytree(DEMO / ".chainlint", folder / ".chainlint")
+    (folder / "pipeline.py").write_text(text)
+    for command in (["git", "init", "-q"], ["git", "add", "-A"], ["git", "commit", "-qm", "start"]):
+        subprocess.run(command, cwd=folder, env=env, check=True)
+    return folder
+
+
+def _try(folder: Path, hook: str, env: dict[str, str]) -> subprocess.CompletedProcess[str]:
+    command = [sys.executable, "-m", "pre_commit", "try-repo", str(ROOT), hook, "--files", "pipeline.py"]
+    return subprocess.run(command, cwd=folder, env=env, capture_output=True, text=True, timeout=900)
+
+
+def test_check_hook_fails_on_a_costly_chain_and_passes_on_a_clean_one(tmp_path: Path, environment: dict[str, str]) -> None:
+    costly = _repository(tmp_path / "costly", (DEMO / "pipeline.py").read_text(), environment)
+    failed = _try(costly, "chainlint-check", environment)
+    assert failed.returncode == 1, failed.stdout + failed.stderr
+    assert "reorder:" in failed.stdout
+    clean = _repository(tmp_path / "clean", CLEAN, environment)
+    passed = _try(clean, "chainlint-check", environment)
+    assert passed.returncode == 0, passed.stdout + passed.stderr
+
+
+def test_fix_hook_rewrites_the_file(tmp_path: Path, environment: dict[str, str]) -> None:
+    folder = _repository(tmp_path / "fix", (DEMO / "pipeline.py").read_text(), environment)
+    result = _try(folder, "chainlint-fix", environment)
+    assert result.returncode == 1  # files were modified (and a never-matches finding remains)
+    text = (folder / "pipeline.py").read_text()
+    assert text.index('"damaged"') < text.index('"WEST"')
