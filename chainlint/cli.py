@@ -427,3 +427,13 @@ def config_command(path: str | None) -> None:
     for key, value, origin in describe(config):
         shown = dict(value) if key in ("bindings", "rows") else (list(value) if isinstance(value, tuple) else value)
         click.echo(f"{key} = {shown!r}  # {origin}")
+
+
+@main.command()
+def lsp() -> None:
+    """Run the language server over stdio (needs the `lsp` extra: pip install 'chainlint[lsp]')."""
+    try:
+        from chainlint.lsp.server import main as serve
+    except ImportError as error:
+        _fail(f"the language server needs pygls and lsprotocol: pip install 'chainlint[lsp]' ({error})")
+    serve()

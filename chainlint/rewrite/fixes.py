@@ -74,6 +74,13 @@ def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -
     return [updated.get(id(f), f) for f in findings], files
 
 
+def fix_in_text(source: SourceText, chain: Chain, order: tuple[int, ...]) -> Edit:
+    """The verified edit for one chain of an in-memory text (an editor's buffer)."""
+    edit = chain_edit(source, chain, order)
+    verify(source, apply_edits(source.text, [edit]), [(chain, order)])
+    return edit
+
+
 def _verified(source: SourceText, items: list[tuple[Finding, Chain, Edit]],
               refusals: dict[int, Finding] | None = None) -> list[tuple[Finding, Chain, Edit]]:
     """`items` when their edits together pass verification, else none (noting why)."""

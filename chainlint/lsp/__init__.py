@@ -1,0 +1,1 @@
+"""The language server (`chainlint lsp`, extra `lsp`): diagnostics, quick fixes and hovers."""
