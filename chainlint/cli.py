@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import fnmatch
 import sys
 import time
 from collections.abc import Sequence
@@ -24,6 +25,7 @@ from chainlint.plan.chains import plan_chain
 from chainlint.profile.build import profile_dataset
 from chainlint.profile.columns import Settings
 from chainlint.profile.format import ProfileError, dumps
+from chainlint.profile.joint import JointCounter
 from chainlint.profile.merge import merge_profiles
 from chainlint.profile.readers import BATCH_ROWS, DataError, open_dataset
 from chainlint.profile.store import (
@@ -252,8 +254,10 @@ def _fail(message: str) -> NoReturn:
               help="Count values exactly up to this many distinct ones, then estimate.")
 @click.option("--top", type=click.IntRange(min=1), default=100, show_default=True, help="Most common values kept per column.")
 @click.option("--batch-rows", type=click.IntRange(min=1), default=BATCH_ROWS, show_default=True)
+@click.option("--for", "sources", multiple=True, type=click.Path(), metavar="SRC",
+              help="Also count exactly how the predicates of the chains in SRC (bound to NAME) combine on the data; repeatable.")
 def profile(data: Sequence[str], name: str, store: str | None, min_count: int, redact: Sequence[str],
-            distinct_cap: int, top: int, batch_rows: int) -> None:
+            distinct_cap: int, top: int, batch_rows: int, sources: Sequence[str]) -> None:
     """Gather column statistics from DATA (CSV, Parquet, Feather/Arrow, JSON Lines) into a profile."""
     folder = _store(store)
     try:
@@ -262,14 +266,42 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
         settings = Settings(min_count=min_count, distinct_cap=distinct_cap, top=top,
                             redact=frozenset(redact), redaction_key=key)
         dataset = open_dataset(data, batch_rows=batch_rows)
+        joint = None
+        if sources:
+            joint = JointCounter(_chains_for(sources, name, dataset), set(dataset.schema.names))
+            for text, reason in sorted(joint.skipped.items()):
+                click.echo(f"skipped `{text}`: {reason}", err=True)
         progress = _Progress(sys.stderr.isatty())
-        document = profile_dataset(dataset, name, settings, progress)
+        document = profile_dataset(dataset, name, settings, progress, joint)
         progress.done()
         path, changed = save_profile(folder, document)
     except (DataError, StoreError, ProfileError) as error:
         _fail(str(error))
     state = "written" if changed else "unchanged"
-    click.echo(f"profile {name}: {document['rows']:,} rows, {len(document['columns'])} columns -> {path} ({state})")
+    extra = f", joint counts for {len(document['joint'])} predicate sets" if "joint" in document else ""
+    click.echo(f"profile {name}: {document['rows']:,} rows, {len(document['columns'])} columns{extra} -> {path} ({state})")
+
+
+def _chains_for(sources: Sequence[str], name: str, dataset) -> list:  # type: ignore[no-untyped-def]
+    """The chains of SRC that profile NAME describes: bound to it by a comment, the
+    configuration or the file they read, or (bound to nothing else) reading only its columns."""
+    found = discover(sources)
+    config = _config(list(sources))
+    data_names = {Path(f.path).name for f in dataset.files}
+    columns = set(dataset.schema.names)
+    chosen = []
+    for result in analyse_files(found.files, jobs=1):
+        for chain in result.chains:
+            origin = chain.origin
+            named = chain.profile_comment or (origin.profile if origin else None)
+            if named is None and origin is not None:
+                named = next((p for pattern, p in config.bindings if fnmatch.fnmatchcase(origin.name, pattern)), None)
+            if named is None and origin is not None and origin.path and Path(origin.path).name in data_names:
+                named = name
+            reads = {c for step in chain.steps for c in step.predicate.columns()}
+            if named == name or (named is None and reads <= columns):
+                chosen.append(chain)
+    return chosen
 
 
 @main.group(invoke_without_command=True)

@@ -28,11 +28,6 @@ CASES = {
         (2, 1, 0),
         "out = scans.dropna(subset=['c']).query('b == 2')[lambda scans: scans.a > 1]  # note\n",
     ),
-    "an outer mask moved first needs no lambda": (
-        "out = df[lambda d: d.a > 1][df.b == 2]\n",
-        (1, 0),
-        "out = df[df.b == 2][lambda d: d.a > 1]\n",
-    ),
     "backslash continuation": (
         "out = scans \\\n    .loc[lambda d: d.a > 1] \\\n    .loc[lambda d: d.b == 2]\n",
         (1, 0),
@@ -88,6 +83,14 @@ def test_barrier_steps_never_move() -> None:
         chain_edit(source, chain, (1, 0, 2))
     with pytest.raises(RewriteError, match="across a barrier"):
         chain_edit(source, chain, (2, 1, 0))
+
+
+def test_an_outer_mask_is_a_barrier() -> None:
+    source = text_source("o.py", "out = df[lambda d: d.a > 1][df.b == 2][lambda d: d.c == 3]\n")
+    (chain,) = analyse_source(source).chains
+    assert not chain.steps[1].movable and "realigned by index" in chain.steps[1].barrier.reason
+    with pytest.raises(RewriteError, match="may not move"):
+        chain_edit(source, chain, (1, 0, 2))
 
 
 def test_a_dotted_frame_cannot_become_a_lambda() -> None:

@@ -18,7 +18,9 @@ from chainlint.rules import (
     RuleContext,
     never_matches,
     reorder,
+    stale_joint,
     unbound,
+    unknown_column,
 )
 
 #: Rule names, and whether each runs unless asked otherwise.
@@ -98,6 +100,10 @@ def apply_rules(planned: Sequence[PlannedChain], options: Options) -> tuple[list
                 found.extend(reorder.check(item.plan, options.context))
             if never_matches.NAME in options.rules:
                 found.extend(never_matches.check(item.plan, item.estimator))
+            if unknown_column.NAME in options.rules:
+                found.extend(unknown_column.check(item.plan, item.estimator))
+            if stale_joint.NAME in options.rules:
+                found.extend(stale_joint.check(item.plan, item.estimator))
         keep = item.chain.keep
         for finding in found:
             (suppressed if keep is not None and (not keep or finding.rule in keep) else findings).append(finding)

@@ -43,7 +43,7 @@ DEFAULT_INEQ = 1.0 / 3.0
 DEFAULT_MATCH = 0.005
 
 #: Bases from strongest to weakest.
-BASES = ("exact", "most-common", "histogram", "default")
+BASES = ("joint (exact)", "exact", "most-common", "histogram", "default")
 
 
 @dataclass(frozen=True)
@@ -154,6 +154,25 @@ class Estimator:
         self.profile = profile
         self.columns = {name: ColumnStats(column, key) for name, column in profile["columns"].items()}
         self.shape = shape_of(profile)
+        self.rows = max(profile["rows"], 1)
+        below = profile["settings"]["min_count"] / 2
+        # Joint counts (profile --for): per set of predicate texts, rows passing each subset.
+        self.joint: list[tuple[dict[str, int], dict[int, float]]] = []
+        for entry in profile.get("joint", []):
+            positions = {text: bit for bit, text in enumerate(entry["predicates"])}
+            counts = {int(mask): (below if count == "below" else float(count)) for mask, count in entry["subsets"]}
+            self.joint.append((positions, counts))
+
+    def joint_share(self, texts: frozenset[str]) -> float | None:
+        """The exact share of rows passing all of `texts` together, when a joint entry has it."""
+        for positions, counts in self.joint:
+            if texts <= positions.keys():
+                mask = sum(1 << positions[t] for t in texts)
+                return counts.get(mask, 0.0) / self.rows
+        return None
+
+    def joint_covers(self, texts: frozenset[str]) -> bool:
+        return any(texts <= positions.keys() for positions, _ in self.joint)
 
     def estimate(self, node: Node) -> Estimate:
         if isinstance(node, Not):

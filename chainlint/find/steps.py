@@ -193,7 +193,10 @@ def _choose_mask_frame(candidates: set[str], context: StepContext) -> tuple[str,
         return context.own, "own", []
     outer = sorted(candidates & context.outer)
     if outer:
-        return outer[0], "outer", []
+        # Realigned by index: with duplicate labels the rows it keeps depend on the frame it
+        # receives, so it stays in place (written as a lambda, it could move).
+        reason = f"the mask is computed on `{outer[0]}` and realigned by index; write it as a lambda to let it move"
+        return outer[0], "outer", [Barrier("foreign", reason)]
     frame = sorted(candidates)[0]
     if len(candidates) == 1:
         reason = f"the mask is computed on another frame, `{frame}`, and aligned by index"

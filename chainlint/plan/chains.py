@@ -69,8 +69,22 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
     estimates = [estimator.estimate(step.predicate) for step in chain.steps]
     predicates = [predicate_cost(step.predicate, shape, model) for step in chain.steps]
 
+    texts = [step.predicate.canonical() for step in chain.steps]
+    joint_steps = _joint_steps(chain, estimator, texts)
+    cache: dict[int, float] = {}
+
     def rows_after(mask: int) -> float:
-        return total_rows * math.prod(estimates[i].selectivity for i in range(len(estimates)) if mask >> i & 1)
+        """Rows left after the steps in `mask`: exact joint counts for the steps a joint entry
+        covers, independence for the rest."""
+        if mask not in cache:
+            chosen = [i for i in range(len(estimates)) if mask >> i & 1]
+            joined = frozenset(texts[i] for i in chosen if i in joint_steps)
+            share = estimator.joint_share(joined) if joined else None
+            if share is None:
+                share, joined = 1.0, frozenset()
+            rest = math.prod(estimates[i].selectivity for i in chosen if texts[i] not in joined)
+            cache[mask] = total_rows * share * rest
+        return cache[mask]
 
     def cost(step: int, rows_in: float, kept: float) -> float:
         return step_cost(rows_in, predicates[step], kept, shape, model)
@@ -97,13 +111,24 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
         planned.extend(order)
         for step in segment:
             done |= 1 << step
-    written = _walk(range(len(chain.steps)), estimates, rows_after, cost)
-    planned_estimates = _walk(planned, estimates, rows_after, cost)
+    written = _walk(range(len(chain.steps)), estimates, rows_after, cost, joint_steps)
+    planned_estimates = _walk(planned, estimates, rows_after, cost, joint_steps)
     fused = _fused_seconds(chain, estimates, predicates, total_rows, shape, model)
     return ChainPlan(chain, binding, total_rows, written, planned_estimates, fused)
 
 
-def _walk(order, estimates: list[Estimate], rows_after, cost) -> tuple[StepEstimate, ...]:  # type: ignore[no-untyped-def]
+def _joint_steps(chain: Chain, estimator: Estimator, texts: list[str]) -> set[int]:
+    """Steps whose whole segment of movable steps has exact joint counts in the profile."""
+    covered: set[int] = set()
+    for segment in chain.segments():
+        if len(segment) >= 2 and estimator.joint_covers(frozenset(texts[i] for i in segment)):
+            covered.update(segment)
+    return covered
+
+
+def _walk(order, estimates: list[Estimate], rows_after, cost, joint_steps: set[int]) -> tuple[StepEstimate, ...]:  # type: ignore[no-untyped-def]
+    """Each step's rows and time in `order`; its selectivity is the share of its own input it
+    keeps there (conditional on the steps before it when joint counts say so)."""
     out = []
     mask = 0
     for step in order:
@@ -112,7 +137,10 @@ def _walk(order, estimates: list[Estimate], rows_after, cost) -> tuple[StepEstim
         rows_out = rows_after(mask)
         kept = 1.0 if rows_in <= 0 else rows_out / rows_in
         seconds = cost(step, rows_in, kept) / 1e9
-        out.append(StepEstimate(step, estimates[step].selectivity, estimates[step].basis, rows_in, rows_out, seconds))
+        if step in joint_steps:
+            out.append(StepEstimate(step, kept, "joint (exact)", rows_in, rows_out, seconds))
+        else:
+            out.append(StepEstimate(step, estimates[step].selectivity, estimates[step].basis, rows_in, rows_out, seconds))
     return tuple(out)
 
 

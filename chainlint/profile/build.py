@@ -11,13 +11,16 @@ from typing import Any
 from chainlint import __version__
 from chainlint.profile.columns import ColumnProfiler, Settings
 from chainlint.profile.format import FORMAT_NAME, FORMAT_VERSION
+from chainlint.profile.joint import JointCounter
 from chainlint.profile.readers import DataError, Dataset
 
 
 def profile_dataset(
-    dataset: Dataset, name: str, settings: Settings, progress: Callable[[int], None] | None = None
+    dataset: Dataset, name: str, settings: Settings, progress: Callable[[int], None] | None = None,
+    joint: JointCounter | None = None,
 ) -> dict[str, Any]:
-    """The profile document of a dataset (see docs/profile-format.md)."""
+    """The profile document of a dataset (see docs/profile-format.md); with `joint`, also the
+    exact joint counts of the code's predicates."""
     unknown = sorted(settings.redact - set(dataset.schema.names))
     if unknown:
         raise DataError(f"--redact names no column of the data: {', '.join(unknown)}")
@@ -31,13 +34,16 @@ def profile_dataset(
         ahead = reader.submit(next, batches, None)
         while (batch := ahead.result()) is not None:
             ahead = reader.submit(next, batches, None)  # read the next batch while this one is counted
+            counted = pool.submit(joint.add, batch) if joint is not None else None
             list(pool.map(ColumnProfiler.add, profilers, batch.columns))
+            if counted is not None:
+                counted.result()
             rows += batch.num_rows
             if progress is not None:
                 progress(rows)
     if rows == 0:
         raise DataError(f"{dataset.files[0].path}: no data rows (header only or empty)")
-    return {
+    document = {
         "format": FORMAT_NAME,
         "format_version": FORMAT_VERSION,
         "chainlint_version": __version__,
@@ -59,3 +65,6 @@ def profile_dataset(
         "columns": {p.name: p.finish() for p in profilers},
         "column_order": [p.name for p in profilers],
     }
+    if joint is not None:
+        document["joint"] = joint.finish(settings.min_count)
+    return document

@@ -82,6 +82,11 @@ def validate(document: Any, path: str) -> dict[str, Any]:
         histogram = column.get("histogram")
         if histogram is not None and not (isinstance(histogram, dict) and isinstance(histogram.get("bounds"), list)):
             raise fail(f"column {name!r}: `histogram.bounds` must be a list")
+    joint = document.get("joint", [])
+    if not isinstance(joint, list) or not all(
+        isinstance(e, dict) and isinstance(e.get("predicates"), list) and isinstance(e.get("subsets"), list) for e in joint
+    ):
+        raise fail("`joint` must be a list of {predicates, subsets} entries")
     return document
 
 

@@ -3,9 +3,10 @@
 Every step keeps its own text; the text between steps (blanks, line breaks, parentheses,
 backslash continuations, comments on lines of their own) stays where it is, so the chain keeps
 its layout. In a chain written one step per line, a step's trailing comment (`# rare`) moves
-with it. A mask that ends up filtering another frame than the one it names is written as a
-lambda over that name (`[x.b > 2]` becomes `[lambda x: x.b > 2]`), so that it is computed on the
-rows it receives instead of being realigned from another frame.
+with it. A mask that would end up filtering another frame than the one it names is written as
+a lambda over that name (`[x.b > 2]` becomes `[lambda x: x.b > 2]`), so that it is computed on
+the rows it receives instead of being realigned from another frame by index. (Masks that are
+realigned as written, outer masks, are barriers and never move.)
 """
 
 from __future__ import annotations
@@ -40,9 +41,9 @@ def _offset(source: SourceText, line: int, column: int) -> int:
 def _render(source: SourceText, step: Step, slot: Step) -> str:
     """The text of `step` when it takes the place of `slot`."""
     text = source.text[_offset(source, step.span.line, step.span.column) : _offset(source, step.span.end_line, step.span.end_column)]
-    if not step.kind.endswith("mask") or step is slot:
+    if not step.kind.endswith("mask"):
         return text
-    if step.mask_name is not None and step.mask_name == slot.own:
+    if step is slot or (step.mask_name is not None and step.mask_name == slot.own):
         return text
     name = step.mask_name or ""
     if not name.isidentifier():
@@ -58,6 +59,8 @@ def chain_edit(source: SourceText, chain: Chain, order: tuple[int, ...]) -> Edit
     steps = chain.steps
     if sorted(order) != list(range(len(steps))):
         raise RewriteError("the order is not a permutation of the chain's steps")
+    if tuple(order) == tuple(range(len(steps))):
+        raise RewriteError("the chain is already in this order")
     segment_of = {i: n for n, segment in enumerate(chain.segments()) for i in segment}
     for position, index in enumerate(order):
         if index == position:

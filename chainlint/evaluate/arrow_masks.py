@@ -1,0 +1,114 @@
+"""Evaluate predicate IR on an Arrow record batch with pyarrow compute, as pandas would filter.
+
+Missing values follow pandas: a comparison with a missing value keeps no row, except `!=`,
+which keeps it (NaN != x is True); `isin` keeps no missing value and `not in` keeps them all;
+`.str` tests keep no missing value unless `na=` says otherwise; `isna` counts NaN as missing.
+The result is a boolean array without nulls. Only chainlint's IR is evaluated.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from chainlint.evaluate.pandas_masks import NotEvaluable, unevaluable
+from chainlint.ir import And, Arith, Column, Compare, Literal, Member, Node, Not, NullTest, Or, Range, StrTest
+
+_COMPARE = {"==": pc.equal, "!=": pc.not_equal, "<": pc.less, "<=": pc.less_equal, ">": pc.greater, ">=": pc.greater_equal}
+_ARITH = {"+": pc.add, "-": pc.subtract, "*": pc.multiply, "/": pc.divide, "**": pc.power}
+
+
+def _value(batch: pa.RecordBatch, node: Node) -> Any:
+    if isinstance(node, Column):
+        array = batch.column(batch.schema.get_field_index(node.name))
+        if pa.types.is_dictionary(array.type):
+            array = array.cast(array.type.value_type)
+        return array
+    if isinstance(node, Literal):
+        return node.value
+    if isinstance(node, Arith) and node.op in _ARITH:
+        left, right = _value(batch, node.left), _value(batch, node.right)
+        if node.op == "/":
+            left = pc.cast(left, pa.float64()) if isinstance(left, pa.Array) else float(left)
+        return _ARITH[node.op](left, right)
+    raise NotEvaluable(unevaluable(node) or f"cannot evaluate {node.canonical()} with pyarrow")
+
+
+def _dictionary_operand(batch: pa.RecordBatch, node: Node) -> pa.DictionaryArray | None:
+    operand = getattr(node, "operand", None) or getattr(node, "left", None)
+    if not isinstance(operand, Column) or len(node.columns()) != 1:
+        return None
+    array = batch.column(batch.schema.get_field_index(operand.name))
+    return array if isinstance(array, pa.DictionaryArray) else None
+
+
+def _through_dictionary(node: Node, array: pa.DictionaryArray) -> pa.Array:
+    """Evaluate on the (few) dictionary values, then spread the answers by the indices: a
+    Parquet string column is compared once per distinct value instead of once per row."""
+    (name,) = node.columns()
+    values = pa.RecordBatch.from_arrays([array.dictionary], names=[name])
+    missing = pa.RecordBatch.from_arrays([pa.nulls(1, array.dictionary.type)], names=[name])
+    spread = pc.take(arrow_mask(values, node), array.indices)
+    return pc.fill_null(spread, arrow_mask(missing, node)[0].as_py())
+
+
+def arrow_mask(batch: pa.RecordBatch, node: Node) -> pa.Array:
+    """The rows of `batch` the predicate keeps, as a boolean array without nulls."""
+    if isinstance(node, (Compare, Member, Range, NullTest, StrTest)):
+        dictionary = _dictionary_operand(batch, node)
+        if dictionary is not None:
+            return _through_dictionary(node, dictionary)
+    if isinstance(node, Compare):
+        result = _COMPARE[node.op](_value(batch, node.left), _value(batch, node.right))
+        return pc.fill_null(result, node.op == "!=")
+    if isinstance(node, Member):
+        values = [v.value for v in node.values if isinstance(v, Literal)]  # type: ignore[union-attr]
+        if len(values) != len(node.values):  # type: ignore[arg-type]
+            raise NotEvaluable(unevaluable(node) or "membership in names")
+        operand = _value(batch, node.operand)
+        found = pc.fill_null(pc.is_in(operand, value_set=pa.array(values, type=operand.type) if values else pa.array([], type=operand.type)), False)
+        return pc.invert(found) if node.negated else found
+    if isinstance(node, Range):
+        operand = _value(batch, node.operand)
+        low = (pc.greater_equal if node.inclusive in ("both", "left") else pc.greater)(operand, _value(batch, node.low))
+        high = (pc.less_equal if node.inclusive in ("both", "right") else pc.less)(operand, _value(batch, node.high))
+        return pc.fill_null(pc.and_(low, high), False)
+    if isinstance(node, NullTest):
+        missing = pc.is_null(_value(batch, node.operand), nan_is_null=True)
+        return pc.invert(missing) if node.negated else missing
+    if isinstance(node, StrTest):
+        return _string(batch, node)
+    if isinstance(node, Not):
+        return pc.invert(arrow_mask(batch, node.operand))
+    if isinstance(node, (And, Or)):
+        combine = pc.and_ if isinstance(node, And) else pc.or_
+        result = arrow_mask(batch, node.parts[0])
+        for part in node.parts[1:]:
+            result = combine(result, arrow_mask(batch, part))
+        return result
+    raise NotEvaluable(unevaluable(node) or f"cannot evaluate {node.canonical()} with pyarrow")
+
+
+def _string(batch: pa.RecordBatch, node: StrTest) -> pa.Array:
+    operand = _value(batch, node.operand)
+    pattern = _value(batch, node.pattern)
+    options = {key: value.value for key, value in node.options if isinstance(value, Literal)}
+    if len(options) != len(node.options) or not isinstance(pattern, str) or options.get("flags", 0):
+        raise NotEvaluable(unevaluable(node) or "`.str` options chainlint cannot evaluate with pyarrow")
+    ignore_case = options.get("case") is False
+    if node.method == "startswith":
+        result = pc.starts_with(operand, pattern, ignore_case=ignore_case)
+    elif node.method == "endswith":
+        result = pc.ends_with(operand, pattern, ignore_case=ignore_case)
+    elif node.method == "contains" and options.get("regex") is False:
+        result = pc.match_substring(operand, pattern, ignore_case=ignore_case)
+    else:
+        anchored = {"contains": pattern, "match": f"^(?:{pattern})", "fullmatch": f"^(?:{pattern})$"}[node.method]
+        try:
+            result = pc.match_substring_regex(operand, anchored, ignore_case=ignore_case)
+        except pa.ArrowInvalid as error:
+            raise NotEvaluable(f"pyarrow's regular expressions do not take `{pattern}` ({error})") from None
+    na = options.get("na")
+    return pc.fill_null(result, bool(na) if isinstance(na, bool) else False)

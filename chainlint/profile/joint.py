@@ -1,0 +1,91 @@
+"""Exact joint counts for the code's own predicates (`chainlint profile --for SRC`).
+
+Per-column statistics cannot see correlation (a destination and the carriers that fly there).
+For every chain bound to the profile, each movable step's predicate is evaluated exactly on
+the data from chainlint's IR (pyarrow compute, never the user's code): one boolean mask per
+predicate, packed as bits, so one `bincount` per batch counts every combination. The profile
+stores, per set of predicates, the rows that pass each subset of them; a count under
+`min_count` is stored as "below", as rare values are.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+import pyarrow as pa
+
+from chainlint.analysis.model import Chain
+from chainlint.evaluate.arrow_masks import arrow_mask
+from chainlint.evaluate.pandas_masks import NotEvaluable, unevaluable
+from chainlint.ir import Node
+
+MAX_STEPS = 12
+
+
+@dataclass
+class _Target:
+    texts: tuple[str, ...]
+    predicates: tuple[Node, ...]
+    patterns: np.ndarray
+
+
+class JointCounter:
+    """Counts, batch by batch, how many rows pass each combination of a chain's predicates."""
+
+    def __init__(self, chains: Sequence[Chain], columns: set[str]) -> None:
+        self.targets: dict[tuple[str, ...], _Target] = {}
+        self.skipped: dict[str, str] = {}
+        for chain in chains:
+            for segment in chain.segments():
+                chosen: dict[str, Node] = {}
+                for index in segment:
+                    predicate = chain.steps[index].predicate
+                    reason = unevaluable(predicate)
+                    if reason is None and not predicate.columns() <= columns:
+                        reason = "it reads columns the data does not have"
+                    if reason:
+                        self.skipped[predicate.canonical()] = reason
+                        continue
+                    chosen[predicate.canonical()] = predicate
+                texts = tuple(sorted(chosen))[:MAX_STEPS]
+                if len(texts) >= 2 and texts not in self.targets:
+                    self.targets[texts] = _Target(texts, tuple(chosen[t] for t in texts), np.zeros(1 << len(texts), dtype=np.int64))
+
+    def add(self, batch: pa.RecordBatch) -> None:
+        for target in list(self.targets.values()):
+            code = np.zeros(batch.num_rows, dtype=np.int64)
+            try:
+                for bit, predicate in enumerate(target.predicates):
+                    mask = arrow_mask(batch, predicate).to_numpy(zero_copy_only=False)
+                    code |= mask.astype(np.int64) << bit
+            except (NotEvaluable, pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError) as error:
+                for text in target.texts:
+                    self.skipped.setdefault(text, f"pyarrow cannot evaluate it: {error}")
+                del self.targets[target.texts]
+                continue
+            target.patterns += np.bincount(code, minlength=len(target.patterns))
+
+    def finish(self, min_count: int) -> list[dict]:
+        """Per set of predicates: rows passing every subset (bit i: the i-th predicate)."""
+        entries = []
+        for texts in sorted(self.targets):
+            subsets = superset_sums(self.targets[texts].patterns)
+            counts = [[mask, int(c) if c >= min_count or c == 0 else "below"] for mask, c in enumerate(subsets)]
+            entries.append({"predicates": list(texts), "subsets": counts})
+        return entries
+
+
+def superset_sums(patterns: np.ndarray) -> np.ndarray:
+    """From counts of each exact pattern of passed predicates to counts of rows passing each
+    subset: rows(S) = sum of patterns that contain S (a zeta transform, k passes)."""
+    sums = patterns.copy()
+    size = len(sums)
+    bit = 1
+    while bit < size:
+        masks = np.arange(size)
+        without = masks[(masks & bit) == 0]
+        sums[without] += sums[without | bit]
+        bit <<= 1
+    return sums

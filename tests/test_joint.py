@@ -1,0 +1,114 @@
+"""Joint statistics (`profile --for`): every stored joint count equals the row count pandas
+gives for the same combination of filters (pandas as the reference), and the planner uses them."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute  # noqa: F401  (pa.compute)
+from click.testing import CliRunner
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from chainlint.analysis.run import analyse_source
+from chainlint.cli import main
+from chainlint.parse.source import text_source
+from chainlint.profile.joint import JointCounter
+
+MASKS = [
+    "d.a == 1", "d.a >= 2", "d.b < 3", "d.b != 4", "d.s == 'x'", "d.s.isin(['y', 'z'])", "d.f > 0.5",
+    "d.f.isna()", "~(d.a == 0)", "(d.a > 2) | (d.s == 'w')", "d.s.str.startswith('x')", "d.f.between(0.1, 0.9)",
+]
+
+
+@st.composite
+def correlated_frames(draw):
+    rows = draw(st.integers(1, 400))
+    rng = np.random.default_rng(draw(st.integers(0, 2**32 - 1)))
+    a = rng.integers(0, 5, rows)
+    b = a + rng.integers(0, 2, rows)  # b follows a
+    labels = np.array(["w", "x", "y", "z", "xx"], dtype=object)
+    s = labels[np.where(rng.random(rows) < 0.8, a, rng.integers(0, 5, rows))]  # s mostly follows a
+    s[rng.random(rows) < 0.1] = None
+    f = rng.random(rows)
+    f[rng.random(rows) < 0.15] = np.nan
+    return pd.DataFrame({"a": a, "b": b, "s": pd.array(s, dtype="str"), "f": f})
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(correlated_frames(), st.lists(st.sampled_from(MASKS), min_size=2, max_size=5, unique=True), st.booleans())
+def test_every_joint_count_equals_the_pandas_filter(frame, masks, dictionary) -> None:
+    source = "out = df" + "".join(f"[lambda d: {m}]" for m in masks) + "\n"
+    (chain,) = analyse_source(text_source("m.py", source)).chains
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    if dictionary:  # as Parquet string columns arrive
+        table = table.set_column(2, "s", pa.compute.dictionary_encode(table.column("s")))
+    counter = JointCounter([chain], set(frame.columns))
+    for batch in table.to_batches(max_chunksize=97):
+        counter.add(batch)
+    (entry,) = counter.finish(min_count=1)
+    by_text = {step.predicate.canonical(): mask for step, mask in zip(chain.steps, masks)}
+    for subset, count in entry["subsets"]:
+        chosen = [by_text[text] for bit, text in enumerate(entry["predicates"]) if subset >> bit & 1]
+        keep = pd.Series(True, index=frame.index)
+        for text in chosen:
+            keep &= eval(text, {}, {"d": frame}).astype(bool)  # the test's own filter text, on pandas
+        assert count == int(keep.sum()), (chosen, count, int(keep.sum()))
+
+
+PIPELINE = '''def correlated(frame):
+    return frame.loc[lambda d: d.dest == "HNL"].loc[lambda d: d.carrier == "HA"].loc[lambda d: d.distance > 1000]
+'''
+
+
+def test_profile_for_source_and_planning_with_joint_counts(tmp_path: Path) -> None:
+    from flights import flights
+
+    frame = flights()
+    frame.to_parquet(tmp_path / "flights.parquet")
+    (tmp_path / "pipeline.py").write_text(PIPELINE)
+    store = tmp_path / ".chainlint"
+    result = CliRunner().invoke(main, ["profile", str(tmp_path / "flights.parquet"), "--name", "flights", "--store", str(store),
+                                       "--for", str(tmp_path / "pipeline.py")])
+    assert result.exit_code == 0 and "joint counts for 1 predicate sets" in result.output, result.output
+    document = json.loads((store / "profiles" / "flights.json").read_text())
+    (entry,) = document["joint"]
+    subsets = dict(entry["subsets"])
+    everything = (1 << len(entry["predicates"])) - 1
+    truth = frame[(frame.dest == "HNL") & (frame.carrier == "HA") & (frame.distance > 1000)]  # pandas
+    assert subsets[everything] == len(truth)
+    explained = json.loads(CliRunner().invoke(main, ["explain", "--format", "json", str(tmp_path / "pipeline.py")]).output)
+    (chain,) = explained["chains"]
+    assert [s["basis"] for s in chain["steps"]] == ["joint (exact)"] * 3
+    hnl = frame[frame.dest == "HNL"]
+    assert abs(chain["steps"][1]["selectivity"] - (hnl.carrier == "HA").mean()) < 1e-6  # conditional share, exact
+    # The code changes: the joint counts no longer cover the chain, and check says so.
+    (tmp_path / "pipeline.py").write_text(PIPELINE.replace('"HA"', '"UA"'))
+    stale = CliRunner().invoke(main, ["check", "--format", "json", str(tmp_path / "pipeline.py")])
+    rules = [f["rule"] for f in json.loads(stale.output)["findings"]]
+    assert "stale-joint" in rules
+
+
+def test_rare_joint_counts_are_stored_as_below(tmp_path: Path) -> None:
+    frame = pd.DataFrame({"a": [1, 1, 1, 2, 2, 2, 2, 2, 2, 3], "b": [0, 1, 1, 1, 1, 1, 1, 0, 0, 0]})
+    source = "out = df[lambda d: d.a == 3][lambda d: d.b == 1]\n"
+    (chain,) = analyse_source(text_source("m.py", source)).chains
+    counter = JointCounter([chain], {"a", "b"})
+    counter.add(pa.RecordBatch.from_pandas(frame, preserve_index=False))
+    (entry,) = counter.finish(min_count=5)
+    counts = dict(entry["subsets"])
+    assert counts[0] == 10 and counts[3] == 0 and "below" in counts.values()
+
+
+def test_unknown_column_is_reported(tmp_path: Path) -> None:
+    (tmp_path / ".chainlint" / "profiles").mkdir(parents=True)
+    demo = Path(__file__).parent.parent / "examples" / ".chainlint" / "profiles" / "parcel_scans.json"
+    (tmp_path / ".chainlint" / "profiles" / "parcel_scans.json").write_bytes(demo.read_bytes())
+    (tmp_path / "m.py").write_text("# chainlint: profile=parcel_scans\nout = scans[scans.depot == 'WEST'][scans.colour == 'red']\n")
+    result = CliRunner().invoke(main, ["check", "--format", "json", str(tmp_path / "m.py")])
+    findings = json.loads(result.output)["findings"]
+    assert any(f["rule"] == "unknown-column" and "`colour`" in f["message"] for f in findings)
