@@ -13,7 +13,7 @@ from typing import NoReturn
 import click
 
 from chainlint import __version__
-from chainlint.analysis.check import RULES, Options, plan_results
+from chainlint.analysis.check import RULES, Options, options_from, plan_results
 from chainlint.analysis.check import check as run_check
 from chainlint.analysis.model import FileError
 from chainlint.analysis.run import analyse_files
@@ -43,7 +43,7 @@ from chainlint.report.check import check_json, check_lines, check_summary
 from chainlint.report.explain import all_errors, explain_json, explain_text, summary
 from chainlint.report.profiles import profile_line, profile_summary
 from chainlint.report.sarif import check_sarif
-from chainlint.rules import Finding, RuleContext
+from chainlint.rules import Finding
 
 EXIT_OK, EXIT_FINDINGS, EXIT_ERROR = 0, 1, 2
 
@@ -85,17 +85,6 @@ def _config(paths: Sequence[str], **given) -> Config:  # type: ignore[no-untyped
     return override(config, **given)
 
 
-def _options(config: Config) -> Options:
-    rules = frozenset(config.rules) if config.rules else Options().rules
-    return Options(
-        store=Path(config.store) if config.store else None,
-        rules=rules - set(config.skip),
-        context=RuleContext(min_gain=config.min_gain, min_saving=config.min_saving_ms / 1e3),
-        bindings=config.bindings,
-        profile_rows=config.rows,
-    )
-
-
 def _analyse(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, jobs: int | None):  # type: ignore[no-untyped-def]
     found = discover(paths, exclude)
     results = analyse_files(found.files, jobs=jobs, max_bytes=int(max_file_size * 1024 * 1024))
@@ -110,7 +99,7 @@ def explain(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, 
     """List every chain of row filters in PATHS: steps, predicates, which steps may move, and the plan."""
     config = _config(paths, store=store, exclude=tuple(exclude) or None)
     results, discovery_errors = _analyse(paths, config.exclude, max_file_size, jobs)
-    planned, store_errors = plan_results(results, replace(_options(config), rows=rows))
+    planned, store_errors = plan_results(results, replace(options_from(config), rows=rows))
     errors = all_errors(results, discovery_errors + store_errors)
     if output_format == "json":
         click.echo(explain_json(planned, errors), nl=False)
@@ -151,7 +140,7 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
         rules=tuple(rules) or None, fail_rules=tuple(fail_rules) or None,
     )
     results, discovery_errors = _analyse(paths, config.exclude, max_file_size, jobs)
-    options = replace(_options(config), rows=rows)
+    options = replace(options_from(config), rows=rows)
     result = run_check(results, options)
     fixes: dict = {}  # type: ignore[type-arg]
     if any(f.rule == "reorder" for f in result.findings):

@@ -9,6 +9,7 @@ from pathlib import Path
 from chainlint.analysis.model import Chain, FileAnalysis, FileError
 from chainlint.bind.binding import Binding, bind_chain
 from chainlint.bind.profiles import load_store
+from chainlint.config import Config
 from chainlint.estimate.selectivity import Estimator
 from chainlint.plan.chains import ChainPlan, plan_chain
 from chainlint.profile.store import find_store
@@ -38,6 +39,18 @@ class Options:
     context: RuleContext = field(default_factory=RuleContext)
     bindings: tuple[tuple[str, str], ...] = ()
     profile_rows: tuple[tuple[str, int], ...] = ()
+
+
+def options_from(config: Config) -> Options:
+    """The options a configuration asks for (the command line has already been laid over it)."""
+    rules = frozenset(config.rules) if config.rules else Options().rules
+    return Options(
+        store=Path(config.store) if config.store else None,
+        rules=rules - set(config.skip),
+        context=RuleContext(min_gain=config.min_gain, min_saving=config.min_saving_ms / 1e3),
+        bindings=config.bindings,
+        profile_rows=config.rows,
+    )
 
 
 @dataclass(frozen=True)

@@ -14,7 +14,20 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from chainlint.evaluate.pandas_masks import NotEvaluable, unevaluable
-from chainlint.ir import And, Arith, Column, Compare, Literal, Member, Node, Not, NullTest, Or, Range, StrTest
+from chainlint.ir import (
+    And,
+    Arith,
+    Column,
+    Compare,
+    Literal,
+    Member,
+    Node,
+    Not,
+    NullTest,
+    Or,
+    Range,
+    StrTest,
+)
 
 _COMPARE = {"==": pc.equal, "!=": pc.not_equal, "<": pc.less, "<=": pc.less_equal, ">": pc.greater, ">=": pc.greater_equal}
 _ARITH = {"+": pc.add, "-": pc.subtract, "*": pc.multiply, "/": pc.divide, "**": pc.power}

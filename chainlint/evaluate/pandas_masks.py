@@ -44,20 +44,7 @@ def unevaluable(node: Node) -> str | None:
         return f"it holds code chainlint does not model (`{node.text}`)"
     if isinstance(node, Named):
         return f"it reads the name `{node.name}`, whose value is only known when the code runs"
-    children: list[Node] = []
-    if isinstance(node, (Arith, Compare)):
-        children = [node.left, node.right]
-    elif isinstance(node, Member):
-        children = [node.operand] + (list(node.values) if isinstance(node.values, tuple) else [node.values])
-    elif isinstance(node, Range):
-        children = [node.operand, node.low, node.high]
-    elif isinstance(node, (NullTest, Not)):
-        children = [node.operand]
-    elif isinstance(node, StrTest):
-        children = [node.operand, node.pattern] + [value for _, value in node.options]
-    elif isinstance(node, (And, Or)):
-        children = list(node.parts)
-    for child in children:
+    for child in node.children():
         reason = unevaluable(child)
         if reason:
             return reason

@@ -33,8 +33,17 @@ class Node:
     def columns(self) -> frozenset[str]:
         """The column names this node reads."""
         found: set[str] = set()
-        _collect_columns(self, found)
+        stack: list[Node] = [self]
+        while stack:
+            node = stack.pop()
+            if isinstance(node, Column):
+                found.add(node.name)
+            stack.extend(node.children())
         return frozenset(found)
+
+    def children(self) -> tuple[Node, ...]:
+        """The nodes directly below this one (values, operands, parts, options)."""
+        return _children(self)
 
     def canonical(self) -> str:
         return _print(self)
@@ -152,22 +161,20 @@ def _same_value(a: LiteralValue, b: LiteralValue) -> bool:
     return a == b
 
 
-def _collect_columns(node: Node, found: set[str]) -> None:
-    if isinstance(node, Column):
-        found.add(node.name)
-    elif isinstance(node, (Arith, Compare)):
-        _collect_columns(node.left, found)
-        _collect_columns(node.right, found)
-    elif isinstance(node, Member):
-        _collect_columns(node.operand, found)
-    elif isinstance(node, Range):
-        for part in (node.operand, node.low, node.high):
-            _collect_columns(part, found)
-    elif isinstance(node, (NullTest, StrTest, Not)):
-        _collect_columns(node.operand, found)
-    elif isinstance(node, (And, Or)):
-        for part in node.parts:
-            _collect_columns(part, found)
+def _children(node: Node) -> tuple[Node, ...]:
+    if isinstance(node, (Arith, Compare)):
+        return (node.left, node.right)
+    if isinstance(node, Member):
+        return (node.operand, *node.values) if isinstance(node.values, tuple) else (node.operand, node.values)
+    if isinstance(node, Range):
+        return (node.operand, node.low, node.high)
+    if isinstance(node, (NullTest, Not)):
+        return (node.operand,)
+    if isinstance(node, StrTest):
+        return (node.operand, node.pattern, *(value for _, value in node.options))
+    if isinstance(node, (And, Or)):
+        return node.parts
+    return ()
 
 
 def is_plain_name(name: str) -> bool:

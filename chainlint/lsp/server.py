@@ -20,14 +20,21 @@ from lsprotocol import types
 from pygls.lsp.server import LanguageServer
 
 from chainlint import __version__
-from chainlint.analysis.check import RULES, Options, PlannedChain, apply_rules, plan_results
+from chainlint.analysis.check import (
+    RULES,
+    Options,
+    PlannedChain,
+    apply_rules,
+    options_from,
+    plan_results,
+)
 from chainlint.analysis.model import Span
 from chainlint.analysis.run import analyse_source
 from chainlint.config import ConfigError, load_config
 from chainlint.parse.source import SourceText, text_source
 from chainlint.rewrite.fixes import fix_in_text
 from chainlint.rewrite.permute import RewriteError
-from chainlint.rules import Finding, RuleContext
+from chainlint.rules import Finding
 
 DEBOUNCE_SECONDS = 0.025
 logger = logging.getLogger("chainlint.lsp")
@@ -63,14 +70,7 @@ def _options(path: str) -> Options:
     except ConfigError as error:
         logger.warning("%s", error)
         return Options()
-    rules = (frozenset(config.rules) if config.rules else Options().rules) - set(config.skip)
-    return Options(
-        store=Path(config.store) if config.store else None,
-        rules=rules,
-        context=RuleContext(min_gain=config.min_gain, min_saving=config.min_saving_ms / 1e3),
-        bindings=config.bindings,
-        profile_rows=config.rows,
-    )
+    return options_from(config)
 
 
 def analyse_document(uri: str, text: str) -> DocumentState:
