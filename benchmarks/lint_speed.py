@@ -17,6 +17,7 @@ from pathlib import Path
 
 import pandas
 
+from chainlint.analysis.check import Options, plan_results
 from chainlint.analysis.run import analyse_files
 from chainlint.discover import discover
 from chainlint.report.explain import explain_json
@@ -34,7 +35,8 @@ def explain(root: str, jobs: int) -> tuple[float, int]:
     start = time.perf_counter()
     found = discover([root])
     results = analyse_files(found.files, jobs=jobs)
-    explain_json(results)
+    planned, errors = plan_results(results, Options())
+    explain_json(planned, errors)
     return time.perf_counter() - start, sum(len(r.chains) for r in results)
 
 
