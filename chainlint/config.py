@@ -33,9 +33,6 @@ class Config:
     source: str | None = None
     origins: dict[str, str] = field(default_factory=dict, compare=False)
 
-    def rows_for(self, profile: str) -> int | None:
-        return dict(self.rows).get(profile)
-
 
 _KEYS = {f.name for f in fields(Config)} - {"source", "origins"}
 

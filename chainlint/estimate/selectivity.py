@@ -283,8 +283,3 @@ def _string_test(node: StrTest):  # type: ignore[no-untyped-def]
         return None
     method = {"contains": compiled.search, "match": compiled.match, "fullmatch": compiled.fullmatch}[node.method]
     return lambda v: method(v) is not None
-
-
-def estimate_step(estimator: Estimator | None, node: Node) -> Estimate:
-    """A step's selectivity; without a profile, the default for an inequality."""
-    return estimator.estimate(node) if estimator is not None else Estimate(DEFAULT_INEQ, "default")
