@@ -27,7 +27,12 @@ from chainlint.profile.columns import Settings
 from chainlint.profile.format import ProfileError, dumps
 from chainlint.profile.joint import JointCounter
 from chainlint.profile.merge import merge_profiles
-from chainlint.profile.readers import BATCH_ROWS, DataError, open_dataset
+from chainlint.profile.readers import (
+    BATCH_ROWS,
+    DataError,
+    fingerprint_state,
+    open_dataset,
+)
 from chainlint.profile.store import (
     StoreError,
     check_name,
@@ -324,6 +329,27 @@ def show(folder: Path, name: str, top: int) -> None:
     except (ProfileError, StoreError) as error:
         _fail(str(error))
     click.echo(profile_summary(document, top), nl=False)
+
+
+@profiles.command("check")
+@click.argument("names", nargs=-1)
+@click.pass_obj
+def check_profiles(folder: Path, names: Sequence[str]) -> None:
+    """Tell whether profiles (default: all) are out of date: their data files' content changed.
+
+    Exit status: 0 when all are current, 1 when one is out of date, 2 when a file is missing.
+    """
+    paths = [profile_path(folder, n) for n in names] if names else list_profiles(folder)
+    worst = EXIT_OK
+    for path in paths:
+        try:
+            document = load_profile(path)
+        except (ProfileError, StoreError) as error:
+            _fail(str(error))
+        state, detail = fingerprint_state(document, folder)
+        click.echo(f"{document['name']}: {state}{': ' + detail if detail else ''}")
+        worst = max(worst, {"up to date": EXIT_OK, "out of date": EXIT_FINDINGS}.get(state, EXIT_ERROR))
+    sys.exit(worst)
 
 
 @profiles.command()

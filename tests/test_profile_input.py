@@ -176,3 +176,18 @@ def test_bad_profile_names(tmp_path: Path, name: str) -> None:
     data = tmp_path / "d.csv"
     data.write_text("a\n1\n")
     assert "profile name" in _error_line(_profile(tmp_path, data, name=name))
+
+
+def test_profiles_check_tells_when_the_data_changed(tmp_path: Path) -> None:
+    data = tmp_path / "d.csv"
+    data.write_text("a\n" + "1\n" * 10)
+    assert _profile(tmp_path, data).exit_code == 0
+    store = str(tmp_path / "store")
+    current = _run("profiles", "--store", store, "check")
+    assert current.exit_code == 0 and "p: up to date" in current.output
+    data.write_text("a\n" + "2\n" * 10)  # same size, other content
+    changed = _run("profiles", "--store", store, "check", "p")
+    assert changed.exit_code == 1 and "p: out of date: the data's content changed" in changed.output
+    data.unlink()
+    missing = _run("profiles", "--store", store, "check")
+    assert missing.exit_code == 2 and "data missing" in missing.output

@@ -14,6 +14,7 @@ from collections.abc import Iterator, Sequence
 from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
+from pathlib import Path
 
 import pyarrow as pa
 import pyarrow.csv as pacsv
@@ -91,6 +92,31 @@ def _sha256(path: str) -> str:
         for chunk in iter(lambda: handle.read(1 << 20), b""):
             digest.update(chunk)
     return digest.hexdigest()
+
+
+def fingerprint_state(document: dict, store: Path) -> tuple[str, str]:
+    """("up to date" | "out of date" | "data missing", detail) for a profile's recorded files.
+
+    Recorded paths are as given when profiling; relative ones are looked up from here, then
+    from the project folder that holds the store.
+    """
+    files = document.get("source", {}).get("files", [])
+    if not files or "merged_from" in document.get("source", {}):
+        return "data missing", "the profile records no single dataset to compare with"
+    found = []
+    for entry in files:
+        candidates = [Path(entry["path"]), store.resolve().parent / entry["path"]]
+        path = next((c for c in candidates if c.is_file()), None)
+        if path is None:
+            return "data missing", f"{entry['path']} is not there"
+        found.append(path)
+    combined = hashlib.sha256()
+    for path in found:
+        combined.update(_sha256(str(path)).encode())
+    if "sha256:" + combined.hexdigest() == document["source"].get("fingerprint"):
+        return "up to date", ""
+    changed = [str(p) for p, e in zip(found, files) if os.path.getsize(p) != e.get("bytes")]
+    return "out of date", ("changed: " + ", ".join(changed)) if changed else "the data's content changed"
 
 
 def _files_of(path: str) -> list[str]:
