@@ -33,21 +33,23 @@ from chainlint.cli import main as cli
 from chainlint.evaluate.pandas_masks import apply_step, mask
 from chainlint.parse.source import text_source
 
+# Masks after the first step are written as lambdas: an outer mask (`f[a][f.b > 1]`) is
+# realigned by index and is a barrier, so it would not move.
 CHAINS = '''
 def c01(f): return f[f.distance > 300].loc[lambda d: d.origin == "JFK"].loc[lambda d: d.dest == "LAX"]
 def c02(f): return f.query("month >= 3").query("carrier == 'AA'").query("dep_delay > 60")
-def c03(f): return f[f.dep_delay.notna()][f.hour >= 7].loc[lambda d: d.dest.isin(["BOS", "MIA"])]
+def c03(f): return f[f.dep_delay.notna()][lambda d: d.hour >= 7].loc[lambda d: d.dest.isin(["BOS", "MIA"])]
 def c04(f): return f.loc[lambda d: d.air_time > 30].loc[lambda d: d.carrier == "B6"].loc[lambda d: d.dest == "FLL"].loc[lambda d: d.month == 1]
 def c05(f): return f.query("distance < 3000").query("arr_delay < 0").query("origin == 'EWR'").query("tailnum == 'N725MQ'")
 def c06(f): return f.dropna(subset=["tailnum"]).loc[lambda d: d.dep_time > 1200].loc[lambda d: d.carrier == "UA"]
-def c07(f): return f[f.month != 12][f.day <= 15][f.dest == "ATL"][f.carrier == "DL"]
+def c07(f): return f[f.month != 12][lambda d: d.day <= 15][lambda d: d.dest == "ATL"][lambda d: d.carrier == "DL"]
 def c08(f): return f.loc[lambda d: d.sched_dep_time > 600].loc[lambda d: d.dest == "HNL"].loc[lambda d: d.distance.between(4000, 5000)]
 def c09(f): return f.query("hour < 22").query("carrier in ['EV', 'MQ']").query("dest == 'RDU'")
 def c10(f): return f.loc[lambda d: d.dep_delay < 120].loc[lambda d: d.arr_delay > 30].loc[lambda d: d.origin == "LGA"].loc[lambda d: d.minute == 0]
-def c11(f): return f[f.dest == "SEA"][f.carrier == "AS"][f.air_time > 250]
+def c11(f): return f[f.dest == "SEA"][lambda d: d.carrier == "AS"][lambda d: d.air_time > 250]
 def c12(f): return f.query("year == 2013").query("flight == 1545").query("month == 1")
 def c13(f): return f.loc[lambda d: d.carrier == "HA"].loc[lambda d: d.origin == "JFK"].loc[lambda d: d.dest == "HNL"]
-def c14(f): return f[f.arr_time.notna()][f.distance > 1000][f.dest == "SFO"][f.carrier == "VX"]
+def c14(f): return f[f.arr_time.notna()][lambda d: d.distance > 1000][lambda d: d.dest == "SFO"][lambda d: d.carrier == "VX"]
 def c15(f): return f.loc[lambda d: d.month == 7].loc[lambda d: d.carrier == "UA"].loc[lambda d: d.dest == "ANC"]
 def c16(f): return f.loc[lambda d: d.origin == "EWR"].loc[lambda d: d.carrier == "AS"].loc[lambda d: d.dest == "SEA"]
 def c17(f): return f.loc[lambda d: d.origin == "LGA"].loc[lambda d: d.dest == "DEN"].loc[lambda d: d.carrier == "F9"]

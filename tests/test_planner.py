@@ -67,3 +67,15 @@ def test_long_segments_get_a_complete_greedy_order(steps) -> None:
     assert sorted(order) == list(range(len(steps)))
     ranked = sorted(range(len(steps)), key=lambda i: (steps[i][0] / max(1 - steps[i][1], 1e-12), i))
     assert math.isclose(planned, order_cost(ranked, rows_after, cost), rel_tol=1e-6)
+
+
+def test_kept_rows_in_runs_cost_what_dense_keeps_cost() -> None:
+    from chainlint.estimate.cost import DEFAULT_MODEL, take_cost
+
+    shape = FrameShape({"a": "numeric", "b": "str"})
+    scattered = take_cost(1e6, 0.02, shape)
+    clustered = take_cost(1e6, 0.02, shape, clustered=1.0)
+    dense_numeric = DEFAULT_MODEL.numeric_take_kept[-1][1]
+    dense_string = DEFAULT_MODEL.string_take_kept[-1][1]
+    expected = 1e6 * DEFAULT_MODEL.numeric_take_in + 2e4 * dense_numeric + 1e6 * DEFAULT_MODEL.string_take_in + 2e4 * dense_string
+    assert math.isclose(clustered, expected) and scattered > clustered

@@ -182,3 +182,17 @@ def test_several_files_form_one_dataset(flights_parquet: Path, tmp_path: Path) -
     document = _profile([str(first), str(second)], tmp_path / "store", "both")
     assert document["rows"] == 3000
     assert [f["path"] for f in document["source"]["files"]] == [str(first), str(second)]
+
+
+def test_clustering_follows_its_definition_on_pandas(exact_profile: dict) -> None:
+    # clustering = 1 - (value changes between consecutive non-null rows) / (what a random order
+    # gives: (n - 1) * (1 - sum of squared shares)), computed here with pandas.
+    frame = flights()
+    for name in ("month", "day", "dest", "carrier", "hour", "distance"):
+        values = frame[name].dropna().reset_index(drop=True)
+        changes = int((values != values.shift()).sum()) - 1
+        shares = values.value_counts(normalize=True).to_numpy()
+        expected = (len(values) - 1) * (1 - (shares**2).sum())
+        assert exact_profile["columns"][name]["clustering"] == round(min(1.0, max(0.0, 1 - changes / expected)), 3), name
+    assert exact_profile["columns"]["month"]["clustering"] == 1.0  # the table is in date order
+    assert exact_profile["columns"]["dest"]["clustering"] < 0.05

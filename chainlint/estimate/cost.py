@@ -10,7 +10,8 @@ Measured on pandas 3.1.1, a 2,000,000 x 40 frame (the figures issue #4 records).
   input row per column, plus per kept row per column 41-44 at 1-5% and 9.4 at 30% or more;
   a mask that keeps every row copies nothing;
 - a fixed 0.4-1 ms per step.
-Values marked "assumed" were not measured; `CostModel` holds all of them so that a
+Kept rows that lie in runs (a filter on a column whose equal values are clustered in row order,
+by the profile's `clustering`) are taken at the dense cost. Values marked "assumed" were not measured; `CostModel` holds all of them so that a
 calibration can replace them.
 """
 
@@ -122,16 +123,26 @@ def _interpolate(points: tuple[tuple[float, float], ...], share: float) -> float
     return float(np.interp(share, xs, ys))
 
 
-def take_cost(rows_in: float, kept: float, shape: FrameShape, model: CostModel = DEFAULT_MODEL) -> float:
-    """Nanoseconds to copy the kept rows of every column; `kept` is the share kept."""
+def take_cost(rows_in: float, kept: float, shape: FrameShape, model: CostModel = DEFAULT_MODEL, clustered: float = 0.0) -> float:
+    """Nanoseconds to copy the kept rows of every column; `kept` is the share kept.
+
+    A few kept rows scattered over the frame cost more each than many (cache misses); kept
+    rows that lie in runs (`clustered` near 1, as for a filter on a sorted column) cost what
+    dense keeps cost, whatever their share.
+    """
     if kept >= 1.0:
         return 0.0
     rows_out = rows_in * kept
-    numeric = rows_in * model.numeric_take_in + rows_out * shape.numeric_columns * _interpolate(model.numeric_take_kept, kept)
-    strings = shape.string_columns * (rows_in * model.string_take_in + rows_out * _interpolate(model.string_take_kept, kept))
+
+    def per_row(points: tuple[tuple[float, float], ...]) -> float:
+        return (1.0 - clustered) * _interpolate(points, kept) + clustered * points[-1][1]
+
+    numeric = rows_in * model.numeric_take_in + rows_out * shape.numeric_columns * per_row(model.numeric_take_kept)
+    strings = shape.string_columns * (rows_in * model.string_take_in + rows_out * per_row(model.string_take_kept))
     return numeric + strings
 
 
-def step_cost(rows_in: float, predicate: float, kept: float, shape: FrameShape, model: CostModel = DEFAULT_MODEL) -> float:
+def step_cost(rows_in: float, predicate: float, kept: float, shape: FrameShape, model: CostModel = DEFAULT_MODEL,
+              clustered: float = 0.0) -> float:
     """Nanoseconds for one step that receives `rows_in` rows and keeps the share `kept`."""
-    return rows_in * predicate + take_cost(rows_in, kept, shape, model) + model.fixed
+    return rows_in * predicate + take_cost(rows_in, kept, shape, model, clustered) + model.fixed

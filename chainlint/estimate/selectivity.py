@@ -163,6 +163,16 @@ class Estimator:
             counts = {int(mask): (below if count == "below" else float(count)) for mask, count in entry["subsets"]}
             self.joint.append((positions, counts))
 
+    def clustering(self, node: Node) -> float:
+        """How much the rows a test of one column keeps lie in runs (the column's clustering);
+        0 for anything else."""
+        columns = node.columns()
+        if len(columns) != 1 or not isinstance(node, (Compare, Member, Range, NullTest, StrTest)):
+            return 0.0
+        (name,) = columns
+        column = self.profile["columns"].get(name, {})
+        return float(column.get("clustering", 0.0))
+
     def joint_share(self, texts: frozenset[str]) -> float | None:
         """The exact share of rows passing all of `texts` together, when a joint entry has it."""
         for positions, counts in self.joint:

@@ -86,8 +86,10 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
             cache[mask] = total_rows * share * rest
         return cache[mask]
 
+    clustered = [estimator.clustering(step.predicate) for step in chain.steps]
+
     def cost(step: int, rows_in: float, kept: float) -> float:
-        return step_cost(rows_in, predicates[step], kept, shape, model)
+        return step_cost(rows_in, predicates[step], kept, shape, model, clustered[step])
 
     planned: list[int] = []
     done = 0
@@ -113,7 +115,7 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
             done |= 1 << step
     written = _walk(range(len(chain.steps)), estimates, rows_after, cost, joint_steps)
     planned_estimates = _walk(planned, estimates, rows_after, cost, joint_steps)
-    fused = _fused_seconds(chain, estimates, predicates, total_rows, shape, model)
+    fused = _fused_seconds(chain, estimates, predicates, total_rows, shape, model, clustered)
     return ChainPlan(chain, binding, total_rows, written, planned_estimates, fused)
 
 
@@ -145,7 +147,7 @@ def _walk(order, estimates: list[Estimate], rows_after, cost, joint_steps: set[i
 
 
 def _fused_seconds(chain: Chain, estimates: list[Estimate], predicates: list[float], rows: float,
-                   shape: FrameShape, model: CostModel) -> float:
+                   shape: FrameShape, model: CostModel, clustered: list[float]) -> float:
     """Each segment of movable steps as one mask joined with `&`, barriers as written."""
     total = 0.0
     rows_in = float(rows)
@@ -154,7 +156,7 @@ def _fused_seconds(chain: Chain, estimates: list[Estimate], predicates: list[flo
     while index < len(steps):
         if not steps[index].movable:
             kept = estimates[index].selectivity
-            total += step_cost(rows_in, predicates[index], kept, shape, model)
+            total += step_cost(rows_in, predicates[index], kept, shape, model, clustered[index])
             rows_in *= kept
             index += 1
             continue
@@ -164,7 +166,7 @@ def _fused_seconds(chain: Chain, estimates: list[Estimate], predicates: list[flo
             index += 1
         kept = math.prod(estimates[i].selectivity for i in segment)
         predicate = sum(predicates[i] for i in segment) + model.combine * (len(segment) - 1)
-        total += step_cost(rows_in, predicate, kept, shape, model)
+        total += step_cost(rows_in, predicate, kept, shape, model, min(clustered[i] for i in segment))
         rows_in *= kept
     return total / 1e9
 

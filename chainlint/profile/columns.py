@@ -88,6 +88,10 @@ class ColumnProfiler:
         self.low: Any = None
         self.high: Any = None
         self.expected_rows = expected_rows
+        # How clustered equal values lie in row order: value changes between consecutive
+        # non-null rows (a sorted column changes rarely; kept rows then lie in runs).
+        self.changes = 0
+        self.last: Any = None
 
     # -- accumulation ---------------------------------------------------------------------
     def add(self, array: pa.Array) -> None:
@@ -102,10 +106,32 @@ class ColumnProfiler:
         self.nulls += array.null_count
         if array.null_count == len(array):
             return
+        self.count_changes(array)
         if self.exact:
             self.count_exact(array)
         else:
             self.summarise(array)
+
+    def count_changes(self, array: pa.Array) -> None:
+        valid = array.drop_null() if array.null_count else array
+        comparable = valid.indices if isinstance(valid, pa.DictionaryArray) else valid
+        if len(comparable) > 1:
+            self.changes += int(pc.sum(pc.not_equal(comparable.slice(1), comparable.slice(0, len(comparable) - 1))).as_py() or 0)
+        first, last = valid[0].as_py(), valid[len(valid) - 1].as_py()
+        if self.last is not None and first != self.last:
+            self.changes += 1
+        self.last = last
+
+    def clustering(self, shares: np.ndarray) -> float:
+        """1 when equal values lie in one run each (a sorted column), 0 when they are spread as
+        in a random order: 1 - changes / the changes a random order would have."""
+        pairs = self.rows - self.nulls - 1
+        if pairs <= 0:
+            return 0.0
+        expected = pairs * (1.0 - float(np.sum(shares**2)))
+        if expected <= 0:
+            return 1.0
+        return round(min(1.0, max(0.0, 1.0 - self.changes / expected)), 3)
 
     def count_exact(self, array: pa.Array) -> None:
         if isinstance(array, pa.DictionaryArray):
@@ -173,6 +199,7 @@ class ColumnProfiler:
             bounds = self.bounds_exact(values, counts)
             frequent_values = set(values[frequent].tolist())
             rank_error = 0.0
+            entry["clustering"] = self.clustering(counts / max(counts.sum(), 1))
         else:
             assert self.sample is not None
             points, weights = self.sample.points()
@@ -185,6 +212,8 @@ class ColumnProfiler:
             bounds = self.bounds_sampled(points, weights)
             frequent_values = {v for v, _ in entry["top"]["values"]}
             rank_error = self.sample.rank_error
+            listed = np.array([c for _, c in entry["top"]["values"]], dtype=np.float64)
+            entry["clustering"] = self.clustering(listed / max(self.rows - self.nulls, 1))
         entry["sketch"] = self.hll.encode()
         redacted = self.name in settings.redact
         entry["redacted"] = redacted
