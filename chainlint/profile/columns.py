@@ -18,7 +18,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from chainlint.profile.sketches import HyperLogLog, WeightedSample, hash64, hash_objects
+from chainlint.profile.sketches import HyperLogLog, WeightedSample, hash32, hash_objects
 
 
 @dataclass(frozen=True)
@@ -161,7 +161,7 @@ class ColumnProfiler:
 
     def hash(self, values: np.ndarray) -> np.ndarray:
         if self.kind in ("integer", "float", "temporal", "boolean"):
-            return hash64(values.astype(np.float64) if self.kind == "float" else values.astype(np.int64))
+            return hash32(values.astype(np.float64) if self.kind == "float" else values.astype(np.int64))
         return hash_objects(values)
 
     def track_range(self, values: np.ndarray) -> None:
