@@ -115,3 +115,20 @@ async def test_configuration_changes_are_picked_up(client: LanguageClient, proje
     finally:
         (project / "chainlint.toml").unlink()
     assert [d.code for d in await _change(client, path, text, 3)] == ["reorder"]
+
+
+@pytest.mark.asyncio(loop_scope="module")
+async def test_requests_about_unknown_documents_or_places_get_empty_answers(client: LanguageClient, project: Path) -> None:
+    unknown = types.TextDocumentIdentifier(uri=(project / "never-opened.py").as_uri())
+    hover = await asyncio.wait_for(client.text_document_hover_async(
+        types.HoverParams(text_document=unknown, position=types.Position(line=999, character=999))), TIMEOUT)
+    assert hover is None
+    actions = await asyncio.wait_for(client.text_document_code_action_async(types.CodeActionParams(
+        text_document=unknown, range=types.Range(start=types.Position(line=5, character=0), end=types.Position(line=2, character=0)),
+        context=types.CodeActionContext(diagnostics=[]))), TIMEOUT)
+    assert not actions  # None or an empty sequence (lsprotocol gives tuples)
+    path = project / "short.py"
+    await _open(client, path, 'out = scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]\n')
+    far = await asyncio.wait_for(client.text_document_hover_async(types.HoverParams(
+        text_document=types.TextDocumentIdentifier(uri=path.as_uri()), position=types.Position(line=40, character=3))), TIMEOUT)
+    assert far is None
