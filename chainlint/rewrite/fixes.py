@@ -47,12 +47,13 @@ def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -
         try:
             source = read_source(path)
         except SourceError as error:
-            files[path] = FileFix(path, None, None, f"cannot read it again: {error.message}")
-            continue
-        if text_digest(source.text) != digests.get(path):
-            files[path] = FileFix(path, source, None, "the file changed on disk since it was read; left alone")
+            source, refusal = None, f"cannot read it again: {error.message}"
+        else:
+            refusal = None if text_digest(source.text) == digests.get(path) else "the file changed on disk since it was read; left alone"
+        if refusal is not None:
+            files[path] = FileFix(path, source, None, refusal)
             for finding in reorders:
-                updated[id(finding)] = replace(finding, fix_error=files[path].error)
+                updated[id(finding)] = replace(finding, fix_error=refusal)
             continue
         prepared: list[tuple[Finding, Chain, Edit]] = []
         for finding in reorders:
@@ -66,7 +67,9 @@ def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -
         # to keep the good ones and say which chain could not be rewritten.
         accepted = _verified(source, prepared)
         if len(accepted) < len(prepared):
-            accepted = [item for item in prepared if _verified(source, [item], updated)]
+            alone = [item for item in prepared if _verified(source, [item], updated)]
+            # Edits that pass alone must still pass together before the file is rewritten.
+            accepted = _verified(source, alone, updated)
         for finding, _, edit in accepted:
             updated[id(finding)] = replace(finding, fix=edit)
         if accepted:
