@@ -459,9 +459,9 @@ def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, col
 def _profile_in_memory(table):  # type: ignore[no-untyped-def]
     """An estimator over statistics of the loaded data, for chains no stored profile describes."""
     from chainlint.estimate.selectivity import Estimator
-    from chainlint.profile.readers import Dataset
+    from chainlint.profile.readers import Dataset, table_batches
 
-    dataset = Dataset(table.schema, [], "memory", iter(table.to_batches()), [], table.num_rows)
+    dataset = Dataset(table.schema, [], "memory", table_batches(table, BATCH_ROWS), [], table.num_rows)
     return Estimator(profile_dataset(dataset, "in-memory", Settings()))
 
 

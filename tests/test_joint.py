@@ -18,6 +18,7 @@ from chainlint.analysis.run import analyse_source
 from chainlint.cli import main
 from chainlint.parse.source import text_source
 from chainlint.profile.joint import JointCounter
+from chainlint.profile.readers import table_batches
 
 MASKS = [
     "d.a == 1", "d.a >= 2", "d.b < 3", "d.b != 4", "d.s == 'x'", "d.s.isin(['y', 'z'])", "d.f > 0.5",
@@ -44,11 +45,13 @@ def correlated_frames(draw):
 def test_every_joint_count_equals_the_pandas_filter(frame, masks, dictionary) -> None:
     source = "out = df" + "".join(f"[lambda d: {m}]" for m in masks) + "\n"
     (chain,) = analyse_source(text_source("m.py", source)).chains
-    table = pa.Table.from_pandas(frame, preserve_index=False)
+    whole = pa.Table.from_pandas(frame, preserve_index=False)
+    # Several chunks per column, as a CSV piece arrives; batches cut across them.
+    table = pa.concat_tables([whole.slice(start, 40) for start in range(0, whole.num_rows, 40)])
     if dictionary:  # as Parquet string columns arrive
         table = table.set_column(2, "s", pa.compute.dictionary_encode(table.column("s")))
     counter = JointCounter([chain], set(frame.columns))
-    for batch in table.to_batches(max_chunksize=97):
+    for batch in table_batches(table, 97):
         counter.add(batch)
     (entry,) = counter.finish(min_count=1)
     by_text = {step.predicate.canonical(): mask for step, mask in zip(chain.steps, masks)}
@@ -98,7 +101,7 @@ def test_rare_joint_counts_are_stored_as_below(tmp_path: Path) -> None:
     source = "out = df[lambda d: d.a == 3][lambda d: d.b == 1]\n"
     (chain,) = analyse_source(text_source("m.py", source)).chains
     counter = JointCounter([chain], {"a", "b"})
-    counter.add(pa.RecordBatch.from_pandas(frame, preserve_index=False))
+    counter.add(pa.Table.from_pandas(frame, preserve_index=False))
     (entry,) = counter.finish(min_count=5)
     counts = dict(entry["subsets"])
     assert counts[0] == 10 and counts[3] == 0 and "below" in counts.values()

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import gzip
 import json
+import subprocess
+import sys
 from pathlib import Path
 
 import pandas as pd
@@ -11,6 +13,7 @@ import pytest
 from click.testing import CliRunner
 
 from chainlint.cli import main
+from chainlint.profile import readers
 from chainlint.profile.columns import redact_value
 from chainlint.profile.store import find_store, load_profile, redaction_key
 
@@ -48,6 +51,47 @@ def test_malformed_csv_row_names_file_and_line(tmp_path: Path) -> None:
     path.write_text("a,b\n1,2\n3,4\n5,6,7\n8,9\n")
     line = _error_line(_profile(tmp_path, path))
     assert f"{path}:4: malformed CSV row (expected 2 fields, found 3)" in line
+
+
+@pytest.mark.parametrize("compressed", [False, True])
+def test_malformed_row_in_a_later_piece_names_its_line(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, compressed: bool) -> None:
+    monkeypatch.setattr(readers, "_CSV_BLOCK", 64)  # the file is parsed in many pieces
+    lines = ["a,b"] + [f"{i},{i * 2}" for i in range(1, 60)]
+    lines[47] = "9,9,9"
+    text = "\n".join(lines) + "\n"
+    path = tmp_path / ("bad.csv.gz" if compressed else "bad.csv")
+    if compressed:
+        path.write_bytes(gzip.compress(text.encode()))
+    else:
+        path.write_text(text)
+    assert f"{path}:48: malformed CSV row (expected 2 fields, found 3)" in _error_line(_profile(tmp_path, path))
+
+
+def test_line_longer_than_a_piece(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(readers, "_CSV_BLOCK", 64)
+    path = tmp_path / "long.csv"
+    path.write_text("a,b\n" + "".join(f"{'x' * (500 if i == 7 else 3)},{i}\n" for i in range(30)))
+    result = _profile(tmp_path, path)
+    assert result.exit_code == 0, result.output
+    columns = load_profile(tmp_path / "store" / "profiles" / "p.json")["columns"]
+    assert columns["b"]["rows"] == 30 and columns["b"]["distinct"]["value"] == 30
+    assert columns["a"]["distinct"]["value"] == 2
+
+
+def test_profiling_never_imports_pandas(tmp_path: Path) -> None:
+    # pandas costs 0.2 s to import; the profiler reads and counts with pyarrow and numpy only.
+    data = tmp_path / "d.csv"
+    data.write_text("name,n,when\n" + "".join(f"v{i % 7},{i},2024-01-{i % 28 + 1:02d}\n" for i in range(300)))
+    code = (
+        "import sys\nfrom chainlint.cli import main\n"
+        "try:\n    main(sys.argv[1:])\nexcept SystemExit:\n    pass\n"
+        "print('pandas' in sys.modules)"
+    )
+    done = subprocess.run(
+        [sys.executable, "-c", code, "profile", str(data), "--name", "p", "--store", str(tmp_path / "store"), "--distinct-cap", "50"],
+        capture_output=True, text=True, check=True,
+    )
+    assert "-> " in done.stdout and done.stdout.strip().splitlines()[-1] == "False", done.stdout + done.stderr
 
 
 def test_non_utf8_csv(tmp_path: Path) -> None:

@@ -16,6 +16,7 @@ from click.testing import CliRunner
 from flights import flights
 
 from chainlint.cli import main
+from chainlint.profile import readers
 from chainlint.profile.store import load_profile
 
 
@@ -145,8 +146,21 @@ def test_merge_of_estimated_parts_states_its_bound(tmp_path: Path) -> None:
     assert merged["distinct"]["exact"] is False
     assert abs(merged["distinct"]["value"] - truth) <= 3 * 1.04 / math.sqrt(4096) * truth
     counts = frame["tailnum"].value_counts()
+    assert len(merged["top"]["values"]) == 100
     for value, count in merged["top"]["values"]:
         assert abs(count - counts[value]) <= merged["top"]["error"]
+
+
+def test_frequent_values_survive_the_switch_to_summaries(flights_parquet: Path, tmp_path: Path) -> None:
+    # tailnum (4,044 distinct) passes a cap of 2,000 inside the first batch; its most common
+    # values must still be listed, each within the stated error of pandas' `value_counts`.
+    document = _profile([str(flights_parquet)], tmp_path, "estimated", "--distinct-cap", "2000")
+    top = document["columns"]["tailnum"]["top"]
+    counts = flights()["tailnum"].value_counts()
+    assert top["exact"] is False and len(top["values"]) == 100
+    assert top["values"][0][0] == counts.index[0]
+    for value, count in top["values"]:
+        assert abs(count - counts[value]) <= top["error"], value
 
 
 def test_formats_agree(tmp_path: Path) -> None:
@@ -172,6 +186,30 @@ def test_formats_agree(tmp_path: Path) -> None:
         assert columns["dep_delay"]["nulls"] == int(frame["dep_delay"].isna().sum()), kind
         assert columns["carrier"]["distinct"]["value"] == frame["carrier"].nunique(), kind
         assert dict(columns["origin"]["top"]["values"]) == frame["origin"].value_counts().to_dict(), kind
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".csv.gz"])
+def test_csv_in_many_pieces_profiles_as_in_one(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, suffix: str) -> None:
+    frame = flights().iloc[:30_000]
+    path = tmp_path / f"f{suffix}"
+    frame.to_csv(path, index=False)
+    whole = _profile([str(path)], tmp_path / "one", "f")
+    monkeypatch.setattr(readers, "_CSV_BLOCK", 1 << 16)  # about 40 pieces
+    pieces = _profile([str(path)], tmp_path / "many", "f")
+    assert all(c["distinct"]["exact"] for c in whole["columns"].values() if "distinct" in c)
+    assert pieces["columns"] == whole["columns"]
+    columns = pieces["columns"]
+    # References: pandas `isna().sum()`, `nunique` and `value_counts` on the same rows.
+    assert columns["dep_delay"]["nulls"] == int(frame["dep_delay"].isna().sum())
+    assert columns["carrier"]["distinct"]["value"] == frame["carrier"].nunique()
+    assert dict(columns["origin"]["top"]["values"]) == frame["origin"].value_counts().to_dict()
+    # Past the cap, the summaries see the pieces' chunked columns: the estimate stays within
+    # 3 standard errors of pandas' `nunique` (Flajolet et al. 2007: 1.04/sqrt(m), m = 2^12).
+    estimated = _profile([str(path)], tmp_path / "estimated", "f", "--distinct-cap", "50")["columns"]
+    for name in ("tailnum", "dep_time", "dest"):
+        truth = frame[name].nunique()
+        assert estimated[name]["distinct"]["exact"] is False, name
+        assert abs(estimated[name]["distinct"]["value"] - truth) <= 3 * 1.04 / math.sqrt(4096) * truth, name
 
 
 def test_several_files_form_one_dataset(flights_parquet: Path, tmp_path: Path) -> None:

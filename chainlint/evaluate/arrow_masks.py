@@ -10,10 +10,12 @@ from __future__ import annotations
 
 from typing import Any
 
+import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from chainlint.evaluate.pandas_masks import NotEvaluable, unevaluable
+from chainlint.arrays import filled_numpy, to_numpy
+from chainlint.evaluate.support import NotEvaluable, unevaluable
 from chainlint.ir import (
     And,
     Arith,
@@ -57,14 +59,30 @@ def _dictionary_operand(batch: pa.RecordBatch, node: Node) -> pa.DictionaryArray
     return array if isinstance(array, pa.DictionaryArray) else None
 
 
-def _through_dictionary(node: Node, array: pa.DictionaryArray) -> pa.Array:
-    """Evaluate on the (few) dictionary values, then spread the answers by the indices: a
-    Parquet string column is compared once per distinct value instead of once per row."""
+def _dictionary_answers(node: Node, array: pa.DictionaryArray) -> tuple[pa.Array, bool]:
+    """The predicate on each of the (few) dictionary values, and on a missing value: a Parquet
+    string column is compared once per distinct value instead of once per row."""
     (name,) = node.columns()
     values = pa.RecordBatch.from_arrays([array.dictionary], names=[name])
     missing = pa.RecordBatch.from_arrays([pa.nulls(1, array.dictionary.type)], names=[name])
-    spread = pc.take(arrow_mask(values, node), array.indices)
-    return pc.fill_null(spread, arrow_mask(missing, node)[0].as_py())
+    return arrow_mask(values, node), bool(arrow_mask(missing, node)[0].as_py())
+
+
+def _through_dictionary(node: Node, array: pa.DictionaryArray) -> pa.Array:
+    answers, missing = _dictionary_answers(node, array)
+    return pc.fill_null(pc.take(answers, array.indices), missing)
+
+
+def numpy_mask(batch: pa.RecordBatch, node: Node) -> np.ndarray:
+    """`arrow_mask` as a numpy boolean array; a dictionary column's answers are spread by numpy
+    indexing, several times faster than Arrow's `take` of booleans."""
+    if isinstance(node, (Compare, Member, Range, NullTest, StrTest)):
+        dictionary = _dictionary_operand(batch, node)
+        if dictionary is not None:
+            answers, missing = _dictionary_answers(node, dictionary)
+            spread = np.append(to_numpy(answers), missing)  # a null index reads the last entry
+            return spread[filled_numpy(dictionary.indices, len(answers))]
+    return to_numpy(arrow_mask(batch, node))
 
 
 def arrow_mask(batch: pa.RecordBatch, node: Node) -> pa.Array:

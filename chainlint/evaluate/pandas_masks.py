@@ -12,6 +12,7 @@ from typing import Any
 
 import pandas as pd
 
+from chainlint.evaluate.support import NotEvaluable, unevaluable
 from chainlint.ir import (
     And,
     Arith,
@@ -19,11 +20,9 @@ from chainlint.ir import (
     Compare,
     Literal,
     Member,
-    Named,
     Node,
     Not,
     NullTest,
-    Opaque,
     Or,
     Range,
     StrTest,
@@ -32,23 +31,6 @@ from chainlint.ir import (
 _COMPARE = {"==": operator.eq, "!=": operator.ne, "<": operator.lt, "<=": operator.le, ">": operator.gt, ">=": operator.ge}
 _ARITH = {"+": operator.add, "-": operator.sub, "*": operator.mul, "/": operator.truediv, "//": operator.floordiv,
           "%": operator.mod, "**": operator.pow}
-
-
-class NotEvaluable(Exception):
-    """The predicate has a part chainlint cannot evaluate (the message says which)."""
-
-
-def unevaluable(node: Node) -> str | None:
-    """Why `node` cannot be evaluated, or None when it can."""
-    if isinstance(node, Opaque):
-        return f"it holds code chainlint does not model (`{node.text}`)"
-    if isinstance(node, Named):
-        return f"it reads the name `{node.name}`, whose value is only known when the code runs"
-    for child in node.children():
-        reason = unevaluable(child)
-        if reason:
-            return reason
-    return None
 
 
 def mask(frame: pd.DataFrame, node: Node) -> Any:

@@ -16,7 +16,8 @@ import pandas as pd
 import pyarrow as pa
 
 from chainlint.analysis.model import Chain
-from chainlint.evaluate.pandas_masks import apply_step, unevaluable
+from chainlint.evaluate.pandas_masks import apply_step
+from chainlint.evaluate.support import unevaluable
 from chainlint.profile.readers import open_dataset
 
 
@@ -66,7 +67,7 @@ def load_table(data: Sequence[str], rows: int | None, columns: Sequence[str] | N
         if rows is not None and taken >= rows:
             break
     schema = dataset.schema if not columns else pa.schema([dataset.schema.field(c) for c in columns])
-    table = pa.Table.from_batches([b.cast(schema) if b.schema != schema else b for b in batches], schema=schema)
+    table = pa.concat_tables([b.cast(schema) if b.schema != schema else b for b in batches]) if batches else schema.empty_table()
     return table.combine_chunks()
 
 

@@ -18,7 +18,8 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from chainlint.profile.sketches import HyperLogLog, WeightedSample, hash32, hash_objects
+from chainlint.arrays import filled_numpy, index_array, to_numpy
+from chainlint.profile.sketches import HyperLogLog, WeightedSample, hash32, hash_strings
 
 
 @dataclass(frozen=True)
@@ -73,16 +74,31 @@ def redact_value(key: bytes, value: Any) -> str:
     return "h:" + hmac.new(key, repr(value).encode("utf-8", "surrogatepass"), hashlib.sha256).hexdigest()[:16]
 
 
+_NUMERIC = frozenset({"integer", "float", "temporal", "boolean"})
+
+
+def _surely_past(valid: pa.Array | pa.ChunkedArray, cap: int) -> bool:
+    """Whether a first batch's leading rows alone hold more distinct values than the cap: a
+    near-unique column then goes straight to its summaries, with no exact count table."""
+    if len(valid) <= 2 * cap:
+        return False
+    lead = valid.slice(0, 2 * cap)
+    if isinstance(lead, pa.DictionaryArray):
+        lead = lead.indices
+    return pc.count_distinct(lead).as_py() > cap
+
+
 class ColumnProfiler:
     def __init__(self, name: str, arrow_type: pa.DataType, settings: Settings, expected_rows: int = 0) -> None:
         self.name = name
         self.arrow_type = arrow_type.value_type if pa.types.is_dictionary(arrow_type) else arrow_type
         self.kind = value_kind(arrow_type)
+        self.counted_type = pa.int64() if self.kind == "temporal" else self.arrow_type  # times count as integers
         self.settings = settings
         self.rows = 0
         self.nulls = 0
         self.exact = self.kind != "other"
-        self.counter = _Counter()
+        self.counter = _Counter(self.counted_type)
         self.hll = HyperLogLog()
         self.sample: WeightedSample | None = None
         self.low: Any = None
@@ -94,30 +110,48 @@ class ColumnProfiler:
         self.last: Any = None
 
     # -- accumulation ---------------------------------------------------------------------
-    def add(self, array: pa.Array) -> None:
-        self.rows += len(array)
+    def add(self, column: pa.Array | pa.ChunkedArray) -> None:
+        """Count one batch of the column (a CSV piece's column comes in several chunks)."""
+        if isinstance(column, pa.ChunkedArray):
+            if pa.types.is_dictionary(column.type) and column.num_chunks > 1:
+                for chunk in column.chunks:  # each chunk has its own dictionary
+                    self.add(chunk)
+                return
+            if column.num_chunks == 1:
+                column = column.chunk(0)
+        self.rows += len(column)
         if self.kind == "other":
-            self.nulls += array.null_count
+            self.nulls += column.null_count
             return
         if self.kind == "temporal":
-            array = _temporal_ints(array)
-        if self.kind == "float" and pc.any(pc.is_nan(array)).as_py():
-            array = pc.if_else(pc.is_nan(array), pa.scalar(None, array.type), array)
-        self.nulls += array.null_count
-        if array.null_count == len(array):
+            column = _temporal_ints(column)
+        nan = pc.is_nan(column) if self.kind == "float" else None
+        nans = int(pc.sum(nan).as_py() or 0) if nan is not None else 0  # NaN is missing to pandas
+        self.nulls += column.null_count + nans
+        valid = column.filter(pc.invert(nan)) if nans else column.drop_null() if column.null_count else column
+        if len(valid) == 0:
             return
-        self.count_changes(array)
-        if self.exact:
-            self.count_exact(array)
+        if self.kind in _NUMERIC:
+            values = to_numpy(valid)
+            self.count_changes(values, values[0], values[-1])
         else:
-            self.summarise(array)
+            values = None
+            comparable = valid.indices if isinstance(valid, pa.DictionaryArray) else valid
+            self.count_changes(comparable, valid[0].as_py(), valid[len(valid) - 1].as_py())
+        if self.exact and self.counter.empty() and _surely_past(valid, self.settings.distinct_cap):
+            self.start_summaries()
+        if self.exact:
+            self.count_exact(valid)
+        else:
+            self.summarise(valid, values)
 
-    def count_changes(self, array: pa.Array) -> None:
-        valid = array.drop_null() if array.null_count else array
-        comparable = valid.indices if isinstance(valid, pa.DictionaryArray) else valid
+    def count_changes(self, comparable: pa.Array | pa.ChunkedArray | np.ndarray, first: Any, last: Any) -> None:
+        """Changes between neighbouring values: within the batch, and from the last batch's end."""
         if len(comparable) > 1:
-            self.changes += int(pc.sum(pc.not_equal(comparable.slice(1), comparable.slice(0, len(comparable) - 1))).as_py() or 0)
-        first, last = valid[0].as_py(), valid[len(valid) - 1].as_py()
+            if isinstance(comparable, np.ndarray):
+                self.changes += int(np.count_nonzero(comparable[1:] != comparable[:-1]))
+            else:
+                self.changes += int(pc.sum(pc.not_equal(comparable.slice(1), comparable.slice(0, len(comparable) - 1))).as_py() or 0)
         if self.last is not None and first != self.last:
             self.changes += 1
         self.last = last
@@ -133,36 +167,60 @@ class ColumnProfiler:
             return 1.0
         return round(min(1.0, max(0.0, 1.0 - self.changes / expected)), 3)
 
-    def count_exact(self, array: pa.Array) -> None:
-        if isinstance(array, pa.DictionaryArray):
-            indices = array.indices.to_numpy(zero_copy_only=False)
-            if array.null_count:
-                indices = indices[array.is_valid().to_numpy(zero_copy_only=False)]
-            self.counter.add_indices(array.dictionary, np.bincount(indices.astype(np.int64), minlength=len(array.dictionary)))
+    def count_exact(self, valid: pa.Array | pa.ChunkedArray) -> None:
+        """Add a batch's non-null values to the exact counts."""
+        if isinstance(valid, pa.DictionaryArray):
+            indices = to_numpy(valid.indices)
+            self.counter.add_indices(valid.dictionary, np.bincount(indices, minlength=len(valid.dictionary)))
         else:
-            table = pc.value_counts(array.drop_null() if array.null_count else array)
-            self.counter.add(table.field("values"), table.field("counts").to_numpy())
+            table = pc.value_counts(valid)
+            self.counter.add(table.field("values"), to_numpy(table.field("counts")))
         if len(self.counter) > self.settings.distinct_cap:
-            values, counts = self.counter.table()
-            self.exact = False
-            self.sample = WeightedSample(expected=self.expected_rows)
-            self.hll.add_hashes(self.hash(values))
-            self.sample.add_weighted(values, counts.astype(np.float64))
+            self.start_summaries()
+
+    def start_summaries(self) -> None:
+        """Leave exact counting: the values counted so far become weighted points."""
+        counted, counts = self.counter.table()
+        self.exact = False
+        self.counter = _Counter(self.counted_type)
+        self.sample = WeightedSample(expected=self.expected_rows)
+        if len(counted):
+            values = to_numpy(counted)
+            self.hll.add_hashes(self.hash(counted))
+            # A value counted c >= 2 times enters as two points of weight c/2: it then passes
+            # the frequent-value rule ("seen in two sampled rows") as the rows it stands for do.
+            twice = counts >= 2
+            self.sample.add_weighted(
+                np.concatenate([values, values[twice]]),
+                np.concatenate([np.where(twice, counts / 2.0, counts.astype(np.float64)), counts[twice] / 2.0]),
+            )
             self.track_range(values)
 
-    def summarise(self, array: pa.Array) -> None:
-        if isinstance(array, pa.DictionaryArray):
-            array = array.cast(array.type.value_type)
-        values = (array.drop_null() if array.null_count else array).to_numpy(zero_copy_only=False)
-        self.hll.add_hashes(self.hash(values))
+    def summarise(self, valid: pa.Array | pa.ChunkedArray, values: np.ndarray | None) -> None:
+        """Feed non-null values to the summaries; `values` is their numpy form for numbers
+        (strings stay in Arrow: they are hashed from its buffers and only the sampled ones
+        become Python objects)."""
         assert self.sample is not None
-        self.sample.add(values)
-        self.track_range(values)
+        if values is not None:
+            self.hll.add_hashes(hash32(values))
+            self.sample.add(values)
+            self.track_range(values)
+            return
+        self.hll.add_hashes(self.hash(valid))
+        weight = float(self.sample.stride)
+        picked = valid.take(index_array(np.arange(len(valid))[self.sample.strided(len(valid))]))
+        if pa.types.is_dictionary(picked.type):
+            picked = picked.cast(picked.type.value_type)
+        self.sample.add_weighted(to_numpy(picked), np.full(len(picked), weight))
 
-    def hash(self, values: np.ndarray) -> np.ndarray:
-        if self.kind in ("integer", "float", "temporal", "boolean"):
-            return hash32(values.astype(np.float64) if self.kind == "float" else values.astype(np.int64))
-        return hash_objects(values)
+    def hash(self, values: pa.Array | pa.ChunkedArray) -> np.ndarray:
+        """32-bit hashes for the HyperLogLog: numbers by their bit patterns, strings by bytes."""
+        if isinstance(values, pa.ChunkedArray):
+            parts = [self.hash(chunk) for chunk in values.chunks]
+            return np.concatenate(parts) if parts else np.zeros(0, np.uint32)
+        if self.kind in _NUMERIC:
+            return hash32(to_numpy(values))
+        return hash_strings(values)
 
     def track_range(self, values: np.ndarray) -> None:
         if values.size == 0 or self.kind == "string":
@@ -190,8 +248,9 @@ class ColumnProfiler:
         if self.kind == "other":
             return entry
         if self.exact:
-            values, counts = self.counter.table()
-            self.hll.add_hashes(self.hash(values))
+            counted, counts = self.counter.table()
+            self.hll.add_hashes(self.hash(counted))
+            values = to_numpy(counted)
             entry["distinct"] = {"value": int(len(values)), "exact": True}
             frequent = counts >= settings.min_count
             entry["top"] = self.top_exact(values, counts)
@@ -298,7 +357,8 @@ class _Counter:
     """Exact counts of values, keyed by a growing Arrow array (a few thousand values at most);
     pyarrow's `index_in` looks a batch's values up in one vectorised pass."""
 
-    def __init__(self) -> None:
+    def __init__(self, value_type: pa.DataType) -> None:
+        self.value_type = value_type
         self.values: pa.Array | None = None
         self.counts = np.zeros(0, dtype=np.int64)
         # Counts by index of the current Parquet dictionary, folded in when it changes: the
@@ -309,6 +369,9 @@ class _Counter:
     def __len__(self) -> int:
         self.fold()
         return 0 if self.values is None else len(self.values)
+
+    def empty(self) -> bool:
+        return self.values is None and self.dictionary is None
 
     def add_indices(self, dictionary: pa.Array, counts: np.ndarray) -> None:
         if self.dictionary is not None and (self.dictionary is dictionary or self.dictionary.equals(dictionary)):
@@ -323,7 +386,7 @@ class _Counter:
         used = np.flatnonzero(self.dictionary_counts)
         dictionary, counts = self.dictionary, self.dictionary_counts
         self.dictionary = self.dictionary_counts = None
-        self.add(dictionary.take(pa.array(used)), counts[used])
+        self.add(dictionary.take(index_array(used)), counts[used])
 
     def add(self, values: pa.Array, counts: np.ndarray) -> None:
         if len(values) == 0:
@@ -332,22 +395,22 @@ class _Counter:
         if self.values is None:
             self.values, self.counts = values, counts.copy()
             return
-        positions = pc.index_in(values, value_set=self.values).fill_null(-1).to_numpy(zero_copy_only=False).astype(np.int64)
+        positions = filled_numpy(pc.index_in(values, value_set=self.values), -1).astype(np.int64)
         new = positions < 0
         if new.any():
-            added = values.filter(pa.array(new))
+            added = values.take(index_array(np.flatnonzero(new)))
             positions[new] = np.arange(len(self.values), len(self.values) + len(added))
             self.values = pa.concat_arrays([self.values, added.cast(self.values.type)])
             self.counts = np.concatenate([self.counts, np.zeros(len(added), dtype=np.int64)])
         np.add.at(self.counts, positions, counts)
 
-    def table(self) -> tuple[np.ndarray, np.ndarray]:
+    def table(self) -> tuple[pa.Array, np.ndarray]:
         """Values in ascending order with their counts."""
         self.fold()
         if self.values is None:
-            return np.array([]), np.zeros(0, dtype=np.int64)
-        order = pc.sort_indices(self.values).to_numpy()
-        return self.values.take(pa.array(order)).to_numpy(zero_copy_only=False), self.counts[order]
+            return pa.nulls(0, self.value_type), np.zeros(0, dtype=np.int64)
+        order = pc.sort_indices(self.values)
+        return self.values.take(order), self.counts[to_numpy(order)]
 
 
 def _equi_depth(values: np.ndarray, weights: np.ndarray, buckets: int) -> list[Any]:

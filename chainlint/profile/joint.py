@@ -17,8 +17,8 @@ import numpy as np
 import pyarrow as pa
 
 from chainlint.analysis.model import Chain
-from chainlint.evaluate.arrow_masks import arrow_mask
-from chainlint.evaluate.pandas_masks import NotEvaluable, unevaluable
+from chainlint.evaluate.arrow_masks import numpy_mask
+from chainlint.evaluate.support import NotEvaluable, unevaluable
 from chainlint.ir import Node
 
 MAX_STEPS = 12
@@ -52,14 +52,24 @@ class JointCounter:
                 texts = tuple(sorted(chosen))[:MAX_STEPS]
                 if len(texts) >= 2 and texts not in self.targets:
                     self.targets[texts] = _Target(texts, tuple(chosen[t] for t in texts), np.zeros(1 << len(texts), dtype=np.int64))
+        self.needed = sorted({name for target in self.targets.values() for p in target.predicates for name in p.columns()})
 
-    def add(self, batch: pa.RecordBatch) -> None:
+    def add(self, table: pa.Table) -> None:
+        if not self.targets or table.num_rows == 0:
+            return
+        # One record batch of the columns the predicates read, so that dictionary-encoded
+        # columns are seen as such (a CSV piece's columns come in several chunks).
+        part = table.select(self.needed)
+        batches = part.to_batches()
+        batch = batches[0] if len(batches) == 1 else part.combine_chunks().to_batches()[0]
+        masks: dict[str, np.ndarray] = {}  # a predicate shared by several chains is evaluated once
         for target in list(self.targets.values()):
-            code = np.zeros(batch.num_rows, dtype=np.int64)
+            code = np.zeros(batch.num_rows, dtype=np.uint16)  # bit i: the i-th predicate (MAX_STEPS <= 16)
             try:
-                for bit, predicate in enumerate(target.predicates):
-                    mask = arrow_mask(batch, predicate).to_numpy(zero_copy_only=False)
-                    code |= mask.astype(np.int64) << bit
+                for bit, (text, predicate) in enumerate(zip(target.texts, target.predicates)):
+                    if text not in masks:
+                        masks[text] = numpy_mask(batch, predicate)
+                    code |= np.left_shift(masks[text].view(np.uint8), bit, dtype=np.uint16)
             except (NotEvaluable, pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError) as error:
                 for text in target.texts:
                     self.skipped.setdefault(text, f"pyarrow cannot evaluate it: {error}")

@@ -1,7 +1,8 @@
-"""Open sample data as one stream of pyarrow record batches, with a description of its source.
+"""Open sample data as one stream of pyarrow tables of bounded length (batches), with a
+description of its source.
 
-Memory stays bounded by the batch size: every reader streams (Parquet by row group, CSV and
-JSON Lines by block, Arrow IPC by batch). Several DATA arguments form one dataset; they must
+Memory stays bounded by the batch size: every reader streams (Parquet by batch, CSV by
+memory-mapped piece, JSON Lines by block, Arrow IPC by batch). Several DATA arguments form one dataset; they must
 share a schema.
 """
 
@@ -9,6 +10,7 @@ from __future__ import annotations
 
 import glob
 import hashlib
+import mmap
 import os
 from collections.abc import Iterator, Sequence
 from concurrent.futures import Future, ThreadPoolExecutor
@@ -24,6 +26,7 @@ import pyarrow.parquet as pq
 
 BATCH_ROWS = 262_144
 _CSV_BLOCK = 64 << 20
+_CSV_PARSE_BLOCK = 4 << 20
 
 
 class DataError(Exception):
@@ -39,12 +42,13 @@ class SourceFile:
 
 @dataclass
 class Dataset:
-    """A schema, a way to stream its batches, and its files (fingerprinted in the background)."""
+    """A schema, a way to stream its batches (tables: a CSV piece's columns come in several
+    chunks), and its files (fingerprinted in the background)."""
 
     schema: pa.Schema
     files: list[SourceFile]
     kind: str
-    batches: Iterator[pa.RecordBatch]
+    batches: Iterator[pa.Table]
     _digests: list[Future[str]] = field(default_factory=list)
     expected_rows: int | None = None
 
@@ -168,7 +172,7 @@ def open_dataset(arguments: Sequence[str], batch_rows: int = BATCH_ROWS) -> Data
     return Dataset(schema, described, kind, batches, digests, expected)
 
 
-def _chain(streams: Iterator[Iterator[pa.RecordBatch]]) -> Iterator[pa.RecordBatch]:
+def _chain(streams: Iterator[Iterator[pa.Table]]) -> Iterator[pa.Table]:
     for stream in streams:
         yield from stream
 
@@ -182,79 +186,115 @@ def _check_columns(schema: pa.Schema, path: str) -> None:
         raise DataError(f"{path}: duplicate column names: {', '.join(repr(n) for n in duplicates)}")
 
 
-def _open_csv(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.RecordBatch], int | None]:
-    """CSV in chunks cut at line ends, each parsed by the multi-threaded `read_csv`.
+def _open_csv(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
+    """CSV in pieces cut at line ends, each parsed by the multi-threaded `read_csv`.
 
-    Values may not contain line breaks (as with pyarrow's `newlines_in_values=False`); the first
-    chunk decides the column types.
+    An uncompressed file is memory-mapped and its pieces handed to pyarrow without a copy; the
+    first piece holds the header and decides the column types, later ones are parsed with those
+    names and types. Values may not contain line breaks (as with pyarrow's
+    `newlines_in_values=False`).
     """
     if os.path.getsize(path) == 0:
         raise DataError(f"{path}: empty file")
-    chunks = _csv_chunks(path)
+    pieces = _csv_pieces(path)
     try:
-        header, first, first_line = next(chunks)
+        first, _ = next(pieces)
     except StopIteration:
         raise DataError(f"{path}: empty file") from None
-    table = _parse_csv_chunk(path, header, first, first_line, None)
+    table = _parse_csv_piece(path, first, 0, None)
     binary = [f.name for f in table.schema if pa.types.is_binary(f.type) or pa.types.is_large_binary(f.type)]
     if binary:
         raise DataError(f"{path}: column {binary[0]!r} is not valid UTF-8 text")
     schema = table.schema
 
-    def stream() -> Iterator[pa.RecordBatch]:
-        yield from table.to_batches(max_chunksize=batch_rows)
-        for _, chunk, line in chunks:
-            yield from _parse_csv_chunk(path, header, chunk, line, schema).to_batches(max_chunksize=batch_rows)
+    def stream() -> Iterator[pa.Table]:
+        yield from table_batches(table, batch_rows)
+        for piece, offset in pieces:
+            yield from table_batches(_parse_csv_piece(path, piece, offset, schema), batch_rows)
 
     return schema, stream(), None
 
 
-def _csv_chunks(path: str) -> Iterator[tuple[bytes, bytes, int]]:
-    """(header line, a chunk of whole lines, the line number of the chunk's first line)."""
+def _csv_pieces(path: str) -> Iterator[tuple[pa.Buffer, int]]:
+    """(a piece of whole lines, the byte offset where it starts in the decompressed text)."""
     try:
         source = pa.input_stream(path, compression="detect")
     except (pa.ArrowInvalid, OSError) as error:
         raise DataError(f"{path}: cannot read: {str(error).splitlines()[0]}") from None
+    if not isinstance(source, pa.CompressedInputStream):
+        source.close()
+        yield from _mapped_pieces(path)
+        return
     with source:
         carry = b""
-        header = b""
-        line = 2
-        yielded = False
+        offset = 0
         while True:
             try:
                 block = source.read(_CSV_BLOCK)
             except (pa.ArrowInvalid, OSError) as error:
                 raise DataError(f"{path}: cannot read: {str(error).splitlines()[0]}") from None
             data = carry + block
-            if not header:
-                end = data.find(b"\n")
-                if end < 0 and block:
-                    carry = data
-                    continue
-                header, data = (data, b"") if end < 0 else (data[: end + 1], data[end + 1 :])
             cut = len(data) if not block else data.rfind(b"\n") + 1
-            if cut > 0 or (not block and not yielded):
-                yielded = True
-                yield header, data[:cut], line
-                line += data.count(b"\n", 0, cut)
+            if cut > 0:
+                yield pa.py_buffer(data[:cut]), offset
+                offset += cut
             carry = data[cut:]
             if not block:
                 return
 
 
-def _parse_csv_chunk(path: str, header: bytes, chunk: bytes, line: int, schema: pa.Schema | None) -> pa.Table:
+def _mapped_pieces(path: str) -> Iterator[tuple[pa.Buffer, int]]:
+    """Pieces of a memory-mapped file, without copies. A piece's pages are let go once it has
+    been parsed (the parsed table holds copies), so resident memory stays bounded."""
+    with open(path, "rb") as handle:
+        # Not closed here: pyarrow's views keep the map alive, and it unmaps when the last goes.
+        mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
+    whole = pa.py_buffer(mapped)
+    size = len(mapped)
+    start = 0
+    while start < size:
+        end = min(size, start + _CSV_BLOCK)
+        if end < size:
+            cut = mapped.rfind(b"\n", start, end)
+            if cut < 0:  # a line longer than a piece
+                cut = mapped.find(b"\n", end)
+            end = size if cut < 0 else cut + 1
+        yield whole.slice(start, end - start), start
+        if hasattr(mapped, "madvise"):
+            low = start // mmap.PAGESIZE * mmap.PAGESIZE
+            mapped.madvise(mmap.MADV_DONTNEED, low, end // mmap.PAGESIZE * mmap.PAGESIZE - low)
+        start = end
+
+
+def _line_at(path: str, offset: int) -> int:
+    """The line number of the byte at `offset` of the decompressed text (for error messages)."""
+    lines = 1
+    with pa.input_stream(path, compression="detect") as source:
+        while offset > 0:
+            block = source.read(min(offset, 1 << 20))
+            if not block:
+                break
+            lines += block.count(b"\n")
+            offset -= len(block)
+    return lines
+
+
+def _parse_csv_piece(path: str, piece: pa.Buffer, offset: int, schema: pa.Schema | None) -> pa.Table:
+    """Parse one piece: the first (offset 0) with its header, the others with `schema`'s names
+    and types."""
     invalid: list[tuple[int | None, str]] = []
 
     def on_invalid(row: pacsv.InvalidRow) -> str:
         invalid.append((row.number, f"expected {row.expected_columns} fields, found {row.actual_columns}"))
         return "error"
 
+    names = schema.names if schema is not None else None
     convert = pacsv.ConvertOptions(column_types=schema) if schema is not None else pacsv.ConvertOptions()
 
     def parse(threads: bool) -> pa.Table:
         return pacsv.read_csv(
-            pa.py_buffer(header + chunk),
-            read_options=pacsv.ReadOptions(use_threads=threads, block_size=8 << 20),
+            piece,
+            read_options=pacsv.ReadOptions(use_threads=threads, block_size=_CSV_PARSE_BLOCK, column_names=names),
             parse_options=pacsv.ParseOptions(invalid_row_handler=on_invalid),
             convert_options=convert,
         )
@@ -272,7 +312,7 @@ def _parse_csv_chunk(path: str, header: bytes, chunk: bytes, line: int, schema: 
                 pass
         if invalid:
             number, what = invalid[-1]
-            where = f":{line + number - 2}" if number is not None else ""
+            where = f":{_line_at(path, offset) + number - 1}" if number is not None else ""
             raise DataError(f"{path}{where}: malformed CSV row ({what})") from None
         if "utf8" in message.lower() or "utf-8" in message.lower():
             raise DataError(f"{path}: not valid UTF-8 text ({message})") from None
@@ -281,12 +321,14 @@ def _parse_csv_chunk(path: str, header: bytes, chunk: bytes, line: int, schema: 
         raise DataError(f"{path}: {message}") from None
 
 
-def _split(batch: pa.RecordBatch, rows: int) -> Iterator[pa.RecordBatch]:
-    for start in range(0, batch.num_rows, rows):
-        yield batch.slice(start, rows)
+def table_batches(part: pa.Table | pa.RecordBatch, rows: int) -> Iterator[pa.Table]:
+    """Tables of at most `rows` rows (zero-copy slices)."""
+    table = part if isinstance(part, pa.Table) else pa.Table.from_batches([part])
+    for start in range(0, table.num_rows, rows):
+        yield table.slice(start, rows)
 
 
-def _open_parquet(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.RecordBatch], int | None]:
+def _open_parquet(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     try:
         handle = pq.ParquetFile(path)
         strings = [f.name for f in handle.schema_arrow if pa.types.is_string(f.type) or pa.types.is_large_string(f.type)]
@@ -295,9 +337,10 @@ def _open_parquet(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Re
     except (pa.ArrowInvalid, OSError) as error:
         raise DataError(f"{path}: not a readable Parquet file ({str(error).splitlines()[0]})") from None
 
-    def stream() -> Iterator[pa.RecordBatch]:
+    def stream() -> Iterator[pa.Table]:
         try:
-            yield from handle.iter_batches(batch_size=batch_rows)
+            for batch in handle.iter_batches(batch_size=batch_rows):
+                yield pa.Table.from_batches([batch])
         except (pa.ArrowInvalid, OSError) as error:
             raise DataError(f"{path}: {str(error).splitlines()[0]}") from None
 
@@ -309,7 +352,7 @@ def _plain_schema(schema: pa.Schema) -> pa.Schema:
     return pa.schema([pa.field(f.name, f.type.value_type if pa.types.is_dictionary(f.type) else f.type) for f in schema])
 
 
-def _open_parquet_dataset(paths: Sequence[str], batch_rows: int) -> tuple[pa.Schema, Iterator[pa.RecordBatch], int | None]:
+def _open_parquet_dataset(paths: Sequence[str], batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     import pyarrow.dataset as pads  # imports pandas: loaded only for folders of Parquet files
 
     try:
@@ -317,34 +360,34 @@ def _open_parquet_dataset(paths: Sequence[str], batch_rows: int) -> tuple[pa.Sch
         dataset = parts[0] if len(parts) == 1 else pads.dataset(parts)
     except (pa.ArrowInvalid, OSError) as error:
         raise DataError(f"{paths[0]}: not a readable Parquet dataset ({str(error).splitlines()[0]})") from None
-    batches = iter(dataset.to_batches(batch_size=batch_rows, use_threads=True))
+    batches = (pa.Table.from_batches([b]) for b in dataset.to_batches(batch_size=batch_rows, use_threads=True))
     return _plain_schema(dataset.schema), batches, dataset.count_rows()
 
 
-def _open_arrow(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.RecordBatch], int | None]:
+def _open_arrow(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     try:
         source = pa.memory_map(path)
         try:
             reader = paipc.open_file(source)
             schema = reader.schema
 
-            def stream() -> Iterator[pa.RecordBatch]:
+            def stream() -> Iterator[pa.Table]:
                 for index in range(reader.num_record_batches):
-                    yield from _split(reader.get_batch(index), batch_rows)
+                    yield from table_batches(reader.get_batch(index), batch_rows)
         except pa.ArrowInvalid:
             source = pa.memory_map(path)
             stream_reader = paipc.open_stream(source)
             schema = stream_reader.schema
 
-            def stream() -> Iterator[pa.RecordBatch]:
+            def stream() -> Iterator[pa.Table]:
                 for batch in stream_reader:
-                    yield from _split(batch, batch_rows)
+                    yield from table_batches(batch, batch_rows)
     except (pa.ArrowInvalid, OSError) as error:
         raise DataError(f"{path}: not a readable Arrow/Feather file ({str(error).splitlines()[0]})") from None
     return schema, stream(), None
 
 
-def _open_jsonl(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.RecordBatch], int | None]:
+def _open_jsonl(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     if os.path.getsize(path) == 0:
         raise DataError(f"{path}: empty file")
     try:
@@ -352,10 +395,10 @@ def _open_jsonl(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Reco
     except (pa.ArrowInvalid, OSError) as error:
         raise DataError(f"{path}: {str(error).splitlines()[0]}") from None
 
-    def stream() -> Iterator[pa.RecordBatch]:
+    def stream() -> Iterator[pa.Table]:
         try:
             for batch in reader:
-                yield from _split(batch, batch_rows)
+                yield from table_batches(batch, batch_rows)
         except pa.ArrowInvalid as error:
             raise DataError(f"{path}: {str(error).splitlines()[0]}") from None
 

@@ -2,7 +2,8 @@
 
 - `HyperLogLog`: distinct count with the published standard error 1.04/sqrt(m) (Flajolet,
   Fusy, Gandouet & Meunier 2007); registers merge by maximum. Vectorised with numpy: values
-  are hashed with a fixed 32-bit mixer, so the same data always gives the same registers.
+  are hashed with fixed functions of chainlint's own (no library's hash, whose output may
+  change between versions), so the same data always gives the same registers.
 - `WeightedSample`: a bounded set of weighted points for quantiles and frequent values: every
   `stride`-th value with weight `stride`; when full, it is compacted to equally spaced weighted
   quantiles and the stride doubles. Each compaction adds at most 2/capacity of rank error,
@@ -15,8 +16,13 @@ import base64
 import zlib
 
 import numpy as np
+import pyarrow as pa
+
+from chainlint.arrays import to_numpy
 
 HLL_PRECISION = 12
+_STRING_BASE = np.uint64(0x100000001B3)
+_LENGTH_MIX = np.uint64(0x9E3779B97F4A7C15)
 _RANK_BITS = 32 - HLL_PRECISION
 
 
@@ -26,11 +32,11 @@ def hash32(values: np.ndarray) -> np.ndarray:
     lanes halve the memory traffic of the mix, which is most of the profiling time of
     near-unique numeric columns."""
     if values.dtype.kind == "f":
-        bits = np.add(values.astype(np.float64, copy=False), 0.0).view(np.uint64)  # -0.0 + 0.0 is +0.0
+        bits = np.add(values.astype(np.float64, copy=False), 0.0)  # -0.0 + 0.0 is +0.0
     else:
-        bits = values.astype(np.int64).view(np.uint64)
-    h = np.bitwise_xor(bits, bits >> np.uint64(32)).astype(np.uint32)
-    return _fmix32(h)
+        bits = np.ascontiguousarray(values.astype(np.int64, copy=False))
+    halves = bits.view(np.uint32).reshape(-1, 2)  # xor is symmetric: byte order does not matter
+    return _fmix32(np.bitwise_xor(halves[:, 0], halves[:, 1]))
 
 
 def _fmix32(h: np.ndarray) -> np.ndarray:
@@ -45,15 +51,30 @@ def _fmix32(h: np.ndarray) -> np.ndarray:
     return h
 
 
-def hash_objects(values: np.ndarray) -> np.ndarray:
-    """Hash strings (or other objects) with pandas' fixed-key vectorised hash, folded to 32 bits.
-
-    pandas is imported here, not at start-up: only string columns past the distinct cap need it.
-    """
-    import pandas
-
-    wide = pandas.util.hash_array(values.astype(object), categorize=False)
-    return _fmix32(np.bitwise_xor(wide, wide >> np.uint64(32)).astype(np.uint32))
+def hash_strings(array: pa.Array) -> np.ndarray:
+    """A fixed 32-bit hash of each string's UTF-8 bytes, vectorised over the Arrow buffers (no
+    Python object per value): the polynomial sum of byte * B**position mod 2**64 with B the
+    64-bit FNV prime, the length mixed in, then folded and mixed as `hash32` does. Takes a
+    null-free string array; a dictionary array hashes its dictionary once."""
+    if isinstance(array, pa.DictionaryArray):
+        return hash_strings(array.dictionary)[to_numpy(array.indices)]
+    width = np.dtype(np.int64 if pa.types.is_large_string(array.type) else np.int32)
+    _, offset_buffer, data_buffer = array.buffers()
+    offsets = np.frombuffer(offset_buffer, dtype=width, count=len(array) + 1, offset=array.offset * width.itemsize).astype(np.int64)
+    first = int(offsets[0])
+    offsets -= first
+    lengths = np.diff(offsets)
+    data = np.frombuffer(data_buffer, dtype=np.uint8, count=int(offsets[-1]), offset=first) if offsets[-1] else np.zeros(0, np.uint8)
+    longest = int(lengths.max()) if lengths.size else 0
+    powers = np.full(max(longest, 1), _STRING_BASE, dtype=np.uint64)
+    powers[0] = 1
+    powers = np.cumprod(powers, dtype=np.uint64)  # B**0, B**1, ... (mod 2**64)
+    position = np.arange(data.size, dtype=np.int64) - np.repeat(offsets[:-1], lengths)
+    running = np.concatenate([np.zeros(1, np.uint64), np.cumsum(data.astype(np.uint64) * powers[position], dtype=np.uint64)])
+    sums = running[offsets[1:]] - running[offsets[:-1]]
+    sums ^= lengths.astype(np.uint64) * _LENGTH_MIX
+    halves = sums.view(np.uint32).reshape(-1, 2)
+    return _fmix32(np.bitwise_xor(halves[:, 0], halves[:, 1]))
 
 
 class HyperLogLog:
@@ -109,7 +130,7 @@ class WeightedSample:
         """`expected`: the number of values to come, when known, so that the stride can start
         where no compaction will be needed."""
         self.capacity = capacity
-        self.stride = max(1, expected // capacity)
+        self.stride = max(1, -(-expected // capacity))
         self.offset = 0
         self.chunks: list[tuple[np.ndarray, np.ndarray]] = []
         self.size = 0
@@ -119,10 +140,14 @@ class WeightedSample:
         """Add a batch of non-null values: every `stride`-th one, continuing across batches."""
         if values.size == 0:
             return
-        start = (-self.offset) % self.stride
-        picked = values[start :: self.stride]
-        self.offset = (self.offset + values.size) % self.stride
+        picked = values[self.strided(values.size)]
         self.add_weighted(picked, np.full(picked.size, float(self.stride)))
+
+    def strided(self, count: int) -> slice:
+        """Which of the next `count` values to keep: every `stride`-th, continuing across batches."""
+        start = (-self.offset) % self.stride
+        self.offset = (self.offset + count) % self.stride
+        return slice(start, count, self.stride)
 
     def add_weighted(self, values: np.ndarray, weights: np.ndarray) -> None:
         if values.size == 0:
