@@ -13,6 +13,7 @@ python benchmarks/profile_speed.py [--rows N] [--repeat N] [--skip-csv] [--skip-
 from __future__ import annotations
 
 import argparse
+import os
 import subprocess
 import sys
 import tempfile
@@ -59,12 +60,14 @@ def profile_seconds(path: Path, store: Path) -> float:
 
 
 def peak_rss_mb(path: Path, store: Path) -> float:
+    # VmHWM is the peak of this process's own memory; ru_maxrss would also count the pages of
+    # the (large) benchmark process it was started from, which Linux carries across exec.
     code = (
-        "import resource, sys, runpy; sys.argv = sys.argv[1:]; "
-        "sys.argv[0] = 'chainlint'\n"
+        "import sys; sys.argv = sys.argv[1:]; sys.argv[0] = 'chainlint'\n"
         "from chainlint.cli import main\n"
         "try:\n    main()\nexcept SystemExit:\n    pass\n"
-        "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024)"
+        "status = open('/proc/self/status').read().split('VmHWM:')[1]\n"
+        "print(int(status.split()[0]) / 1024)"
     )
     done = subprocess.run([sys.executable, "-c", code, *profile_command(path, store)[2:]], check=True, capture_output=True, text=True)
     return float(done.stdout.strip().splitlines()[-1])
@@ -82,6 +85,7 @@ def main() -> None:
         table = make_table(args.rows)
         parquet = work / "bench.parquet"
         pq.write_table(table, parquet)
+        os.sync()  # written pages flushed before timing: writeback would run during the first runs
         print(f"table: {args.rows:,} rows x {table.num_columns} columns; parquet {parquet.stat().st_size / 1e6:.0f} MB")
         reads, profiles = [], []
         for _ in range(args.repeat):  # interleaved; the minimum is the least disturbed run
@@ -102,6 +106,7 @@ def main() -> None:
         if not args.skip_csv:
             csv = work / "bench.csv"
             pacsv.write_csv(table, csv)
+            os.sync()
             reads, profiles = [], []
             for _ in range(args.repeat):
                 reads.append(timed(lambda: pacsv.read_csv(csv)))
@@ -114,6 +119,7 @@ def main() -> None:
             with pq.ParquetWriter(long, table.schema) as writer:
                 for _ in range(4):
                     writer.write_table(table)
+            os.sync()
             base, grown = peak_rss_mb(parquet, work / "store"), peak_rss_mb(long, work / "store")
             print(f"memory: peak RSS {base:.0f} MB for 1x, {grown:.0f} MB for 4x rows: +{(grown / base - 1):.0%} (goal <= +20%)")
 

@@ -8,13 +8,15 @@ import subprocess
 import sys
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
+import pyarrow as pa
 import pytest
 from click.testing import CliRunner
 
 from chainlint.cli import main
 from chainlint.profile import readers
-from chainlint.profile.columns import redact_value
+from chainlint.profile.columns import ColumnProfiler, Settings, redact_value
 from chainlint.profile.store import find_store, load_profile, redaction_key
 
 
@@ -105,6 +107,20 @@ def test_unknown_format_and_unreadable_parquet(tmp_path: Path) -> None:
     assert "unknown data format" in _error_line(_profile(tmp_path, tmp_path / "x.xlsx"))
     (tmp_path / "x.parquet").write_text("not parquet")
     assert "not a readable Parquet file" in _error_line(_profile(tmp_path, tmp_path / "x.parquet"))
+
+
+def test_several_csv_files_are_one_dataset_if_their_columns_agree(tmp_path: Path) -> None:
+    first, second, other = tmp_path / "1.csv", tmp_path / "2.csv", tmp_path / "3.csv"
+    first.write_text("a,b\n" + "1,x\n" * 6)
+    second.write_text("a,b\n" + "2,y\n" * 5)
+    other.write_text("a,c\n1,x\n")
+    assert _profile(tmp_path, first, str(second)).exit_code == 0
+    document = load_profile(tmp_path / "store" / "profiles" / "p.json")
+    assert document["rows"] == 11 and document["columns"]["a"]["top"]["values"] == [[1, 6], [2, 5]]
+    before = (tmp_path / "store" / "profiles" / "p.json").read_bytes()
+    line = _error_line(_profile(tmp_path, first, str(other)))
+    assert f"{other}: its columns differ from {first}'s" in line
+    assert (tmp_path / "store" / "profiles" / "p.json").read_bytes() == before
 
 
 def test_duplicate_column_names(tmp_path: Path) -> None:
@@ -235,3 +251,15 @@ def test_profiles_check_tells_when_the_data_changed(tmp_path: Path) -> None:
     data.unlink()
     missing = _run("profiles", "--store", store, "check")
     assert missing.exit_code == 2 and "data missing" in missing.output
+
+
+def test_summaries_keep_no_view_of_a_batch() -> None:
+    # Memory stays bounded only if the sample copies what it keeps: a strided view would hold
+    # every batch's buffer alive until the end of the run.
+    profiler = ColumnProfiler("x", pa.int64(), Settings(distinct_cap=10), expected_rows=1_000)
+    batch = pa.array(np.arange(500, dtype=np.int64))
+    profiler.add(batch)
+    profiler.add(pa.array(np.arange(500, 1_000, dtype=np.int64)))
+    assert profiler.sample is not None and profiler.sample.chunks
+    batch_memory = np.frombuffer(batch.buffers()[1], dtype=np.int64)
+    assert not any(np.shares_memory(values, batch_memory) for values, _ in profiler.sample.chunks)

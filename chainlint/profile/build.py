@@ -41,6 +41,7 @@ def profile_dataset(
             rows += batch.num_rows
             if progress is not None:
                 progress(rows)
+        columns = list(pool.map(ColumnProfiler.finish, profilers)) if rows else []
     if rows == 0:
         raise DataError(f"{dataset.files[0].path}: no data rows (header only or empty)")
     document = {
@@ -62,7 +63,7 @@ def profile_dataset(
             "buckets": settings.buckets,
             "redacted": sorted(settings.redact),
         },
-        "columns": {p.name: p.finish() for p in profilers},
+        "columns": {p.name: column for p, column in zip(profilers, columns)},
         "column_order": [p.name for p in profilers],
     }
     if joint is not None:

@@ -10,6 +10,8 @@ stores, per set of predicates, the rows that pass each subset of them; a count u
 
 from __future__ import annotations
 
+import importlib
+import threading
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -52,6 +54,10 @@ class JointCounter:
                 texts = tuple(sorted(chosen))[:MAX_STEPS]
                 if len(texts) >= 2 and texts not in self.targets:
                     self.targets[texts] = _Target(texts, tuple(chosen[t] for t in texts), np.zeros(1 << len(texts), dtype=np.int64))
+        if self.targets:
+            # pyarrow turns Python literals into scalars through its pandas shim, which imports
+            # pandas (0.2 s) on first use: start that import now, while the data is opened.
+            threading.Thread(target=importlib.import_module, args=("pandas",), daemon=True).start()
         self.needed = sorted({name for target in self.targets.values() for p in target.predicates for name in p.columns()})
 
     def add(self, table: pa.Table) -> None:

@@ -50,7 +50,7 @@ class Dataset:
     kind: str
     batches: Iterator[pa.Table]
     _digests: list[Future[str]] = field(default_factory=list)
-    expected_rows: int | None = None
+    expected_rows: int | None = None  # known, or estimated (CSV); sets the sampling stride
 
     def fingerprint(self) -> str:
         """sha256 over the files' own sha256 digests, in path order."""
@@ -153,27 +153,55 @@ def open_dataset(arguments: Sequence[str], batch_rows: int = BATCH_ROWS) -> Data
             raise DataError(f"{path}: cannot read: permission denied")
         modified = datetime.fromtimestamp(stat.st_mtime, UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
         described.append(SourceFile(path, stat.st_size, modified))
-    opener = {"csv": _open_csv, "parquet": _open_parquet, "arrow": _open_arrow, "jsonl": _open_jsonl}[kind]
-    if kind == "parquet" and any(os.path.isdir(p) for p in paths):
-        schema, batches, expected = _open_parquet_dataset(paths, batch_rows)
-    else:
-        opened = [opener(path, batch_rows) for path in files]
-        schema = opened[0][0]
-        for path, (other, _, _) in zip(files, opened):
-            if not other.equals(schema):
-                raise DataError(f"{path}: its columns differ from {files[0]}'s; profile them separately")
-        batches = _chain(stream for _, stream, _ in opened)
-        counts = [rows for _, _, rows in opened]
-        expected = None if None in counts else sum(counts)  # type: ignore[arg-type]
-    _check_columns(schema, files[0])
+    # Fingerprinting starts first: it reads every file once, alongside the parse.
     pool = ThreadPoolExecutor(max_workers=1)
     digests = [pool.submit(_sha256, path) for path in files]
     pool.shutdown(wait=False)
+    try:
+        schema, batches, expected = _open_files(kind, paths, files, batch_rows)
+        _check_columns(schema, files[0])
+    except DataError:
+        for digest in digests:
+            digest.cancel()
+        raise
     return Dataset(schema, described, kind, batches, digests, expected)
+
+
+def _open_files(kind: str, paths: Sequence[str], files: list[str], batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
+    if kind == "parquet" and any(os.path.isdir(p) for p in paths):
+        return _open_parquet_dataset(paths, batch_rows)
+    if kind == "csv":
+        # Opening a CSV file parses its first piece: later files are opened only when reached,
+        # so that memory stays bounded however many files are given.
+        schema, first, rows = _open_csv(files[0], batch_rows)
+        sizes = [os.path.getsize(f) for f in files]
+        expected = None if rows is None else round(rows * sum(sizes) / max(sizes[0], 1))
+        return schema, _chain_csv(files, schema, first, batch_rows), expected
+    opener = {"parquet": _open_parquet, "arrow": _open_arrow, "jsonl": _open_jsonl}[kind]
+    opened = [opener(path, batch_rows) for path in files]
+    schema = opened[0][0]
+    for path, (other, _, _) in zip(files, opened):
+        if not other.equals(schema):
+            raise DataError(_differs(path, files[0]))
+    counts = [rows for _, _, rows in opened]
+    return schema, _chain(stream for _, stream, _ in opened), None if None in counts else sum(counts)  # type: ignore[arg-type]
+
+
+def _differs(path: str, first: str) -> str:
+    return f"{path}: its columns differ from {first}'s; profile them separately"
 
 
 def _chain(streams: Iterator[Iterator[pa.Table]]) -> Iterator[pa.Table]:
     for stream in streams:
+        yield from stream
+
+
+def _chain_csv(files: list[str], schema: pa.Schema, first: Iterator[pa.Table], batch_rows: int) -> Iterator[pa.Table]:
+    yield from first
+    for path in files[1:]:
+        other, stream, _ = _open_csv(path, batch_rows)
+        if not other.equals(schema):
+            raise DataError(_differs(path, files[0]))
         yield from stream
 
 
@@ -206,13 +234,21 @@ def _open_csv(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table]
     if binary:
         raise DataError(f"{path}: column {binary[0]!r} is not valid UTF-8 text")
     schema = table.schema
+    # The row count, estimated from the first piece, sets the summaries' sampling stride.
+    size = os.path.getsize(path)
+    expected = None if _compressed(path) or not len(first) else round(table.num_rows * size / len(first))
 
     def stream() -> Iterator[pa.Table]:
         yield from table_batches(table, batch_rows)
         for piece, offset in pieces:
             yield from table_batches(_parse_csv_piece(path, piece, offset, schema), batch_rows)
 
-    return schema, stream(), None
+    return schema, stream(), expected
+
+
+def _compressed(path: str) -> bool:
+    with pa.input_stream(path, compression="detect") as source:
+        return isinstance(source, pa.CompressedInputStream)
 
 
 def _csv_pieces(path: str) -> Iterator[tuple[pa.Buffer, int]]:
@@ -339,8 +375,11 @@ def _open_parquet(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Ta
 
     def stream() -> Iterator[pa.Table]:
         try:
-            for batch in handle.iter_batches(batch_size=batch_rows):
-                yield pa.Table.from_batches([batch])
+            # A reader per row group: one reader over all of them keeps memory for each group
+            # it has passed (measured: +90 MB per row group of 1M rows x 40 columns).
+            for group in range(handle.metadata.num_row_groups):
+                for batch in handle.iter_batches(batch_size=batch_rows, row_groups=[group]):
+                    yield pa.Table.from_batches([batch])
         except (pa.ArrowInvalid, OSError) as error:
             raise DataError(f"{path}: {str(error).splitlines()[0]}") from None
 

@@ -140,7 +140,7 @@ class WeightedSample:
         """Add a batch of non-null values: every `stride`-th one, continuing across batches."""
         if values.size == 0:
             return
-        picked = values[self.strided(values.size)]
+        picked = values[self.strided(values.size)].copy()  # a view would keep the whole batch alive
         self.add_weighted(picked, np.full(picked.size, float(self.stride)))
 
     def strided(self, count: int) -> slice:
