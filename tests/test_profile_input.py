@@ -69,6 +69,15 @@ def test_malformed_row_in_a_later_piece_names_its_line(tmp_path: Path, monkeypat
     assert f"{path}:48: malformed CSV row (expected 2 fields, found 3)" in _error_line(_profile(tmp_path, path))
 
 
+def test_tab_separated_values(tmp_path: Path) -> None:
+    path = tmp_path / "t.tsv"
+    path.write_text("a\tb c\n" + "".join(f"{i % 3}\tx,{i % 2}\n" for i in range(12)))
+    assert _profile(tmp_path, path).exit_code == 0
+    columns = load_profile(tmp_path / "store" / "profiles" / "p.json")["columns"]
+    assert sorted(columns) == ["a", "b c"]
+    assert columns["b c"]["top"]["values"] == [["x,0", 6], ["x,1", 6]]
+
+
 def test_line_longer_than_a_piece(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setattr(readers, "_CSV_BLOCK", 64)
     path = tmp_path / "long.csv"

@@ -65,7 +65,7 @@ def _kind(path: str) -> str:
     if os.path.isdir(path):
         return "parquet"
     for suffix, kind in (
-        (".csv", "csv"), (".csv.gz", "csv"), (".csv.bz2", "csv"), (".tsv", "csv"),
+        (".csv", "csv"), (".csv.gz", "csv"), (".csv.bz2", "csv"), (".tsv", "csv"), (".tsv.gz", "csv"),
         (".parquet", "parquet"), (".pq", "parquet"),
         (".feather", "arrow"), (".arrow", "arrow"), (".ipc", "arrow"),
         (".jsonl", "jsonl"), (".ndjson", "jsonl"), (".jsonl.gz", "jsonl"),
@@ -325,13 +325,14 @@ def _parse_csv_piece(path: str, piece: pa.Buffer, offset: int, schema: pa.Schema
         return "error"
 
     names = schema.names if schema is not None else None
+    delimiter = "\t" if path.lower().endswith((".tsv", ".tsv.gz")) else ","
     convert = pacsv.ConvertOptions(column_types=schema) if schema is not None else pacsv.ConvertOptions()
 
     def parse(threads: bool) -> pa.Table:
         return pacsv.read_csv(
             piece,
             read_options=pacsv.ReadOptions(use_threads=threads, block_size=_CSV_PARSE_BLOCK, column_names=names),
-            parse_options=pacsv.ParseOptions(invalid_row_handler=on_invalid),
+            parse_options=pacsv.ParseOptions(delimiter=delimiter, invalid_row_handler=on_invalid),
             convert_options=convert,
         )
 
