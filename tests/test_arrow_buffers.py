@@ -14,6 +14,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from chainlint.arrays import filled_numpy, index_array, to_numpy
+from chainlint.profile import sketches
 from chainlint.profile.sketches import hash_strings
 
 _TYPES = {
@@ -77,3 +78,10 @@ def test_string_hash_follows_its_formula(texts: list[str], start: int, large: bo
     expected = [_reference_hash(t) for t in array.to_pylist()]
     assert hash_strings(array).tolist() == expected
     assert hash_strings(array.dictionary_encode()).tolist() == expected
+
+
+def test_string_hash_in_slices_is_the_same(monkeypatch) -> None:  # type: ignore[no-untyped-def]
+    texts = [f"{'é' * (i % 9)}{i}" for i in range(300)]
+    array = pa.array(texts).slice(7)
+    monkeypatch.setattr(sketches, "_HASH_BYTES", 16)  # many slices, as a batch of long strings is cut
+    assert hash_strings(array).tolist() == [_reference_hash(t) for t in texts[7:]]

@@ -1,9 +1,11 @@
 """Per-column statistics, accumulated batch by batch.
 
-A column starts exact: counts of every value (pre-aggregated per batch by pyarrow, or from
-dictionary indices with `bincount`, then added into one table keyed by a pandas Index). When its distinct count passes the cap it switches to
-summaries: a HyperLogLog for the distinct count and a weighted sample for quantiles and
-frequent values. What is written obeys the privacy rule (see `finish`).
+A column starts exact: counts of every value, per batch from dictionary indices with
+`bincount` (Parquet strings arrive dictionary-encoded; other strings are encoded once, which
+also gives the value changes), by `bincount` for integers of a narrow range, else by pyarrow's
+`value_counts`, then added into one table of values. When its distinct count passes the cap it
+switches to summaries: a HyperLogLog for the distinct count and a weighted sample for quantiles
+and frequent values. What is written obeys the privacy rule (see `finish`).
 """
 
 from __future__ import annotations

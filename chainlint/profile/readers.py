@@ -281,7 +281,8 @@ def _csv_pieces(path: str) -> Iterator[tuple[pa.Buffer, int]]:
 
 def _mapped_pieces(path: str) -> Iterator[tuple[pa.Buffer, int]]:
     """Pieces of a memory-mapped file, without copies. A piece's pages are let go once it has
-    been parsed (the parsed table holds copies), so resident memory stays bounded."""
+    been parsed (the parsed table holds copies), so resident memory stays bounded. (As with any
+    memory map, a file truncated by another program while it is read ends the process.)"""
     with open(path, "rb") as handle:
         # Not closed here: pyarrow's views keep the map alive, and it unmaps when the last goes.
         mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)

@@ -23,6 +23,7 @@ from chainlint.arrays import to_numpy
 HLL_PRECISION = 12
 _STRING_BASE = np.uint64(0x100000001B3)
 _LENGTH_MIX = np.uint64(0x9E3779B97F4A7C15)
+_HASH_BYTES = 1 << 22
 _RANK_BITS = 32 - HLL_PRECISION
 
 
@@ -63,6 +64,9 @@ def hash_strings(array: pa.Array) -> np.ndarray:
     offsets = np.frombuffer(offset_buffer, dtype=width, count=len(array) + 1, offset=array.offset * width.itemsize).astype(np.int64)
     first = int(offsets[0])
     offsets -= first
+    if offsets[-1] > _HASH_BYTES and len(array) > 1:  # the temporaries take 40 bytes per byte hashed
+        half = len(array) // 2
+        return np.concatenate([hash_strings(array.slice(0, half)), hash_strings(array.slice(half))])
     lengths = np.diff(offsets)
     data = np.frombuffer(data_buffer, dtype=np.uint8, count=int(offsets[-1]), offset=first) if offsets[-1] else np.zeros(0, np.uint8)
     longest = int(lengths.max()) if lengths.size else 0
