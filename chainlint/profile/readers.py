@@ -25,7 +25,7 @@ import pyarrow.json as pajson
 import pyarrow.parquet as pq
 
 BATCH_ROWS = 262_144
-_CSV_BLOCK = 64 << 20
+_CSV_BLOCK = 32 << 20
 _CSV_PARSE_BLOCK = 4 << 20
 
 
