@@ -1,9 +1,9 @@
 """Open sample data as one stream of pyarrow tables of bounded length (batches), with a
 description of its source.
 
-Memory stays bounded by the batch size: every reader streams (Parquet by batch, CSV by
-memory-mapped piece, JSON Lines by block, Arrow IPC by batch). Several DATA arguments form one dataset; they must
-share a schema.
+Memory stays bounded by the batch size: every reader streams (Parquet by batch within each
+row group, CSV by memory-mapped piece, JSON Lines by block, Arrow IPC by batch). Several DATA
+arguments form one dataset; they must share a schema.
 """
 
 from __future__ import annotations
