@@ -92,7 +92,8 @@ def test_line_longer_than_a_piece(tmp_path: Path, monkeypatch: pytest.MonkeyPatc
 def test_profiling_never_imports_pandas(tmp_path: Path) -> None:
     # pandas costs 0.2 s to import; the profiler reads and counts with pyarrow and numpy only.
     data = tmp_path / "d.csv"
-    data.write_text("name,n,when\n" + "".join(f"v{i % 7},{i},2024-01-{i % 28 + 1:02d}\n" for i in range(300)))
+    # Exact and estimated columns (cap 50) of each kind: strings, integers, dates.
+    data.write_text("name,key,n,when\n" + "".join(f"v{i % 7},k{i},{i},2024-01-{i % 28 + 1:02d}\n" for i in range(300)))
     code = (
         "import sys\nfrom chainlint.cli import main\n"
         "try:\n    main(sys.argv[1:])\nexcept SystemExit:\n    pass\n"
