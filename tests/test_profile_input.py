@@ -69,6 +69,21 @@ def test_malformed_row_in_a_later_piece_names_its_line(tmp_path: Path, monkeypat
     assert f"{path}:48: malformed CSV row (expected 2 fields, found 3)" in _error_line(_profile(tmp_path, path))
 
 
+@pytest.mark.parametrize("compressed", [False, True])
+def test_value_of_another_type_in_a_later_piece_names_its_line(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, compressed: bool) -> None:
+    monkeypatch.setattr(readers, "_CSV_BLOCK", 64)  # the first piece decides that `a` holds integers
+    lines = ["a,b"] + [f"{i},{i * 2}" for i in range(1, 60)]
+    lines[51] = "many,3"
+    text = "\n".join(lines) + "\n"
+    path = tmp_path / ("mixed.csv.gz" if compressed else "mixed.csv")
+    if compressed:
+        path.write_bytes(gzip.compress(text.encode()))
+    else:
+        path.write_text(text)
+    line = _error_line(_profile(tmp_path, path))
+    assert f"{path}:52: " in line and "invalid value 'many'" in line and "first part decided" in line
+
+
 def test_tab_separated_values(tmp_path: Path) -> None:
     path = tmp_path / "t.tsv"
     path.write_text("a\tb c\n" + "".join(f"{i % 3}\tx,{i % 2}\n" for i in range(12)))

@@ -12,12 +12,13 @@ import glob
 import hashlib
 import mmap
 import os
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
 
+import numpy as np
 import pyarrow as pa
 import pyarrow.csv as pacsv
 import pyarrow.ipc as paipc
@@ -329,9 +330,9 @@ def _parse_csv_piece(path: str, piece: pa.Buffer, offset: int, schema: pa.Schema
     delimiter = "\t" if path.lower().endswith((".tsv", ".tsv.gz")) else ","
     convert = pacsv.ConvertOptions(column_types=schema) if schema is not None else pacsv.ConvertOptions()
 
-    def parse(threads: bool) -> pa.Table:
+    def parse(threads: bool, data: pa.Buffer = piece) -> pa.Table:
         return pacsv.read_csv(
-            piece,
+            data,
             read_options=pacsv.ReadOptions(use_threads=threads, block_size=_CSV_PARSE_BLOCK, column_names=names),
             parse_options=pacsv.ParseOptions(delimiter=delimiter, invalid_row_handler=on_invalid),
             convert_options=convert,
@@ -355,8 +356,33 @@ def _parse_csv_piece(path: str, piece: pa.Buffer, offset: int, schema: pa.Schema
         if "utf8" in message.lower() or "utf-8" in message.lower():
             raise DataError(f"{path}: not valid UTF-8 text ({message})") from None
         if "conversion error" in message.lower():
-            message += " (the file's first part decided this column's type)"
+            line = _line_at(path, offset) + _first_failing_line(piece, lambda prefix: _fails(parse, prefix))
+            raise DataError(f"{path}:{line}: {message} (the file's first part decided this column's type)") from None
         raise DataError(f"{path}: {message}") from None
+
+
+def _fails(parse: Callable[[bool, pa.Buffer], pa.Table], data: pa.Buffer) -> bool:
+    try:
+        parse(False, data)
+    except (pa.ArrowInvalid, pa.ArrowTypeError):
+        return True
+    return False
+
+
+def _first_failing_line(piece: pa.Buffer, fails: Callable[[pa.Buffer], bool]) -> int:
+    """The index of the piece's first line whose values do not convert: the shortest prefix of
+    whole lines that fails to parse, found by bisection (only on the error path)."""
+    ends = np.flatnonzero(np.frombuffer(piece, dtype=np.uint8) == 10) + 1
+    if not ends.size or ends[-1] != len(piece):
+        ends = np.append(ends, len(piece))
+    low, high = 0, len(ends) - 1
+    while low < high:
+        middle = (low + high) // 2
+        if fails(piece.slice(0, int(ends[middle]))):
+            high = middle
+        else:
+            low = middle + 1
+    return low
 
 
 def table_batches(part: pa.Table | pa.RecordBatch, rows: int) -> Iterator[pa.Table]:
