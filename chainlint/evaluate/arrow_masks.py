@@ -81,7 +81,7 @@ def numpy_mask(batch: pa.RecordBatch, node: Node) -> np.ndarray:
         if dictionary is not None:
             answers, missing = _dictionary_answers(node, dictionary)
             spread = np.append(to_numpy(answers), missing)  # a null index reads the last entry
-            return spread[filled_numpy(dictionary.indices, len(answers))]
+            return np.take(spread, filled_numpy(dictionary.indices, len(answers)))
     return to_numpy(arrow_mask(batch, node))
 
 

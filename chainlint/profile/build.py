@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import os
 from collections.abc import Callable
-from concurrent.futures import ThreadPoolExecutor
+from concurrent.futures import Future, ThreadPoolExecutor
 from datetime import UTC, datetime
 from typing import Any
 
@@ -32,15 +32,18 @@ def profile_dataset(
     with ThreadPoolExecutor(max_workers=os.cpu_count() or 1) as pool, ThreadPoolExecutor(max_workers=1) as reader:
         batches = iter(dataset.batches)
         ahead = reader.submit(next, batches, None)
+        counted: Future[None] | None = None
         while (batch := ahead.result()) is not None:
             ahead = reader.submit(next, batches, None)  # read the next batch while this one is counted
+            if counted is not None:
+                counted.result()  # the previous batch's joint counts: they ran beside its columns
             counted = pool.submit(joint.add, batch) if joint is not None else None
             list(pool.map(ColumnProfiler.add, profilers, batch.columns))
-            if counted is not None:
-                counted.result()
             rows += batch.num_rows
             if progress is not None:
                 progress(rows)
+        if counted is not None:
+            counted.result()
         columns = list(pool.map(ColumnProfiler.finish, profilers)) if rows else []
     if rows == 0:
         raise DataError(f"{dataset.files[0].path}: no data rows (header only or empty)")
