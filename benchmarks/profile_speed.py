@@ -6,7 +6,7 @@ Goals: Parquet profile <= 3x `pyarrow.parquet.read_table`; CSV profile <= 1.5x
 `pyarrow.csv.read_csv`; profiling a file 4x as long raises peak RSS by at most 20%; with
 `--for` 20 chains of 4 steps, at most 1.5x the profile without.
 Times are the minimum of interleaved repeats of the whole `chainlint profile` command (start-up
-included) and of the bare read. Usage:
+included, bytecode cached as in an installed package) and of the bare read. Usage:
 python benchmarks/profile_speed.py [--rows N] [--repeat N] [--skip-csv] [--skip-memory]
 """
 
@@ -45,6 +45,12 @@ def make_table(rows: int, seed: int = 7) -> pa.Table:
     return pa.table(columns)
 
 
+# The commands run with their bytecode cached, as an installed package has it (pip compiles it);
+# without, a source checkout under PYTHONDONTWRITEBYTECODE recompiles chainlint on every run.
+_ENV = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+_ENV["PYTHONPYCACHEPREFIX"] = os.path.join(tempfile.gettempdir(), "chainlint-benchmark-pycache")
+
+
 def timed(function) -> float:  # type: ignore[no-untyped-def]
     start = time.perf_counter()
     function()
@@ -56,7 +62,7 @@ def profile_command(path: Path, store: Path) -> list[str]:
 
 
 def profile_seconds(path: Path, store: Path) -> float:
-    return timed(lambda: subprocess.run(profile_command(path, store), check=True, capture_output=True))
+    return timed(lambda: subprocess.run(profile_command(path, store), check=True, capture_output=True, env=_ENV))
 
 
 def peak_rss_mb(path: Path, store: Path) -> float:
@@ -69,7 +75,7 @@ def peak_rss_mb(path: Path, store: Path) -> float:
         "status = open('/proc/self/status').read().split('VmHWM:')[1]\n"
         "print(int(status.split()[0]) / 1024)"
     )
-    done = subprocess.run([sys.executable, "-c", code, *profile_command(path, store)[2:]], check=True, capture_output=True, text=True)
+    done = subprocess.run([sys.executable, "-c", code, *profile_command(path, store)[2:]], check=True, capture_output=True, text=True, env=_ENV)
     return float(done.stdout.strip().splitlines()[-1])
 
 
@@ -101,7 +107,7 @@ def main() -> None:
         ))
         joint = []
         for _ in range(args.repeat):
-            joint.append(timed(lambda: subprocess.run(profile_command(parquet, work / "joint") + ["--for", str(chains)], check=True, capture_output=True)))
+            joint.append(timed(lambda: subprocess.run(profile_command(parquet, work / "joint") + ["--for", str(chains)], check=True, capture_output=True, env=_ENV)))
         print(f"parquet with --for (20 chains of 4 steps): profile {min(joint):.2f} s, {min(joint) / profile:.2f}x the profile without (goal <= 1.5x)")
         if not args.skip_csv:
             csv = work / "bench.csv"

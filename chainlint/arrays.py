@@ -52,6 +52,27 @@ def filled_numpy(array: pa.Array, fill: int | float) -> np.ndarray:
     return values
 
 
+def packed_bits(mask: pa.Array | np.ndarray) -> np.ndarray:
+    """A null-free boolean mask as little-endian bits in uint64 words, the bits past its end
+    zero (Arrow's own bitmap when it starts on a byte; Arrow leaves padding bits undefined)."""
+    rows = len(mask)
+    if isinstance(mask, pa.Array):
+        if mask.null_count:
+            raise ValueError("packed_bits takes masks without nulls")
+        if mask.offset % 8 == 0:
+            start = mask.offset // 8
+            raw = np.frombuffer(mask.buffers()[1], dtype=np.uint8)[start : start + (rows + 7) // 8]
+        else:
+            raw = np.packbits(to_numpy(mask), bitorder="little")
+    else:
+        raw = np.packbits(mask, bitorder="little")
+    words = np.zeros((rows + 63) // 64 * 8, dtype=np.uint8)
+    words[: raw.size] = raw
+    if rows % 8:
+        words[rows // 8] &= (1 << (rows % 8)) - 1
+    return words.view(np.uint64)
+
+
 def index_array(values: np.ndarray) -> pa.Array:
     """Positions as an Arrow int64 array (for `take`)."""
     values = np.ascontiguousarray(values, dtype=np.int64)

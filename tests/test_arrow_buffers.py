@@ -13,7 +13,7 @@ import pyarrow.compute as pc
 from hypothesis import given
 from hypothesis import strategies as st
 
-from chainlint.arrays import filled_numpy, index_array, to_numpy
+from chainlint.arrays import filled_numpy, index_array, packed_bits, to_numpy
 from chainlint.profile import sketches
 from chainlint.profile.sketches import hash_strings
 
@@ -85,3 +85,12 @@ def test_string_hash_in_slices_is_the_same(monkeypatch) -> None:  # type: ignore
     array = pa.array(texts).slice(7)
     monkeypatch.setattr(sketches, "_HASH_BYTES", 16)  # many slices, as a batch of long strings is cut
     assert hash_strings(array).tolist() == [_reference_hash(t) for t in texts[7:]]
+
+
+@given(st.lists(st.booleans(), min_size=1, max_size=200), st.integers(0, 199), st.booleans())
+def test_packed_bits_hold_the_mask_and_nothing_past_it(items: list[bool], start: int, as_numpy: bool) -> None:
+    array = pa.array(items).slice(min(start, len(items) - 1))  # offsets on and off a byte
+    mask = to_numpy(array) if as_numpy else array
+    bits = np.unpackbits(packed_bits(mask).view(np.uint8), bitorder="little")
+    assert bits[: len(array)].astype(bool).tolist() == array.to_pylist()
+    assert not bits[len(array) :].any()

@@ -17,6 +17,7 @@ from hypothesis import strategies as st
 from chainlint.analysis.run import analyse_source
 from chainlint.cli import main
 from chainlint.parse.source import text_source
+from chainlint.profile import joint
 from chainlint.profile.joint import JointCounter
 from chainlint.profile.readers import table_batches
 
@@ -41,8 +42,8 @@ def correlated_frames(draw):
 
 
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-@given(correlated_frames(), st.lists(st.sampled_from(MASKS), min_size=2, max_size=5, unique=True), st.booleans())
-def test_every_joint_count_equals_the_pandas_filter(frame, masks, dictionary) -> None:
+@given(correlated_frames(), st.lists(st.sampled_from(MASKS), min_size=2, max_size=5, unique=True), st.booleans(), st.booleans())
+def test_every_joint_count_equals_the_pandas_filter(frame, masks, dictionary, packed) -> None:
     source = "out = df" + "".join(f"[lambda d: {m}]" for m in masks) + "\n"
     (chain,) = analyse_source(text_source("m.py", source)).chains
     whole = pa.Table.from_pandas(frame, preserve_index=False)
@@ -51,8 +52,13 @@ def test_every_joint_count_equals_the_pandas_filter(frame, masks, dictionary) ->
     if dictionary:  # as Parquet string columns arrive
         table = table.set_column(2, "s", pa.compute.dictionary_encode(table.column("s")))
     counter = JointCounter([chain], set(frame.columns))
-    for batch in table_batches(table, 97):
-        counter.add(batch)
+    # Both ways of counting: ANDs of packed masks, and one code per row (as for long chains).
+    saved, joint.PACKED_STEPS = joint.PACKED_STEPS, (joint.MAX_STEPS if packed else 0)
+    try:
+        for batch in table_batches(table, 97):
+            counter.add(batch)
+    finally:
+        joint.PACKED_STEPS = saved
     (entry,) = counter.finish(min_count=1)
     by_text = {step.predicate.canonical(): mask for step, mask in zip(chain.steps, masks)}
     for subset, count in entry["subsets"]:

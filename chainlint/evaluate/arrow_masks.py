@@ -14,7 +14,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from chainlint.arrays import filled_numpy, to_numpy
+from chainlint.arrays import filled_numpy, packed_bits, to_numpy
 from chainlint.evaluate.support import NotEvaluable, unevaluable
 from chainlint.ir import (
     And,
@@ -73,16 +73,16 @@ def _through_dictionary(node: Node, array: pa.DictionaryArray) -> pa.Array:
     return pc.fill_null(pc.take(answers, array.indices), missing)
 
 
-def numpy_mask(batch: pa.RecordBatch, node: Node) -> np.ndarray:
-    """`arrow_mask` as a numpy boolean array; a dictionary column's answers are spread by numpy
-    indexing, several times faster than Arrow's `take` of booleans."""
+def bit_mask(batch: pa.RecordBatch, node: Node) -> np.ndarray:
+    """`arrow_mask` as packed bits (`chainlint.arrays.packed_bits`); a dictionary column's
+    answers are spread by numpy indexing, several times faster than Arrow's `take` of booleans."""
     if isinstance(node, (Compare, Member, Range, NullTest, StrTest)):
         dictionary = _dictionary_operand(batch, node)
         if dictionary is not None:
             answers, missing = _dictionary_answers(node, dictionary)
             spread = np.append(to_numpy(answers), missing)  # a null index reads the last entry
-            return np.take(spread, filled_numpy(dictionary.indices, len(answers)))
-    return to_numpy(arrow_mask(batch, node))
+            return packed_bits(np.take(spread, filled_numpy(dictionary.indices, len(answers))))
+    return packed_bits(arrow_mask(batch, node))
 
 
 def arrow_mask(batch: pa.RecordBatch, node: Node) -> pa.Array:

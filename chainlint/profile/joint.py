@@ -3,9 +3,11 @@
 Per-column statistics cannot see correlation (a destination and the carriers that fly there).
 For every chain bound to the profile, each movable step's predicate is evaluated exactly on
 the data from chainlint's IR (pyarrow compute, never the user's code): one boolean mask per
-predicate, packed as bits, so one `bincount` per batch counts every combination. The profile
-stores, per set of predicates, the rows that pass each subset of them; a count under
-`min_count` is stored as "below", as rare values are.
+predicate, packed as bits. For a chain of up to `PACKED_STEPS` predicates, the rows passing
+each subset are the popcount of the AND of its masks; for longer chains the masks form one code
+per row, counted by one `bincount` and summed over supersets. The profile stores, per set of
+predicates, the rows that pass each subset of them; a count under `min_count` is stored as
+"below", as rare values are.
 """
 
 from __future__ import annotations
@@ -19,18 +21,19 @@ import numpy as np
 import pyarrow as pa
 
 from chainlint.analysis.model import Chain
-from chainlint.evaluate.arrow_masks import numpy_mask
+from chainlint.evaluate.arrow_masks import bit_mask
 from chainlint.evaluate.support import NotEvaluable, unevaluable
 from chainlint.ir import Node
 
 MAX_STEPS = 12
+PACKED_STEPS = 6  # 2**6 ANDs of packed masks beat a per-row code; past that, bincount wins
 
 
 @dataclass
 class _Target:
     texts: tuple[str, ...]
     predicates: tuple[Node, ...]
-    patterns: np.ndarray
+    subsets: np.ndarray  # rows passing every predicate of each subset (bit i: the i-th)
 
 
 class JointCounter:
@@ -70,27 +73,51 @@ class JointCounter:
         batch = batches[0] if len(batches) == 1 else part.combine_chunks().to_batches()[0]
         masks: dict[str, np.ndarray] = {}  # a predicate shared by several chains is evaluated once
         for target in list(self.targets.values()):
-            code = np.zeros(batch.num_rows, dtype=np.uint16)  # bit i: the i-th predicate (MAX_STEPS <= 16)
             try:
-                for bit, (text, predicate) in enumerate(zip(target.texts, target.predicates)):
+                for text, predicate in zip(target.texts, target.predicates):
                     if text not in masks:
-                        masks[text] = numpy_mask(batch, predicate)
-                    code |= np.left_shift(masks[text].view(np.uint8), bit, dtype=np.uint16)
+                        masks[text] = bit_mask(batch, predicate)
             except (NotEvaluable, pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError) as error:
                 for text in target.texts:
                     self.skipped.setdefault(text, f"pyarrow cannot evaluate it: {error}")
                 del self.targets[target.texts]
                 continue
-            target.patterns += np.bincount(code, minlength=len(target.patterns))
+            planes = [masks[text] for text in target.texts]
+            if len(planes) <= PACKED_STEPS:
+                target.subsets += subset_counts(planes, batch.num_rows)
+            else:
+                target.subsets += superset_sums(pattern_counts(planes, batch.num_rows))
 
     def finish(self, min_count: int) -> list[dict]:
         """Per set of predicates: rows passing every subset (bit i: the i-th predicate)."""
         entries = []
         for texts in sorted(self.targets):
-            subsets = superset_sums(self.targets[texts].patterns)
+            subsets = self.targets[texts].subsets
             counts = [[mask, int(c) if c >= min_count or c == 0 else "below"] for mask, c in enumerate(subsets)]
             entries.append({"predicates": list(texts), "subsets": counts})
         return entries
+
+
+def subset_counts(planes: list[np.ndarray], rows: int) -> np.ndarray:
+    """Rows passing every predicate of each subset (bit i: plane i) from packed masks: each
+    subset's AND is built from the subset without its highest bit, then counted."""
+    counts = np.zeros(1 << len(planes), dtype=np.int64)
+    counts[0] = rows
+    passing: list[np.ndarray] = [planes[0]] * len(counts)
+    for subset in range(1, len(counts)):
+        high = subset.bit_length() - 1
+        rest = subset ^ (1 << high)
+        passing[subset] = planes[high] if rest == 0 else np.bitwise_and(passing[rest], planes[high])
+        counts[subset] = int(np.bitwise_count(passing[subset]).sum())
+    return counts
+
+
+def pattern_counts(planes: list[np.ndarray], rows: int) -> np.ndarray:
+    """Rows by the exact pattern of predicates they pass (bit i: plane i), by one `bincount`."""
+    code = np.zeros(rows, dtype=np.uint16)  # MAX_STEPS <= 16
+    for bit, plane in enumerate(planes):
+        code |= np.left_shift(np.unpackbits(plane.view(np.uint8), count=rows, bitorder="little"), bit, dtype=np.uint16)
+    return np.bincount(code, minlength=1 << len(planes))
 
 
 def superset_sums(patterns: np.ndarray) -> np.ndarray:
