@@ -288,3 +288,16 @@ def test_summaries_keep_no_view_of_a_batch() -> None:
     assert profiler.sample is not None and profiler.sample.chunks
     batch_memory = np.frombuffer(batch.buffers()[1], dtype=np.int64)
     assert not any(np.shares_memory(values, batch_memory) for values, _ in profiler.sample.chunks)
+
+
+def test_a_rare_value_is_not_listed_from_a_sample() -> None:
+    # Privacy rule for estimated columns: a value held by 2 rows, both picked by a sample that
+    # keeps every 3rd row (weight 3 each, 6 >= min_count), must still not be written.
+    profiler = ColumnProfiler("x", pa.int64(), Settings(min_count=5, distinct_cap=10), expected_rows=3 * (1 << 16))
+    values = np.arange(3_000, dtype=np.int64) + 1_000
+    values[[0, 3]] = 7  # rare: 2 rows, both at sampled positions
+    values[6:36:3] = 8  # frequent: 10 rows, all sampled
+    profiler.add(pa.array(values))
+    listed = dict(map(tuple, profiler.finish()["top"]["values"]))
+    assert profiler.sample is not None and profiler.sample.stride == 3
+    assert 7 not in listed and listed[8] == 30

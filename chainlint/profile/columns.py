@@ -206,13 +206,10 @@ class ColumnProfiler:
         if len(counted):
             values = to_numpy(counted)
             self.hll.add_hashes(self.hash(counted))
-            # A value counted c >= 2 times enters as two points of weight c/2: it then passes
-            # the frequent-value rule ("seen in two sampled rows") as the rows it stands for do.
-            twice = counts >= 2
-            self.sample.add_weighted(
-                np.concatenate([values, values[twice]]),
-                np.concatenate([np.where(twice, counts / 2.0, counts.astype(np.float64)), counts[twice] / 2.0]),
-            )
+            # A value counted c times enters as min(c, the points the frequent-value rule asks
+            # for) points sharing its weight: it then passes the rule as the rows it stands for do.
+            points = np.minimum(counts, self.sampled_rows_needed())
+            self.sample.add_weighted(np.repeat(values, points), np.repeat(counts / points, points))
             self.track_range(values)
 
     def summarise(self, valid: pa.Array | pa.ChunkedArray, values: np.ndarray | None) -> None:
@@ -327,7 +324,7 @@ class ColumnProfiler:
         starts = np.concatenate([[0], np.flatnonzero(points[1:] != points[:-1]) + 1])
         sums = np.add.reduceat(weights, starts)
         sizes = np.diff(np.append(starts, points.size))
-        keep = np.flatnonzero((sizes >= 2) & (sums >= self.settings.min_count))
+        keep = np.flatnonzero((sizes >= self.sampled_rows_needed()) & (sums >= self.settings.min_count))
         ranked = keep[np.argsort(-sums[keep], kind="stable")][: self.settings.top]  # ties stay in value order
         heaviest = float(weights.max())
         return {
@@ -336,6 +333,13 @@ class ColumnProfiler:
             "complete": False,
             "error": int(math.ceil(2 * heaviest + self.sample.rank_error * (self.rows - self.nulls))),  # type: ignore[union-attr]
         }
+
+    def sampled_rows_needed(self) -> int:
+        """Sampled points a value needs to be listed. Each strided point is a row of its own, so
+        a value seen in `min_count` of them is held by at least `min_count` rows: the privacy
+        rule holds for estimated columns too (a compaction picks a value k times only when its
+        weight spans k - 1 of the new spacings, about 2(k - 1) of the old points)."""
+        return max(2, self.settings.min_count)
 
     def bounds_exact(self, values: np.ndarray, counts: np.ndarray) -> list[Any] | None:
         if self.kind not in ("integer", "float", "temporal") or len(values) == 0:
