@@ -55,31 +55,30 @@ def test_malformed_csv_row_names_file_and_line(tmp_path: Path) -> None:
     assert f"{path}:4: malformed CSV row (expected 2 fields, found 3)" in line
 
 
-@pytest.mark.parametrize("compressed", [False, True])
-def test_malformed_row_in_a_later_piece_names_its_line(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, compressed: bool) -> None:
-    monkeypatch.setattr(readers, "_CSV_BLOCK", 64)  # the file is parsed in many pieces
+def _pieced_csv(path: Path, replace: tuple[int, str], compressed: bool) -> Path:
+    """A 60-line CSV (header `a,b`, integer rows) with one line replaced, plain or gzipped."""
     lines = ["a,b"] + [f"{i},{i * 2}" for i in range(1, 60)]
-    lines[47] = "9,9,9"
+    lines[replace[0] - 1] = replace[1]
     text = "\n".join(lines) + "\n"
-    path = tmp_path / ("bad.csv.gz" if compressed else "bad.csv")
+    path = path.with_name(path.name + (".gz" if compressed else ""))
     if compressed:
         path.write_bytes(gzip.compress(text.encode()))
     else:
         path.write_text(text)
+    return path
+
+
+@pytest.mark.parametrize("compressed", [False, True])
+def test_malformed_row_in_a_later_piece_names_its_line(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, compressed: bool) -> None:
+    monkeypatch.setattr(readers, "_CSV_BLOCK", 64)  # the file is parsed in many pieces
+    path = _pieced_csv(tmp_path / "bad.csv", (48, "9,9,9"), compressed)
     assert f"{path}:48: malformed CSV row (expected 2 fields, found 3)" in _error_line(_profile(tmp_path, path))
 
 
 @pytest.mark.parametrize("compressed", [False, True])
 def test_value_of_another_type_in_a_later_piece_names_its_line(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, compressed: bool) -> None:
     monkeypatch.setattr(readers, "_CSV_BLOCK", 64)  # the first piece decides that `a` holds integers
-    lines = ["a,b"] + [f"{i},{i * 2}" for i in range(1, 60)]
-    lines[51] = "many,3"
-    text = "\n".join(lines) + "\n"
-    path = tmp_path / ("mixed.csv.gz" if compressed else "mixed.csv")
-    if compressed:
-        path.write_bytes(gzip.compress(text.encode()))
-    else:
-        path.write_text(text)
+    path = _pieced_csv(tmp_path / "mixed.csv", (52, "many,3"), compressed)
     line = _error_line(_profile(tmp_path, path))
     assert f"{path}:52: " in line and "invalid value 'many'" in line and "first part decided" in line
 

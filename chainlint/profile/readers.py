@@ -159,7 +159,7 @@ def open_dataset(arguments: Sequence[str], batch_rows: int = BATCH_ROWS) -> Data
     digests = [pool.submit(_sha256, path) for path in files]
     pool.shutdown(wait=False)
     try:
-        schema, batches, expected = _open_files(kind, paths, files, batch_rows)
+        schema, batches, expected = _open_files(kind, paths, files, [d.bytes for d in described], batch_rows)
         _check_columns(schema, files[0])
     except DataError:
         for digest in digests:
@@ -168,14 +168,15 @@ def open_dataset(arguments: Sequence[str], batch_rows: int = BATCH_ROWS) -> Data
     return Dataset(schema, described, kind, batches, digests, expected)
 
 
-def _open_files(kind: str, paths: Sequence[str], files: list[str], batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
+def _open_files(
+    kind: str, paths: Sequence[str], files: list[str], sizes: list[int], batch_rows: int,
+) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     if kind == "parquet" and any(os.path.isdir(p) for p in paths):
         return _open_parquet_dataset(paths, batch_rows)
     if kind == "csv":
         # Opening a CSV file parses its first piece: later files are opened only when reached,
         # so that memory stays bounded however many files are given.
         schema, first, rows = _open_csv(files[0], batch_rows)
-        sizes = [os.path.getsize(f) for f in files]
         expected = None if rows is None else round(rows * sum(sizes) / max(sizes[0], 1))
         return schema, _chain_csv(files, schema, first, batch_rows), expected
     opener = {"parquet": _open_parquet, "arrow": _open_arrow, "jsonl": _open_jsonl}[kind]
@@ -223,7 +224,8 @@ def _open_csv(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table]
     names and types. Values may not contain line breaks (as with pyarrow's
     `newlines_in_values=False`).
     """
-    if os.path.getsize(path) == 0:
+    size = os.path.getsize(path)
+    if size == 0:
         raise DataError(f"{path}: empty file")
     pieces = _csv_pieces(path)
     try:
@@ -236,7 +238,6 @@ def _open_csv(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table]
         raise DataError(f"{path}: column {binary[0]!r} is not valid UTF-8 text")
     schema = table.schema
     # The row count, estimated from the first piece, sets the summaries' sampling stride.
-    size = os.path.getsize(path)
     expected = None if _compressed(path) or not len(first) else round(table.num_rows * size / len(first))
 
     def stream() -> Iterator[pa.Table]:
