@@ -87,7 +87,7 @@ def _single_chain(source: str):
     return result.chains[0]
 
 
-@settings(max_examples=120, deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
+@settings(max_examples=120, deadline=None, suppress_health_check=[*settings.default.suppress_health_check, HealthCheck.filter_too_much])
 @given(method_chains())
 def test_method_chains_are_recovered_exactly(case) -> None:
     source, chosen = case
@@ -98,7 +98,7 @@ def test_method_chains_are_recovered_exactly(case) -> None:
     assert [s.movable for s in chain.steps] == [i == 0 or not form.endswith("mask") for i, (form, _, _) in enumerate(chosen)]
 
 
-@settings(max_examples=80, deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
+@settings(max_examples=80, deadline=None, suppress_health_check=[*settings.default.suppress_health_check, HealthCheck.filter_too_much])
 @given(statement_runs())
 def test_statement_runs_are_recovered_exactly(case) -> None:
     source, chosen, movable = case
@@ -114,7 +114,7 @@ def _chains_without_screen(source: str):
     return find_chains(text, parse_tree(text), Seams(None))
 
 
-@settings(max_examples=120, deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
+@settings(max_examples=120, deadline=None, suppress_health_check=[*settings.default.suppress_health_check, HealthCheck.filter_too_much])
 @given(st.one_of(method_chains(), statement_runs()), st.data())
 def test_screen_never_hides_a_chain(case, data) -> None:
     source = case[0]

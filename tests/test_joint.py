@@ -11,7 +11,7 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.compute  # noqa: F401  (pa.compute)
 from click.testing import CliRunner
-from hypothesis import HealthCheck, given, settings
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from chainlint.analysis.run import analyse_source
@@ -41,7 +41,7 @@ def correlated_frames(draw):
     return pd.DataFrame({"a": a, "b": b, "s": pd.array(s, dtype="str"), "f": f})
 
 
-@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=60, deadline=None)
 @given(correlated_frames(), st.lists(st.sampled_from(MASKS), min_size=2, max_size=5, unique=True), st.booleans(), st.booleans())
 def test_every_joint_count_equals_the_pandas_filter(frame, masks, dictionary, packed) -> None:
     source = "out = df" + "".join(f"[lambda d: {m}]" for m in masks) + "\n"

@@ -14,7 +14,7 @@ import warnings
 
 import numpy as np
 import pandas as pd
-from hypothesis import HealthCheck, assume, given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from chainlint.analysis.run import analyse_source
@@ -112,7 +112,7 @@ def _run(source: str, frame: pd.DataFrame) -> pd.DataFrame | Exception:
     return scope["out"]
 
 
-@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=150, deadline=None)
 @given(frames(), chains(), st.data())
 def test_rewritten_chain_gives_the_same_frame(frame, case, data) -> None:
     source, count = case
