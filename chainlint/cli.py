@@ -394,7 +394,7 @@ def calibrate(store: str | None, rows: int) -> None:
 @click.option("--columns", help="Comma-separated columns to load (default: all; width is part of the cost).")
 @click.option("--store", type=click.Path(file_okay=False), help="Profile store (default: the nearest .chainlint/ of FILE).")
 @click.option("--format", "output_format", type=click.Choice(["text", "json"]), default="text", show_default=True)
-@click.option("--plot", type=click.Path(dir_okay=False), help="Also draw the measurement as an SVG picture.")
+@click.option("--plot", type=click.Path(dir_okay=False), help="Also draw every measured chain in one SVG picture.")
 def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, columns: str | None, store: str | None,
             output_format: str, plot: str | None) -> None:
     """Time the written and the planned order of the chains in FILE (or the one at LINE) on real data."""
@@ -447,7 +447,7 @@ def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, col
         click.echo(measure_text(measurements), nl=False)
     if plot and measurements:
         try:
-            write_atomic(Path(plot), measurement_svg(measurements[0]))
+            write_atomic(Path(plot), measurement_svg(measurements))
         except StoreError as error:
             _fail(str(error))
     different = [m for m in measurements if not m.same_result]

@@ -58,13 +58,42 @@ def test_one_chain_by_line_and_text_output(project: Path) -> None:
     assert result.stdout.count("measured speedup") == 1
 
 
-def test_plot_is_an_svg_picture(project: Path, tmp_path: Path) -> None:
+def test_plot_draws_every_measured_chain_with_values_and_labels(project: Path, tmp_path: Path) -> None:
+    (project / "two.py").write_text(
+        'def both(frame):\n'
+        '    a = frame[frame.distance > 100].loc[lambda d: d.origin == "JFK"].query("dest == \'MIA\'")\n'
+        '    b = frame.loc[lambda d: d.dep_delay > 30].loc[lambda d: d.carrier == "UA"]\n'
+        '    return a, b\n')
+    picture = tmp_path / "m.svg"
+    result = CliRunner().invoke(main, ["measure", str(project / "two.py"), "--data", str(project / "flights.parquet"),
+                                       "--repeat", "1", "--plot", str(picture)])
+    assert result.exit_code == 0, result.output
+    svg = "{http://www.w3.org/2000/svg}"
+    root = ElementTree.parse(picture).getroot()
+    assert root.tag == f"{svg}svg"
+    texts = ["".join(t.itertext()) for t in root.iter(f"{svg}text")]
+    titles = [t for t in texts if t.startswith(str(project / "two.py"))]
+    assert [t.split(" — ")[0].rsplit(":", 1)[1] for t in titles] == ["2", "3"]   # one panel per chain
+    assert all("faster measured" in t and "estimated" in t for t in titles)
+    assert len(root.findall(f"{svg}polyline")) == 4                             # written and planned, twice
+    assert "1,000" in texts and "10,000" in texts                                # log rows axis values
+    assert "step 1: distance > 100" in texts and "step 2: carrier == 'UA'" in texts
+    assert texts.count("step 3") == 2 and texts.count("written") == 2            # bars named by step
+    assert any(t.startswith("planned: steps 3, ") for t in texts)
+
+
+def test_plot_renders(project: Path, tmp_path: Path) -> None:
+    """The picture renders with a real SVG renderer (cairosvg) into a picture with both colours."""
+    try:
+        import cairosvg
+    except (ImportError, OSError) as error:  # the package, or the cairo library it loads
+        pytest.skip(f"cairosvg cannot render here: {error}")
     picture = tmp_path / "m.svg"
     assert _measure(project, "--plot", str(picture)).exit_code == 0
-    root = ElementTree.parse(picture).getroot()
-    assert root.tag == "{http://www.w3.org/2000/svg}svg"
-    assert len(root.findall("{http://www.w3.org/2000/svg}polyline")) == 2
-    assert len(root.findall("{http://www.w3.org/2000/svg}rect")) >= 7
+    png = cairosvg.svg2png(url=str(picture))
+    assert png[:8] == b"\x89PNG\r\n\x1a\n" and len(png) > 10_000
+    text = picture.read_text()
+    assert text.count("#c0504d") > 3 and text.count("#2f6db5") > 3
 
 
 def test_bad_requests_are_clear_errors(project: Path) -> None:

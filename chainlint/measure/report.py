@@ -6,6 +6,7 @@ import json
 from collections.abc import Sequence
 
 from chainlint.measure.run import Measurement, OrderTiming
+from chainlint.units import duration
 
 
 def _order_record(timing: OrderTiming) -> dict:
@@ -44,8 +45,8 @@ def measure_text(measurements: Sequence[Measurement]) -> str:
         for name, timing in (("written", m.written), ("planned", m.planned)):
             steps = ", ".join(str(i + 1) for i in timing.order)
             rows = " -> ".join(f"{r:,}" for r in timing.rows_after)
-            per_step = ", ".join(f"{s * 1e3:.1f}" for s in timing.step_seconds)
-            lines.append(f"  {name:8} steps {steps:<14} {timing.seconds * 1e3:9.1f} ms  (per step ms: {per_step})  rows: {rows}")
+            per_step = ", ".join(duration(s) for s in timing.step_seconds)
+            lines.append(f"  {name:8} steps {steps:<14} {duration(timing.seconds):>10}  (per step: {per_step})  rows: {rows}")
         verdict = "same frame" if m.same_result else "DIFFERENT FRAMES"
         lines.append(f"  measured speedup {m.measured_speedup:.2f}x, estimated {m.estimated_speedup:.2f}x; both orders return the {verdict}")
         blocks.append("\n".join(lines))
