@@ -45,6 +45,7 @@ from chainlint.profile.store import (
     write_atomic,
 )
 from chainlint.report.check import check_json, check_lines, check_summary
+from chainlint.report.escape import printable
 from chainlint.report.explain import all_errors, explain_json, explain_text, summary
 from chainlint.report.profiles import profile_line, profile_summary
 from chainlint.report.sarif import check_sarif
@@ -113,7 +114,7 @@ def explain(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, 
         if text:
             click.echo(text)
         for error in errors:
-            click.echo(f"{error.path}:{error.line}:{error.column}: error: {error.message}", err=True)
+            click.echo(printable(f"{error.path}:{error.line}:{error.column}: error: {error.message}"), err=True)
         click.echo(summary(results, len({e.path for e in errors})))
     sys.exit(EXIT_ERROR if errors else EXIT_OK)
 
@@ -179,7 +180,7 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
         click.echo(report, nl=False)
     if output_format == "text" or output:
         for error in sorted(result.errors, key=lambda e: (e.path, e.line, e.column)):
-            click.echo(f"{error.path}:{error.line}:{error.column}: error: {error.message}", err=True)
+            click.echo(printable(f"{error.path}:{error.line}:{error.column}: error: {error.message}"), err=True)
         click.echo(check_summary(replace(result, findings=tuple(remaining)), fixed), err=show_diff or bool(output))
     failing = set(config.fail_rules or options.rules)
     sys.exit(EXIT_ERROR if result.errors else EXIT_FINDINGS if any(f.rule in failing for f in remaining) else EXIT_OK)
@@ -196,11 +197,11 @@ def _write_fixes(findings: Sequence[Finding], fixes: dict) -> list[Finding]:  # 
         if reason is None:
             written.add(path)
         else:
-            click.echo(f"{path}:1:1: warning: not rewritten: {reason}", err=True)
+            click.echo(printable(f"{path}:1:1: warning: not rewritten: {reason}"), err=True)
     remaining = []
     for finding in findings:
         if finding.rule == "reorder" and finding.fix is not None and finding.path in written:
-            click.echo(f"{finding.path}:{finding.span.line}:{finding.span.column}: fixed: reorder: steps now run as {', '.join(str(i + 1) for i in finding.order or ())}")
+            click.echo(printable(f"{finding.path}:{finding.span.line}:{finding.span.column}: fixed: reorder: steps now run as {', '.join(str(i + 1) for i in finding.order or ())}"))
         else:
             remaining.append(finding)
     return remaining
@@ -233,7 +234,7 @@ def _store(store: str | None) -> Path:
 
 
 def _fail(message: str) -> NoReturn:
-    click.echo(f"chainlint: error: {message}", err=True)
+    click.echo(f"chainlint: error: {printable(message)}", err=True)
     sys.exit(EXIT_ERROR)
 
 

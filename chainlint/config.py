@@ -9,6 +9,7 @@ and the file, with the closest known key suggested.
 from __future__ import annotations
 
 import difflib
+import os
 import tomllib
 from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
@@ -39,7 +40,10 @@ _KEYS = {f.name for f in fields(Config)} - {"source", "origins"}
 
 def find_config(start: Path) -> tuple[Path, dict[str, Any]] | None:
     """The nearest configuration file upward from `start`, with its chainlint table."""
-    folder = start.resolve()
+    try:
+        folder = start.resolve()
+    except (OSError, RuntimeError):  # a symbolic link loop: look upward from where it lies
+        folder = Path(os.path.abspath(start))
     if not folder.is_dir():
         folder = folder.parent
     for candidate in (folder, *folder.parents):

@@ -5,7 +5,8 @@ one), `__pycache__` and `site-packages`, whatever the `.gitignore` files of the 
 ignore, and the user's `--exclude` globs (gitignore syntax, matched relative to each given
 folder). Files named explicitly are always analysed; a folder named explicitly is walked even
 when git ignores it, under the `.gitignore` files inside it. Symbolic links to folders are not
-followed, so a link loop cannot trap the walk.
+followed, so a link loop cannot trap the walk; in folders, only regular files are taken (a
+FIFO named `x.py` would block the reader).
 """
 
 from __future__ import annotations
@@ -136,6 +137,8 @@ def discover(paths: Sequence[str], exclude: Iterable[str] = ()) -> Discovered:
                 if not name.endswith(".py"):
                     continue
                 path = os.path.join(folder, name)
+                if not os.path.isfile(path):  # a FIFO, socket or device named *.py: reading could block
+                    continue
                 relative = os.path.relpath(path, given).replace(os.sep, "/")
                 if excluded.match_file(relative) or rules.ignored(path, False, root):
                     continue

@@ -144,7 +144,10 @@ def _normal(value: Any) -> Any:
 def _number(value: Any) -> float | None:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         return None
-    return float(value)
+    try:
+        return float(value)
+    except OverflowError:  # an integer literal beyond the float range lies past every bound
+        return math.inf if value > 0 else -math.inf
 
 
 class Estimator:

@@ -6,7 +6,9 @@ profiler's pyarrow path never imports pandas).
 
 from __future__ import annotations
 
-from chainlint.ir import Named, Node, Opaque
+from chainlint.ir import Literal, Named, Node, Opaque
+
+_INT64 = (-(2**63), 2**63 - 1)
 
 
 class NotEvaluable(Exception):
@@ -19,6 +21,8 @@ def unevaluable(node: Node) -> str | None:
         return f"it holds code chainlint does not model (`{node.text}`)"
     if isinstance(node, Named):
         return f"it reads the name `{node.name}`, whose value is only known when the code runs"
+    if isinstance(node, Literal) and isinstance(node.value, int) and not _INT64[0] <= node.value <= _INT64[1]:
+        return "it holds an integer literal outside the 64-bit range that data columns hold"
     for child in node.children():
         reason = unevaluable(child)
         if reason:

@@ -11,6 +11,7 @@ import bisect
 import io
 import os
 import re
+import stat
 import tokenize
 from dataclasses import dataclass
 from functools import cached_property
@@ -71,7 +72,11 @@ class SourceText:
 def read_source(path: str, max_bytes: int = DEFAULT_MAX_BYTES) -> SourceText:
     """Read and decode a Python file (PEP 263 cookie or BOM respected)."""
     try:
-        with open(path, "rb") as handle:
+        # Non-blocking open, then a check of what was opened: a FIFO must not block the run.
+        descriptor = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
+        with open(descriptor, "rb") as handle:
+            if not stat.S_ISREG(os.fstat(descriptor).st_mode):
+                raise SourceError("not a regular file")
             data = handle.read(max_bytes + 1)
     except OSError as error:
         raise SourceError(f"cannot read file: {error.strerror or error}") from None

@@ -27,7 +27,10 @@ class StoreError(Exception):
 def find_store(start: str | os.PathLike[str] = ".") -> Path:
     """The nearest `.chainlint/` upward, else `.chainlint/` beside the nearest pyproject.toml,
     else `.chainlint/` in the start folder."""
-    start_path = Path(start).resolve()
+    try:
+        start_path = Path(start).resolve()
+    except (OSError, RuntimeError):  # a symbolic link loop: look upward from where it lies
+        start_path = Path(os.path.abspath(start))
     if start_path.is_file():
         start_path = start_path.parent
     for folder in (start_path, *start_path.parents):

@@ -7,6 +7,7 @@ from collections import Counter
 from typing import Any
 
 from chainlint.analysis.check import CheckResult
+from chainlint.report.escape import encodable, printable
 from chainlint.report.explain import error_record
 from chainlint.rules import Finding
 
@@ -41,15 +42,15 @@ def check_json(result: CheckResult) -> str:
         "suppressed": len(result.suppressed),
         "errors": [error_record(e) for e in sorted(result.errors, key=lambda e: (e.path, e.line, e.column))],
     }
-    return json.dumps(document, indent=2, ensure_ascii=False) + "\n"
+    return json.dumps(encodable(document), indent=2, ensure_ascii=False) + "\n"
 
 
 def check_lines(result: CheckResult) -> list[str]:
     lines = []
     for f in result.findings:
-        lines.append(f"{f.path}:{f.span.line}:{f.span.column}: {f.rule}: {f.message}")
+        lines.append(printable(f"{f.path}:{f.span.line}:{f.span.column}: {f.rule}: {f.message}"))
         if f.fix_error:
-            lines.append(f"{f.path}:{f.span.line}:{f.span.column}: note: no automatic fix: {f.fix_error}")
+            lines.append(printable(f"{f.path}:{f.span.line}:{f.span.column}: note: no automatic fix: {f.fix_error}"))
     return lines
 
 

@@ -9,6 +9,7 @@ from typing import Any
 from chainlint.analysis.check import PlannedChain
 from chainlint.analysis.model import Chain, FileAnalysis, FileError, Step
 from chainlint.plan.chains import ChainPlan
+from chainlint.report.escape import encodable, printable
 
 
 def step_record(step: Step) -> dict[str, Any]:
@@ -83,7 +84,7 @@ def explain_json(planned: Sequence[PlannedChain], errors: Sequence[FileError]) -
         "chains": [planned_record(item) for item in planned],
         "errors": [error_record(e) for e in sorted(errors, key=lambda e: (e.path, e.line, e.column))],
     }
-    return json.dumps(document, indent=2, ensure_ascii=False, sort_keys=False) + "\n"
+    return json.dumps(encodable(document), indent=2, ensure_ascii=False, sort_keys=False) + "\n"
 
 
 def explain_text(planned: Sequence[PlannedChain]) -> str:
@@ -93,7 +94,7 @@ def explain_text(planned: Sequence[PlannedChain]) -> str:
 def _plan_text(item: PlannedChain) -> str:
     plan = item.plan
     if plan is None:
-        return f"  no plan: {item.binding.reason}\n"
+        return f"  no plan: {printable(item.binding.reason)}\n"
     lines = [f"  profile `{plan.binding.profile}` (by {plan.binding.how}), {plan.rows:,} rows"]
     lines += _order_table("written", plan, plan.written)
     lines += _order_table("planned", plan, plan.planned)
@@ -130,7 +131,7 @@ def _order_table(title: str, plan: ChainPlan, estimates) -> list[str]:  # type: 
 def _chain_text(chain: Chain) -> str:
     movable = sum(step.movable for step in chain.steps)
     form = "statement run" if chain.form == "statements" else "method chain"
-    head = (
+    head = printable(
         f"{chain.path}:{chain.span.line}:{chain.span.column}: {form} on `{chain.frame}`, "
         f"{len(chain.steps)} steps, {movable} movable"
     )
@@ -138,10 +139,10 @@ def _chain_text(chain: Chain) -> str:
     notes: dict[int, str] = {}
     for number, step in enumerate(chain.steps, start=1):
         rows.append(
-            (str(number), f"{step.span.line}:{step.span.column}", step.kind, "yes" if step.movable else "no", step.predicate.canonical())
+            (str(number), f"{step.span.line}:{step.span.column}", step.kind, "yes" if step.movable else "no", printable(step.predicate.canonical()))
         )
         if step.barrier:
-            notes[number] = step.barrier.reason
+            notes[number] = printable(step.barrier.reason)
     widths = [max(len(row[i]) for row in rows) for i in range(4)]
     lines = [head]
     for index, row in enumerate(rows):

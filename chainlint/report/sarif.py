@@ -17,6 +17,7 @@ from urllib.parse import quote
 from chainlint import __version__
 from chainlint.analysis.check import CheckResult
 from chainlint.analysis.model import Span
+from chainlint.report.escape import encodable
 from chainlint.rules import CATALOG, Finding
 
 SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
@@ -24,8 +25,9 @@ BASE = "SRCROOT"
 
 
 def _uri(path: str) -> str:
+    """The path's own bytes, percent-encoded (RFC 3986): exact for any name the file system holds."""
     relative = os.path.relpath(path)
-    return quote(relative.replace(os.sep, "/"))
+    return quote(os.fsencode(relative.replace(os.sep, "/")))
 
 
 def _region(span: Span) -> dict[str, int]:
@@ -92,4 +94,4 @@ def check_sarif(result: CheckResult, rules: Sequence[str]) -> str:
         "results": [_result(f, index, levels) for f in result.findings],
         "invocations": [{"executionSuccessful": not result.errors, "toolExecutionNotifications": notifications}],
     }
-    return json.dumps({"$schema": SCHEMA, "version": "2.1.0", "runs": [run]}, indent=2, ensure_ascii=False) + "\n"
+    return json.dumps(encodable({"$schema": SCHEMA, "version": "2.1.0", "runs": [run]}), indent=2, ensure_ascii=False) + "\n"

@@ -18,6 +18,7 @@ from dataclasses import dataclass, replace
 from chainlint.analysis.model import Chain, FileAnalysis
 from chainlint.analysis.run import text_digest
 from chainlint.parse.source import SourceError, SourceText, read_source
+from chainlint.report.escape import printable
 from chainlint.rewrite.permute import Edit, RewriteError, apply_edits, chain_edit
 from chainlint.rewrite.verify import verify
 from chainlint.rules import Finding
@@ -101,7 +102,7 @@ def _verified(source: SourceText, items: list[tuple[Finding, Chain, Edit]],
 
 def unified_diff(fix: FileFix) -> str:
     assert fix.source is not None and fix.new_text is not None
-    name = os.path.relpath(fix.path)
+    name = printable(os.path.relpath(fix.path))
     return "".join(
         difflib.unified_diff(
             fix.source.text.splitlines(keepends=True),
