@@ -76,18 +76,16 @@ def test_permission_denied(tmp_path: Path) -> None:
 
 def test_permission_denied_as_reported_by_the_system(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     # Root cannot be denied by file modes, so the operating system's answer is stood in for.
-    import builtins
-
     path = tmp_path / "secret.py"
     path.write_text(GOOD)
-    real_open = builtins.open
+    real_open = os.open
 
     def denying_open(file, *args, **kwargs):  # type: ignore[no-untyped-def]
         if str(file) == str(path):
             raise PermissionError(13, "Permission denied", str(file))
         return real_open(file, *args, **kwargs)
 
-    monkeypatch.setattr(builtins, "open", denying_open)
+    monkeypatch.setattr(os, "open", denying_open)
     assert "Permission denied" in _single_error(path)[2]
 
 
