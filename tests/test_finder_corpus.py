@@ -1,6 +1,6 @@
 """The finder over a fixture corpus of every step form and every non-chain.
 
-Each chain in `fixtures/finder/forms.py` is announced by a `# expect:` comment on the line
+Each chain in the files of `fixtures/finder/` is announced by a `# expect:` comment on the line
 above it; `non_chains.py` must yield nothing.
 """
 
@@ -28,8 +28,9 @@ def _expectations(path: Path) -> dict[int, list[tuple[str, bool]]]:
     return expected
 
 
-def test_every_form_is_found_with_its_predicates_and_barriers() -> None:
-    path = FIXTURES / "forms.py"
+@pytest.mark.parametrize("name", sorted(p.name for p in FIXTURES.glob("*.py") if p.name != "non_chains.py"))
+def test_every_form_is_found_with_its_predicates_and_barriers(name: str) -> None:
+    path = FIXTURES / name
     expected = _expectations(path)
     result = analyse_file(str(path))
     assert result.errors == ()

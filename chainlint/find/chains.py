@@ -11,6 +11,7 @@ import ast
 from dataclasses import dataclass
 
 from chainlint.analysis.model import Chain, Span, Step
+from chainlint.find.bindings import ModuleBindings, Resolved
 from chainlint.find.origins import Origins, keep_comment, profile_comment
 from chainlint.find.predicates import dotted_name
 from chainlint.find.screen import Seams
@@ -20,7 +21,7 @@ from chainlint.parse.source import SourceText
 
 def find_chains(source: SourceText, tree: ast.Module, seams: Seams) -> list[Chain]:
     """All chains of the module, in source order."""
-    finder = _Finder(source, seams, _module_names(tree))
+    finder = _Finder(source, seams, _module_names(tree), ModuleBindings(tree))
     finder.block(tree.body)
     return sorted(finder.chains, key=lambda c: (c.span.line, c.span.column))
 
@@ -57,8 +58,11 @@ class _Decomposed:
 
 
 class _Finder:
-    def __init__(self, source: SourceText, seams: Seams, names: Names) -> None:
+    def __init__(self, source: SourceText, seams: Seams, names: Names, bindings: ModuleBindings) -> None:
         self.source = source
+        self.bindings = bindings
+        #: The scope (function, lambda or class node; None for the module) of the code walked.
+        self.scope: ast.AST | None = None
         self.seams = seams
         self.names = names
         self.chains: list[Chain] = []
@@ -115,15 +119,21 @@ class _Finder:
             self.origins.record(statement)
 
     def scoped(self, definition: ast.FunctionDef | ast.AsyncFunctionDef | ast.ClassDef) -> None:
-        if not self.seams.meets(definition.lineno, definition.end_lineno or definition.lineno):
+        first = min([definition.lineno] + [d.lineno for d in definition.decorator_list])
+        if not self.seams.meets(first, definition.end_lineno or definition.lineno):
             return
         for decorator in definition.decorator_list:
             self.expression(decorator)
-        if not isinstance(definition, ast.ClassDef):
+        if isinstance(definition, ast.ClassDef):
+            for base in [*definition.bases, *(k.value for k in definition.keywords)]:
+                self.expression(base)
+        else:
             for default in definition.args.defaults + [d for d in definition.args.kw_defaults if d is not None]:
                 self.expression(default)
         self.origins.enter(definition if not isinstance(definition, ast.ClassDef) else None)
+        outer, self.scope = self.scope, definition
         self.block(definition.body)
+        self.scope = outer
         self.origins.leave()
 
     def node(self, node: ast.AST) -> None:
@@ -143,20 +153,25 @@ class _Finder:
                 self.node(value)
 
     def expression(self, root: ast.expr) -> None:
-        stack: list[ast.AST] = [root]
+        """Find the method chains of an expression; a chain inside a lambda reads its scope."""
+        outer = self.scope
+        stack: list[tuple[ast.AST, ast.AST | None]] = [(root, outer)]
         while stack:
-            node = stack.pop()
+            node, self.scope = stack.pop()
             if isinstance(node, ast.expr) and not self.seams.meets(node.lineno, node.end_lineno or node.lineno):
                 continue
+            inner = node if isinstance(node, ast.Lambda) else self.scope
             decomposed = self.decompose(node)
             if decomposed is None:
-                stack.extend(ast.iter_child_nodes(node))
+                stack.extend((child, inner) for child in ast.iter_child_nodes(node))
                 continue
             if id(node) not in self.absorbed and len(decomposed.shapes) >= 2:
                 self.chains.append(self.method_chain(node, decomposed))
-            stack.append(decomposed.base)
+            stack.append((decomposed.base, self.scope))
             for shape in decomposed.shapes:
-                stack.extend(_arguments(shape.node))
+                lambda_scope = shape.arg if isinstance(shape.arg, ast.Lambda) else self.scope
+                stack.extend((argument, lambda_scope if argument is shape.arg else self.scope) for argument in _arguments(shape.node))
+        self.scope = outer
 
     def decompose(self, node: ast.AST) -> _Decomposed | None:
         shapes = []
@@ -195,10 +210,20 @@ class _Finder:
                     return found
         return None
 
+    def resolver(self):  # type: ignore[no-untyped-def]
+        bindings, scope = self.bindings, self.scope
+
+        def resolve(name: str) -> Resolved:
+            return bindings.resolve(name, scope)
+
+        return resolve
+
     def steps(
-        self, decomposed: _Decomposed, own: str | None, outer: frozenset[str], statement: int
+        self, decomposed: _Decomposed, own: str | None, outer: frozenset[str], statement: int,
+        assigned: frozenset[str] = frozenset(),
     ) -> tuple[Step, ...]:
         built = []
+        resolve = self.resolver()
         for index, shape in enumerate(decomposed.shapes):
             context = StepContext(
                 own=own if index == 0 else None,
@@ -208,6 +233,8 @@ class _Finder:
                 span_of=self.node_span,
                 span=self.step_span(shape),
                 statement=statement,
+                resolve=resolve,
+                assigned=assigned,
             )
             built.append(build_step(shape, context))
         return tuple(built)
@@ -241,10 +268,11 @@ class _Finder:
         first_base = members[0][1].base
         root = dotted_name(first_base)
         steps: list[Step] = []
+        assigned = frozenset(statement.targets[0].id for statement, _ in members)  # type: ignore[attr-defined]
         for number, (_, decomposed) in enumerate(members):
             own = dotted_name(decomposed.base)
             outer = frozenset(name for name in (root, own) if name)
-            steps.extend(self.steps(decomposed, own, outer, statement=number))
+            steps.extend(self.steps(decomposed, own, outer, statement=number, assigned=assigned))
         start = self.node_span(members[0][0])
         end = self.node_span(members[-1][0])
         span = Span(start.line, start.column, end.end_line, end.end_column)

@@ -256,6 +256,9 @@ class _Converter:
         return Arith(op, self.value(expr.left), self.value(expr.right))
 
     def on_Compare(self, expr: ast.Compare) -> Node:
+        if len(expr.ops) > 1 and not self.dialect.query:
+            # Python evaluates `a < b < c` as `a < b and b < c`: the truth value of a Series raises.
+            return self.unknown(expr, "a chained comparison raises on a Series (`and` asks for one truth value)")
         parts: list[Node] = []
         left_expr = expr.left
         for op, right_expr in zip(expr.ops, expr.comparators):

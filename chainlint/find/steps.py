@@ -12,11 +12,15 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from chainlint.analysis.model import Barrier, Span, Step
+from chainlint.find.bindings import Resolved
 from chainlint.find.predicates import Converted, Dialect, convert, dotted_name
 from chainlint.find.query import convert_query
+from chainlint.find.values import settle
 from chainlint.ir import Column, NullTest, Opaque, make_and, make_or
 
 _MASK_TOPS = (ast.Compare, ast.BinOp, ast.UnaryOp, ast.Call)
+#: `query` keywords that change where the names of the text resolve.
+_QUERY_SCOPES = ("local_dict", "global_dict", "resolvers", "level")
 _NOT_A_FRAME_ATTRIBUTE = frozenset({"iloc", "iat", "at", "ix", "str", "dt", "cat", "sparse", "plot"})
 
 
@@ -146,6 +150,8 @@ class StepContext:
     span_of: Callable[[ast.AST], Span]
     span: Span
     statement: int
+    resolve: Callable[[str], Resolved]
+    assigned: frozenset[str] = frozenset()
 
 
 def build_step(shape: Shape, context: StepContext) -> Step:
@@ -163,12 +169,15 @@ def build_step(shape: Shape, context: StepContext) -> Step:
         converted = _convert_query_step(shape, context)
     else:
         converted = _convert_dropna(shape, context)
-    barriers = extra + converted.barriers
-    barrier = Converted(converted.node, barriers, converted.frame_wide).barrier
+    predicate, named = settle(converted.node, context.resolve, context.assigned)
+    barriers = extra + converted.barriers + named
+    if not barriers and not predicate.columns():
+        barriers.append(Barrier("opaque", "reads no column of the frame it filters"))
+    barrier = Converted(predicate, barriers, converted.frame_wide).barrier
     return Step(
         kind=shape.kind,
         span=context.span,
-        predicate=converted.node,
+        predicate=predicate,
         barrier=barrier,
         mask_frame=mask_frame,
         statement=context.statement,
@@ -218,9 +227,18 @@ def _convert_lambda(arg: ast.expr | None, context: StepContext) -> Converted:
 
 def _convert_query_step(shape: Shape, context: StepContext) -> Converted:
     arg = shape.arg
+    assert isinstance(shape.node, ast.Call)
+    scoped = [k.arg for k in shape.node.keywords if k.arg in _QUERY_SCOPES]
     if isinstance(arg, ast.Constant) and isinstance(arg.value, str):
         names = context.names
-        return convert_query(arg.value, names.pandas, dict(names.pandas_functions))
+        converted = convert_query(arg.value, names.pandas, dict(names.pandas_functions))
+        parser = _keyword(shape.node, "parser")
+        if parser is not None and not (isinstance(parser, ast.Constant) and parser.value == "pandas"):
+            converted.barriers.append(Barrier("opaque", "`parser=` other than 'pandas' reads `&` and `|` with another precedence"))
+        if scoped:
+            reason = f"names in the query resolve through `{scoped[0]}=`, which chainlint does not follow"
+            converted.barriers.append(Barrier("foreign", reason))
+        return converted
     assert arg is not None
     text = context.text_of(arg)
     return Converted(Opaque(text), [Barrier("opaque", "the query text is built at run time")], False)
