@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import fnmatch
+import os
 import sys
 import time
 from collections.abc import Sequence
@@ -50,6 +51,7 @@ from chainlint.report.explain import all_errors, explain_json, explain_text, sum
 from chainlint.report.profiles import profile_line, profile_summary
 from chainlint.report.sarif import check_sarif
 from chainlint.rules import Finding
+from chainlint.writer import WriteError, remove_stale_temporaries, write_file
 
 EXIT_OK, EXIT_FINDINGS, EXIT_ERROR = 0, 1, 2
 
@@ -141,11 +143,15 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
     Exit status: 0 without findings (or when --fix fixed them all), 1 with findings,
     2 when a file or profile could not be read.
     """
+    if show_diff and write:
+        raise click.UsageError("--diff shows the fixes and changes nothing, --fix writes them: give one or the other")
     config = _config(
         paths, store=store, exclude=tuple(exclude) or None, min_gain=min_gain, min_saving_ms=min_saving_ms,
         rules=tuple(rules) or None, fail_rules=tuple(fail_rules) or None,
     )
     results, discovery_errors = _analyse(paths, config.exclude, max_file_size, jobs)
+    if output and any(_same_file(output, r.path) for r in results):
+        _fail(f"--output {output} is one of the files analysed; give a report file that is not a source")
     options = replace(options_from(config), rows=rows)
     result = run_check(results, options)
     fixes: dict = {}  # type: ignore[type-arg]
@@ -173,8 +179,8 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
         report = "".join(line + "\n" for line in check_lines(replace(result, findings=tuple(remaining))))
     if output:
         try:
-            write_atomic(Path(output), report)
-        except StoreError as error:
+            write_file(output, report.encode("utf-8"))
+        except WriteError as error:
             _fail(str(error))
     else:
         click.echo(report, nl=False)
@@ -190,12 +196,20 @@ def _write_fixes(findings: Sequence[Finding], fixes: dict) -> list[Finding]:  # 
     """Write every file that has a verified rewrite; the findings that remain unfixed."""
     from chainlint.rewrite.fixes import write_fix
 
+    for folder in sorted({os.path.dirname(os.path.realpath(path)) for path in fixes}):
+        remove_stale_temporaries(folder)
     written: set[str] = set()
+    done: dict[str, str] = {}  # the real file -> the new text already written to it
     for path in sorted(fixes):
         fix = fixes[path]
+        real = os.path.realpath(path)
+        if fix.new_text is not None and done.get(real) == fix.new_text:
+            written.add(path)  # the same file under another name (a link), rewritten already
+            continue
         reason = fix.error if fix.new_text is None else write_fix(fix)
         if reason is None:
             written.add(path)
+            done[real] = fix.new_text
         else:
             click.echo(printable(f"{path}:1:1: warning: not rewritten: {reason}"), err=True)
     remaining = []
@@ -205,6 +219,13 @@ def _write_fixes(findings: Sequence[Finding], fixes: dict) -> list[Finding]:  # 
         else:
             remaining.append(finding)
     return remaining
+
+
+def _same_file(first: str, second: str) -> bool:
+    try:
+        return os.path.samefile(first, second)
+    except OSError:
+        return False
 
 
 class _Progress:

@@ -1,7 +1,7 @@
 """The profile store: `.chainlint/` beside the project, holding `profiles/NAME.json`.
 
-Writes go to a temporary file in the same folder and are renamed into place, so a profile is
-either the old one or the new one, never half of each.
+Writes go through `chainlint.writer`: a temporary file in the same folder renamed into place,
+so a profile is either the old one or the new one, never half of each.
 """
 
 from __future__ import annotations
@@ -10,11 +10,11 @@ import json
 import os
 import re
 import secrets
-import tempfile
 from pathlib import Path
 from typing import Any
 
 from chainlint.profile.format import ProfileError, dumps, loads
+from chainlint.writer import WriteError, write_file
 
 STORE_FOLDER = ".chainlint"
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]*$")
@@ -27,10 +27,7 @@ class StoreError(Exception):
 def find_store(start: str | os.PathLike[str] = ".") -> Path:
     """The nearest `.chainlint/` upward, else `.chainlint/` beside the nearest pyproject.toml,
     else `.chainlint/` in the start folder."""
-    try:
-        start_path = Path(start).resolve()
-    except (OSError, RuntimeError):  # a symbolic link loop: look upward from where it lies
-        start_path = Path(os.path.abspath(start))
+    start_path = Path(os.path.abspath(start))  # a linked module belongs to the project it is linked into
     if start_path.is_file():
         start_path = start_path.parent
     for folder in (start_path, *start_path.parents):
@@ -53,25 +50,15 @@ def profile_path(store: Path, name: str) -> Path:
 
 
 def write_atomic(path: Path, text: str) -> None:
-    """Write `text` to `path` via a temporary file and an atomic rename."""
+    """Write `text` to `path` through chainlint's one writer (atomic for regular files)."""
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
-        handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
     except OSError as error:
         raise StoreError(f"{path.parent}: cannot write: {error.strerror}") from None
     try:
-        with os.fdopen(handle, "w", encoding="utf-8", newline="\n") as out:
-            out.write(text)
-            out.flush()
-            os.fsync(out.fileno())
-        if path.exists():
-            os.chmod(temporary, path.stat().st_mode & 0o777)
-        else:
-            os.chmod(temporary, 0o644)
-        os.replace(temporary, path)
-    except OSError as error:
-        os.unlink(temporary)
-        raise StoreError(f"{path}: cannot write: {error.strerror}") from None
+        write_file(path, text.encode("utf-8"))
+    except WriteError as error:
+        raise StoreError(str(error)) from None
 
 
 def load_profile(path: Path) -> dict[str, Any]:

@@ -1,27 +1,28 @@
 """Attach a verified edit to every `reorder` finding, and write the edits safely.
 
-Writing: the file is read again and must be the text that was analysed; the new text goes to
-a temporary file in the same folder with the original's encoding (BOM and coding cookie
-included), newline style and permission bits, and replaces the original atomically. If the
-file changed on disk meanwhile, or any check fails, nothing is written and the reason is given.
+Writing: the file is read again and must be the text that was analysed; the new text, in the
+original's encoding (BOM and coding cookie included) and newline style, goes through
+`chainlint.writer` (atomic replace keeping owner, mode and extended attributes; links written
+through; a last check for edits right before the rename). If the file changed on disk
+meanwhile, or any check fails, nothing is written and the reason is given.
 """
 
 from __future__ import annotations
 
 import difflib
 import os
-import tempfile
 from collections import defaultdict
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
 
 from chainlint.analysis.model import Chain, FileAnalysis
 from chainlint.analysis.run import text_digest
-from chainlint.parse.source import SourceError, SourceText, read_source
+from chainlint.parse.source import SourceError, SourceText, decode_source, read_source
 from chainlint.report.escape import printable
 from chainlint.rewrite.permute import Edit, RewriteError, apply_edits, chain_edit
 from chainlint.rewrite.verify import verify
 from chainlint.rules import Finding
+from chainlint.writer import WriteError, read_snapshot, write_file
 
 
 @dataclass(frozen=True)
@@ -114,31 +115,23 @@ def unified_diff(fix: FileFix) -> str:
 
 
 def write_fix(fix: FileFix) -> str | None:
-    """Write one file's rewrite atomically; the reason when it was not written."""
+    """Write one file's rewrite through chainlint's writer; the reason when it was not written.
+
+    The file is read again and must still be the text analysed; the writer checks it once more
+    right before its atomic rename, so an edit saved meanwhile is never overwritten.
+    """
     assert fix.source is not None and fix.new_text is not None
-    path = fix.path
     try:
-        current = read_source(path)
-        status = os.stat(path)
-    except (SourceError, OSError) as error:
-        return f"cannot read it again: {getattr(error, 'message', error)}"
+        data, snapshot = read_snapshot(fix.path)
+        current = decode_source(fix.path, data)
+    except OSError as error:
+        return f"cannot read it again: {error.strerror or error}"
+    except SourceError as error:
+        return f"cannot read it again: {error.message}"
     if current.text != fix.source.text:
         return "the file changed on disk since it was read; left alone"
-    data = fix.new_text.encode(fix.source.encoding)
-    folder = os.path.dirname(os.path.abspath(path))
     try:
-        handle, temporary = tempfile.mkstemp(prefix=f".{os.path.basename(path)}.", suffix=".chainlint", dir=folder)
-    except OSError as error:
-        return f"cannot write in {folder}: {error.strerror}"
-    try:
-        with os.fdopen(handle, "wb") as out:
-            out.write(data)
-            out.flush()
-            os.fsync(out.fileno())
-        os.chmod(temporary, status.st_mode & 0o7777)
-        os.replace(temporary, path)
-    except OSError as error:
-        if os.path.exists(temporary):
-            os.unlink(temporary)
-        return f"cannot write: {error.strerror}"
+        write_file(fix.path, fix.new_text.encode(fix.source.encoding), expected=snapshot)
+    except WriteError as error:
+        return error.reason
     return None
