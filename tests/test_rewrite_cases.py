@@ -18,10 +18,10 @@ from chainlint.rewrite.permute import RewriteError, apply_edits, chain_edit
 from chainlint.rewrite.verify import verify
 
 CASES = {
-    "one step per line, comments travel with their step": (
+    "one step per line, comments travel with their step (trailing and above)": (
         "out = (\n    scans\n    .loc[lambda d: d.a > 1]  # common\n    # a line of its own\n    .query('b == 2')  # rare\n)\n",
         (1, 0),
-        "out = (\n    scans\n    .query('b == 2')  # rare\n    # a line of its own\n    .loc[lambda d: d.a > 1]  # common\n)\n",
+        "out = (\n    scans\n    # a line of its own\n    .query('b == 2')  # rare\n    .loc[lambda d: d.a > 1]  # common\n)\n",
     ),
     "several steps on one line stay on one line": (
         "out = scans[scans.a > 1].query('b == 2').dropna(subset=['c'])  # note\n",

@@ -96,9 +96,9 @@ class _Finder:
             char = text[offset]
             if char in ".[":
                 break
-            if char == "#":
-                newline = text.find("\n", offset)
-                offset = len(text) if newline < 0 else newline
+            if char == "#":  # a comment runs to the line break, whichever the file uses
+                breaks = [i for i in (text.find("\n", offset), text.find("\r", offset)) if i >= 0]
+                offset = min(breaks) if breaks else len(text)
                 continue
             offset += 1
         line, column = source.position(offset)

@@ -38,7 +38,8 @@ class FileFix:
 def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -> tuple[list[Finding], dict[str, FileFix]]:
     """Findings with their `fix` (or `fix_error`), and the rewrite of each file concerned."""
     digests = {r.path: r.digest for r in results}
-    chains = {(c.path, c.span.line, c.span.column): c for r in results for c in r.chains}
+    # By the whole span: a chain may start where another one does (`s[a][b].f()[c][d]`).
+    chains = {(c.path, c.span): c for r in results for c in r.chains}
     by_file: dict[str, list[Finding]] = defaultdict(list)
     for finding in findings:
         if finding.rule == "reorder" and finding.order is not None:
@@ -59,12 +60,13 @@ def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -
             continue
         prepared: list[tuple[Finding, Chain, Edit]] = []
         for finding in reorders:
-            chain = chains[(path, finding.span.line, finding.span.column)]
+            chain = chains[(path, finding.span)]
             assert finding.order is not None
             try:
                 prepared.append((finding, chain, chain_edit(source, chain, finding.order)))
             except RewriteError as error:
                 updated[id(finding)] = replace(finding, fix_error=str(error))
+        prepared = _apart(prepared, updated)
         # One verification of the whole file; only when it fails is each edit tried alone,
         # to keep the good ones and say which chain could not be rewritten.
         accepted = _verified(source, prepared)
@@ -77,6 +79,20 @@ def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -
         if accepted:
             files[path] = FileFix(path, source, apply_edits(source.text, [edit for _, _, edit in accepted]))
     return [updated.get(id(f), f) for f in findings], files
+
+
+def _apart(items: list[tuple[Finding, Chain, Edit]], refusals: dict[int, Finding]) -> list[tuple[Finding, Chain, Edit]]:
+    """The edits that do not overlap an earlier one; a chain nested in another's rewritten
+    text waits for the next run (noting so), instead of spoiling every fix of the file."""
+    kept: list[tuple[Finding, Chain, Edit]] = []
+    for item in sorted(items, key=lambda item: (item[2].start, -item[2].end)):
+        holder = next((k for k in kept if item[2].start < k[2].end and k[2].start < item[2].end), None)
+        if holder is None:
+            kept.append(item)
+        else:
+            refusals[id(item[0])] = replace(item[0], fix_error=(
+                f"overlaps the rewrite of the chain at line {holder[1].span.line}; run --fix again to rewrite it"))
+    return kept
 
 
 def fix_in_text(source: SourceText, chain: Chain, order: tuple[int, ...]) -> Edit:

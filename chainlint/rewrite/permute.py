@@ -1,23 +1,32 @@
 """The edit that puts a chain's steps into a new order, and nothing else.
 
 Every step keeps its own text; the text between steps (blanks, line breaks, parentheses,
-backslash continuations, comments on lines of their own) stays where it is, so the chain keeps
-its layout. In a chain written one step per line, a step's trailing comment (`# rare`) moves
-with it. A mask that would end up filtering another frame than the one it names is written as
-a lambda over that name (`[x.b > 2]` becomes `[lambda x: x.b > 2]`), so that it is computed on
-the rows it receives instead of being realigned from another frame by index. (Masks that are
-realigned as written, outer masks, are barriers and never move.)
+backslash continuations, `x = x` of a statement run) stays where it is, so the chain keeps its
+layout. A step alone on its line owns the comment that ends that line and the comment lines
+directly above it, and they move with it; `# chainlint:` directives never move. A comment is
+never put before code: when a step lands where code follows it on the line, its comment goes
+to the end of that line, or the rewrite is refused. A mask that would end up filtering another
+frame than the one it names is written as a lambda over that name (`[x.b > 2]` becomes
+`[lambda x: x.b > 2]`), so that it is computed on the rows it receives instead of being
+realigned from another frame by index; never in a class body, where a lambda cannot see the
+class's names. (Masks that are realigned as written, outer masks, are barriers and never move.)
 """
 
 from __future__ import annotations
 
+import ast
 import re
 from dataclasses import dataclass
+from functools import lru_cache
 
 from chainlint.analysis.model import Chain, Span, Step
 from chainlint.parse.source import SourceText
 
-_TRAILING_COMMENT = re.compile(r"[ \t]*#[^\r\n]*")
+#: What may follow a step on its line for the line's comment to be the step's.
+_LINE_REST = re.compile(r"(?P<close>[ \t)\]},;]*?)(?P<comment>[ \t]*#[^\r\n]*)?")
+_DIRECTIVE = re.compile(r"#\s*chainlint:")
+#: The start of a statement of a run, before its first step: `x = x`.
+_RUN_PREFIX = re.compile(r"[ \t]*[\w.]+[ \t]*=[ \t]*[\w.]+[ \t]*")
 
 
 class RewriteError(Exception):
@@ -38,7 +47,7 @@ def _offset(source: SourceText, line: int, column: int) -> int:
     return source.line_starts[line - 1] + column - 1
 
 
-def _render(source: SourceText, step: Step, slot: Step) -> str:
+def _render(source: SourceText, step: Step, slot: Step, start: int) -> str:
     """The text of `step` when it takes the place of `slot`."""
     text = source.text[_offset(source, step.span.line, step.span.column) : _offset(source, step.span.end_line, step.span.end_column)]
     if not step.kind.endswith("mask"):
@@ -48,10 +57,84 @@ def _render(source: SourceText, step: Step, slot: Step) -> str:
     name = step.mask_name or ""
     if not name.isidentifier():
         raise RewriteError(f"the mask reads `{name}`, which cannot become a lambda parameter; write the step as a lambda")
+    if _in_class_body(source.text, start):
+        raise RewriteError(f"the mask `{name}` would become a lambda in a class body, where a lambda cannot see the class's names; write the step as a lambda")
     assert step.mask_span is not None
-    start = _offset(source, step.span.line, step.span.column)
-    mask_start = _offset(source, step.mask_span.line, step.mask_span.column) - start
+    begin = _offset(source, step.span.line, step.span.column)
+    mask_start = _offset(source, step.mask_span.line, step.mask_span.column) - begin
     return text[:mask_start] + f"lambda {name}: " + text[mask_start:]
+
+
+@dataclass
+class _Slot:
+    """A step's place in the text, with the comments it owns."""
+
+    start: int
+    end: int
+    line_end: int  # the end of the step's last line (before its line break)
+    close: int = -1  # when only closing brackets and a comment follow the step: where they end
+    trail: str = ""  # the comment ending its line, when the step owns it (blanks before it included)
+    fixed: str = ""  # the comment ending its line when the step does not own it (a directive)
+    lead_start: int = -1  # the comment lines directly above it: lead_start..anchor
+    anchor: int = -1  # the start of its line, when comment lines above it may be its own
+
+
+def _line_end(text: str, offset: int) -> int:
+    ends = [i for i in (text.find("\n", offset), text.find("\r", offset)) if i >= 0]
+    return min(ends) if ends else len(text)
+
+
+def _line_start(text: str, offset: int) -> int:
+    return max(text.rfind("\n", 0, offset), text.rfind("\r", 0, offset)) + 1
+
+
+def _slots(source: SourceText, chain: Chain) -> list[_Slot]:
+    text = source.text
+    steps = chain.steps
+    slots = []
+    for index, step in enumerate(steps):
+        start = _offset(source, step.span.line, step.span.column)
+        end = _offset(source, step.span.end_line, step.span.end_column)
+        slot = _Slot(start, end, _line_end(text, end))
+        before_alone = index == 0 or steps[index - 1].span.end_line < step.span.line
+        after_alone = index == len(steps) - 1 or steps[index + 1].span.line > step.span.end_line
+        if chain.form == "statements":
+            before_alone = before_alone and (index == 0 or steps[index - 1].statement != step.statement)
+        match = _LINE_REST.fullmatch(text, end, slot.line_end)
+        if match and after_alone:
+            slot.close = match.end("close")
+            comment = match.group("comment") or ""
+            if before_alone and not _DIRECTIVE.search(comment):
+                slot.trail = comment
+            else:
+                slot.fixed = comment
+        line_start = _line_start(text, start)
+        prefix = text[line_start:start]
+        leads = not prefix.strip() if chain.form == "method" else _RUN_PREFIX.fullmatch(prefix) is not None
+        if before_alone and after_alone and leads and (step.span.line > chain.span.line or chain.form == "statements"):
+            lead_start = _lead_start(source, step.span.line)
+            # Above a run's first statement, a `# chainlint:` comment over the comment lines
+            # would start or stop applying to the run if they moved.
+            if step.span.line > chain.span.line or not _directive_above(source, source.position(lead_start)[0]):
+                slot.anchor, slot.lead_start = line_start, lead_start
+        slots.append(slot)
+    return slots
+
+
+def _directive_above(source: SourceText, line: int) -> bool:
+    """Whether a `# chainlint:` comment is on the line above `line`."""
+    return line > 1 and _DIRECTIVE.search(source.lines[line - 2]) is not None
+
+
+def _lead_start(source: SourceText, line: int) -> int:
+    """The start of the run of comment lines (no directives) directly above `line`."""
+    first = line
+    while first > 1:
+        above = source.lines[first - 2].strip()
+        if not above.startswith("#") or _DIRECTIVE.search(above):
+            break
+        first -= 1
+    return source.line_starts[first - 1]
 
 
 def chain_edit(source: SourceText, chain: Chain, order: tuple[int, ...]) -> Edit:
@@ -69,31 +152,72 @@ def chain_edit(source: SourceText, chain: Chain, order: tuple[int, ...]) -> Edit
             raise RewriteError(f"step {index + 1} may not move: {steps[index].barrier.reason}")  # type: ignore[union-attr]
         if segment_of.get(position) != segment_of[index]:
             raise RewriteError(f"step {index + 1} may not move across a barrier")
-    starts = [_offset(source, s.span.line, s.span.column) for s in steps]
-    ends = [_offset(source, s.span.end_line, s.span.end_column) for s in steps]
     text = source.text
-    gaps = [text[ends[k] : starts[k + 1]] for k in range(len(steps) - 1)]
-    trails = [""] * len(steps)
-    one_per_line = chain.form == "method" and all("\n" in gap or "\r" in gap for gap in gaps)
-    end = ends[-1]
-    if one_per_line:
-        for k, gap in enumerate(gaps):
-            match = _TRAILING_COMMENT.match(gap)
-            if match:
-                trails[k] = match.group()
-                gaps[k] = gap[match.end() :]
-        match = _TRAILING_COMMENT.match(text, end)
-        if match:
-            trails[-1] = match.group()
-            end = match.end()
-    pieces = []
+    slots = _slots(source, chain)
+    moved_leads = any(slots[i].lead_start < slots[i].anchor for p, i in enumerate(order) if p != i)
+    first = slots[0]
+    begin = first.lead_start if moved_leads and first.anchor >= 0 else first.start
+    pieces: list[str] = []
+    cursor = begin
     for position, index in enumerate(order):
-        pieces.append(_render(source, steps[index], steps[position]) + trails[index])
-        if position < len(gaps):
-            pieces.append(gaps[position])
-    first = steps[0].span
-    end_line, end_column = source.position(end)
-    return Edit(starts[0], end, "".join(pieces), Span(first.line, first.column, end_line, end_column))
+        slot, step = slots[position], slots[index]
+        lead = text[step.lead_start : step.anchor]
+        if moved_leads and slot.anchor >= 0:
+            pieces.append(text[cursor : slot.lead_start] + lead)
+            cursor = slot.anchor
+        elif lead and index != position:
+            raise RewriteError(f"the comment above step {index + 1} cannot follow it to its new place")
+        pieces.append(text[cursor : slot.start])
+        pieces.append(_render(source, steps[index], steps[position], slot.start))
+        cursor = slot.end
+        if slot.close >= 0:
+            pieces.append(text[cursor : slot.close] + step.trail + slot.fixed)
+            cursor = slot.line_end
+        elif step.trail:
+            later = position + 1 < len(slots) and slots[position + 1].start < slot.line_end
+            rest = text[slot.end : slot.line_end]
+            if later or any(char in rest for char in "#'\"\\"):
+                raise RewriteError(f"the comment of step {index + 1} cannot follow it: code follows its new place on the line")
+            # After the code that follows the step on its new line, never before it.
+            pieces.append(rest.rstrip(" \t") + step.trail)
+            cursor = slot.line_end
+    end_line, end_column = source.position(cursor)
+    start_line, start_column = source.position(begin)
+    return Edit(begin, cursor, "".join(pieces), Span(start_line, start_column, end_line, end_column))
+
+
+@lru_cache(maxsize=8)
+def _class_bodies(text: str) -> tuple[tuple[int, int, bool], ...]:
+    """(start, end, is class body) character ranges of class bodies and of function bodies."""
+    try:
+        tree = ast.parse(text)
+    except (SyntaxError, ValueError, RecursionError, MemoryError):
+        return ((0, len(text), True),)  # unknown: assume the worst
+    lines = text.splitlines(keepends=True)
+    starts = [0]
+    for line in lines:
+        starts.append(starts[-1] + len(line))
+
+    def offset(line: int, byte_column: int) -> int:
+        return starts[line - 1] + len(lines[line - 1].encode("utf-8")[:byte_column].decode("utf-8", "replace"))
+
+    ranges = []
+    for node in ast.walk(tree):
+        if isinstance(node, (ast.ClassDef, ast.FunctionDef, ast.AsyncFunctionDef)):
+            body_first, body_last = node.body[0], node.body[-1]
+            ranges.append((offset(body_first.lineno, body_first.col_offset),
+                           offset(body_last.end_lineno or body_last.lineno, body_last.end_col_offset or 0),
+                           isinstance(node, ast.ClassDef)))
+        elif isinstance(node, ast.Lambda):
+            ranges.append((offset(node.body.lineno, node.body.col_offset),
+                           offset(node.body.end_lineno or node.body.lineno, node.body.end_col_offset or 0), False))
+    return tuple(ranges)
+
+
+def _in_class_body(text: str, offset: int) -> bool:
+    """Whether code at `offset` runs in a class body's scope (the innermost scope around it)."""
+    around = [r for r in _class_bodies(text) if r[0] <= offset < r[1]]
+    return bool(around) and min(around, key=lambda r: r[1] - r[0])[2]
 
 
 def apply_edits(text: str, edits: list[Edit]) -> str:

@@ -2,19 +2,24 @@
 
 In the spirit of a formatter's AST-equivalence check: the new file must parse with `ast`, and
 every rewritten top-level statement with libcst (the rest is text the edit did not touch);
-outside the rewritten chains its `ast` must equal the original's (top-level
-statements that hold no chain must keep their exact text); and the finder, run again, must see
-each chain with the same predicates in the planned order and its barriers where they were.
+a rewritten statement must keep every token outside the chain's steps and every comment (a
+comment that swallowed code, or moved before it, changes both), and its `ast` outside the
+chains; top-level statements that hold no chain must keep their exact text, and the comments
+between statements must stay the same; the finder, run again, must see each chain with the
+same predicates in the planned order, its barriers where they were and its `# chainlint:`
+comments still applying.
 """
 
 from __future__ import annotations
 
 import ast
+import tokenize
+from collections import Counter
 from collections.abc import Sequence
 
 import libcst
 
-from chainlint.analysis.model import Chain
+from chainlint.analysis.model import Chain, Span
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import find_seams
 from chainlint.parse.source import SourceError, SourceText, parse_tree, text_source
@@ -27,18 +32,18 @@ class _Blank(ast.NodeTransformer):
     """Replace each chain with a placeholder name, so that the rest can be compared."""
 
     def __init__(self, source: SourceText, chains: Sequence[Chain]) -> None:
-        self.starts: set[tuple[int, int]] = set()
+        self.spans: set[tuple[int, int, int, int]] = set()
         self.runs: list[tuple[int, int]] = []
         for chain in chains:
             if chain.form == "statements":
                 self.runs.append((chain.span.line, chain.span.end_line))
             else:
-                line = source.lines[chain.span.line - 1]
-                self.starts.add((chain.span.line, len(line[: chain.span.column - 1].encode("utf-8"))))
+                span = chain.span
+                self.spans.add((span.line, _byte_column(source, span.line, span.column),
+                                span.end_line, _byte_column(source, span.end_line, span.end_column)))
 
     def visit(self, node: ast.AST) -> ast.AST:
-        if isinstance(node, (ast.Subscript, ast.Call)) and (node.lineno, node.col_offset) in self.starts:
-            self.starts.discard((node.lineno, node.col_offset))
+        if isinstance(node, (ast.Subscript, ast.Call)) and (node.lineno, node.col_offset, node.end_lineno, node.end_col_offset) in self.spans:
             return ast.Name(id=_PLACEHOLDER, ctx=ast.Load())
         if isinstance(node, ast.Assign) and any(first <= node.lineno <= last for first, last in self.runs):
             node.value = ast.Name(id=_PLACEHOLDER, ctx=ast.Load())
@@ -46,8 +51,26 @@ class _Blank(ast.NodeTransformer):
         return self.generic_visit(node)
 
 
-def _chain_at(chains: Sequence[Chain], line: int, column: int) -> Chain | None:
-    return next((c for c in chains if (c.span.line, c.span.column) == (line, column)), None)
+def _byte_column(source: SourceText, line: int, column: int) -> int:
+    return len(source.lines[line - 1][: column - 1].encode("utf-8"))
+
+
+def _found_again(found: Sequence[Chain], chain: Chain, order: tuple[int, ...], used: set[int]) -> Chain:
+    """The chain of the new text that is `chain` in the planned order: same form and steps,
+    nearest to where it was (an edit moves no line outside the chain's own text)."""
+    expected = [chain.steps[i] for i in order]
+    candidates = [
+        again for again in found
+        if id(again) not in used and again.form == chain.form and len(again.steps) == len(expected)
+        and all(a.predicate == b.predicate and a.movable == b.movable for a, b in zip(expected, again.steps))
+    ]
+    if not candidates:
+        raise RewriteError(f"after rewriting, the chain at line {chain.span.line} is not found again with its steps in the planned order")
+    again = min(candidates, key=lambda c: (abs(c.span.line - chain.span.line), abs(c.span.column - chain.span.column)))
+    if (again.profile_comment, again.keep) != (chain.profile_comment, chain.keep):
+        raise RewriteError(f"after rewriting, the chain at line {chain.span.line} would lose its `# chainlint:` comment")
+    used.add(id(again))
+    return again
 
 
 def verify(old: SourceText, new_text: str, rewritten: Sequence[tuple[Chain, tuple[int, ...]]]) -> None:
@@ -59,24 +82,24 @@ def verify(old: SourceText, new_text: str, rewritten: Sequence[tuple[Chain, tupl
         raise RewriteError(f"the rewritten file does not parse: {error.message}") from None
     old_chains = [chain for chain, _ in rewritten]
     found = find_chains(new, new_tree, find_seams(new_text))
-    new_chains = []
-    for chain, order in rewritten:
-        again = _chain_at(found, chain.span.line, chain.span.column)
-        if again is None or len(again.steps) != len(chain.steps):
-            raise RewriteError(f"after rewriting, the chain at line {chain.span.line} is not found again")
-        expected = [chain.steps[i] for i in order]
-        for before, after in zip(expected, again.steps):
-            if before.predicate != after.predicate or before.movable != after.movable:
-                raise RewriteError(f"after rewriting, a step of the chain at line {chain.span.line} reads differently")
-        new_chains.append(again)
+    used: set[int] = set()
+    new_chains = [_found_again(found, chain, order, used) for chain, order in rewritten]
     old_tree = parse_tree(old)
     if len(old_tree.body) != len(new_tree.body):
         raise RewriteError("the rewrite would change code outside the chain")
+    old_comments, new_comments = _fragments(_between(old, old_tree)), _fragments(_between(new, new_tree))
     old_blank, new_blank = _Blank(old, old_chains), _Blank(new, new_chains)
+    old_steps = [step.span for chain in old_chains for step in chain.steps]
+    new_steps = [step.span for chain in new_chains for step in chain.steps]
     for before, after in zip(old_tree.body, new_tree.body):
         if _touches(before, old_chains):
-            # Statements holding a chain: equal once the chains are blanked out, and the
-            # rewritten text must read through libcst, the lossless parser.
+            # Statements holding a chain: every token outside the steps unchanged (comments may
+            # move with their step, but none may change, vanish or swallow code), the same
+            # `ast` once the chains are blanked out, and the text must read through libcst.
+            old_code = _tokens(old, before, old_steps, old_comments)
+            new_code = _tokens(new, after, new_steps, new_comments)
+            if old_code != new_code:
+                raise RewriteError("the rewrite would change code outside the chain's steps")
             if ast.dump(old_blank.visit(before)) != ast.dump(new_blank.visit(after)):
                 raise RewriteError("the rewrite would change code outside the chain")
             try:
@@ -87,6 +110,8 @@ def verify(old: SourceText, new_text: str, rewritten: Sequence[tuple[Chain, tupl
             # The others are text the edit did not touch; equal text at a statement
             # boundary parses to the same tree.
             raise RewriteError("the rewrite would change code outside the chain")
+    if old_comments != new_comments:
+        raise RewriteError("the rewrite would change, lose or split a comment")
 
 
 def _touches(statement: ast.stmt, chains: Sequence[Chain]) -> bool:
@@ -96,3 +121,40 @@ def _touches(statement: ast.stmt, chains: Sequence[Chain]) -> bool:
 
 def _text(source: SourceText, statement: ast.stmt) -> str:
     return "".join(source.lines[statement.lineno - 1 : statement.end_lineno])
+
+
+def _between(source: SourceText, tree: ast.Module) -> list[str]:
+    """The non-blank lines outside every top-level statement: comments between statements."""
+    inside = [False] * (len(source.lines) + 1)
+    for statement in tree.body:
+        for line in range(statement.lineno, (statement.end_lineno or statement.lineno) + 1):
+            inside[line] = True
+    return [text.strip() for number, text in enumerate(source.lines, 1) if not inside[number] and text.strip()]
+
+
+def _fragments(comments: Sequence[str]) -> Counter[str]:
+    """Comments as the pieces between their `#`s: a step's comment may be joined to a
+    `# chainlint:` comment that stays on its line, and still be the same comment."""
+    return Counter(piece.strip() for comment in comments for piece in comment.split("#") if piece.strip())
+
+
+def _tokens(source: SourceText, statement: ast.stmt, steps: Sequence[Span], comments: Counter[str]) -> list[tuple[int, str]]:
+    """A top-level statement's tokens outside the steps; its comments are added to `comments`."""
+    first = statement.lineno
+    lines = iter([line.rstrip("\r\n") + "\n" for line in source.lines[first - 1 : statement.end_lineno]])
+    code: list[tuple[int, str]] = []
+    try:
+        for token in tokenize.generate_tokens(lambda: next(lines, "")):
+            if token.type in (tokenize.NL, tokenize.INDENT, tokenize.DEDENT, tokenize.ENDMARKER):
+                continue
+            start = (token.start[0] + first - 1, token.start[1] + 1)
+            end = (token.end[0] + first - 1, token.end[1] + 1)
+            if any((s.line, s.column) <= start and end <= (s.end_line, s.end_column) for s in steps):
+                continue
+            if token.type == tokenize.COMMENT:
+                comments.update(_fragments([token.string]))
+            else:
+                code.append((token.type, token.string))
+    except (tokenize.TokenError, SyntaxError) as error:
+        raise RewriteError(f"the rewritten code cannot be read token by token: {error}") from None
+    return code
