@@ -43,6 +43,7 @@ from chainlint.profile.store import (
     profile_path,
     redaction_key,
     save_profile,
+    sketch_key,
     write_atomic,
 )
 from chainlint.report.check import check_json, check_lines, check_summary
@@ -280,7 +281,7 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
         check_name(name)
         key = redaction_key(folder, create=bool(redact))
         settings = Settings(min_count=min_count, distinct_cap=distinct_cap, top=top,
-                            redact=frozenset(redact), redaction_key=key)
+                            redact=frozenset(redact), redaction_key=key, sketch_key=sketch_key(folder, create=True))
         dataset = open_dataset(data, batch_rows=batch_rows)
         joint = None
         if sources:
@@ -383,7 +384,7 @@ def merge(folder: Path, name: str, parts: Sequence[str]) -> None:
     try:
         check_name(name)
         documents = [load_profile(profile_path(folder, part)) for part in parts]
-        path, changed = save_profile(folder, merge_profiles(documents, name))
+        path, changed = save_profile(folder, merge_profiles(documents, name, sketch_key(folder, create=False)))
     except (ProfileError, StoreError) as error:
         _fail(str(error))
     click.echo(f"profile {name}: merged from {len(parts)} parts -> {path} ({'written' if changed else 'unchanged'})")

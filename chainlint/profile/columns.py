@@ -21,7 +21,8 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from chainlint.arrays import filled_numpy, index_array, to_numpy
-from chainlint.profile.sketches import HyperLogLog, WeightedSample, hash32, hash_strings
+from chainlint.profile.privacy import equi_depth_positions, fold_rare, safe_bounds
+from chainlint.profile.sketches import HyperLogLog, WeightedSample, hash32, hash_strings, seal
 
 
 @dataclass(frozen=True)
@@ -32,6 +33,7 @@ class Settings:
     buckets: int = 100
     redact: frozenset[str] = frozenset()
     redaction_key: bytes = b""
+    sketch_key: bytes = b""  # without one no sketch is written (it would be readable by all)
 
 
 def value_kind(arrow_type: pa.DataType) -> str:
@@ -111,8 +113,6 @@ class ColumnProfiler:
         self.counter = _Counter(self.counted_type)
         self.hll = HyperLogLog()
         self.sample: WeightedSample | None = None
-        self.low: Any = None
-        self.high: Any = None
         self.expected_rows = expected_rows
         # How clustered equal values lie in row order: value changes between consecutive
         # non-null rows (a sorted column changes rarely; kept rows then lie in runs).
@@ -210,7 +210,6 @@ class ColumnProfiler:
             # for) points sharing its weight: it then passes the rule as the rows it stands for do.
             points = np.minimum(counts, self.sampled_rows_needed())
             self.sample.add_weighted(np.repeat(values, points), np.repeat(counts / points, points))
-            self.track_range(values)
 
     def summarise(self, valid: pa.Array | pa.ChunkedArray, values: np.ndarray | None) -> None:
         """Feed non-null values to the summaries; `values` is their numpy form for numbers
@@ -220,7 +219,6 @@ class ColumnProfiler:
         if values is not None:
             self.hll.add_hashes(hash32(values))
             self.sample.add(values)
-            self.track_range(values)
             return
         self.hll.add_hashes(self.hash(valid))
         weight = float(self.sample.stride)
@@ -238,20 +236,13 @@ class ColumnProfiler:
             return hash32(to_numpy(values))
         return hash_strings(values)
 
-    def track_range(self, values: np.ndarray) -> None:
-        if values.size == 0 or self.kind == "string":
-            return
-        low, high = values.min(), values.max()
-        self.low = low if self.low is None else min(self.low, low)
-        self.high = high if self.high is None else max(self.high, high)
-
     # -- the written profile --------------------------------------------------------------
     def finish(self) -> dict[str, Any]:
         """The column's entry in the profile.
 
-        Privacy: a value with fewer than `min_count` rows is never listed; histogram bounds
-        and min/max that are not such frequent values are coarsened (3 significant digits,
-        whole days for times, outward at the ends); strings get no bounds at all.
+        Privacy: a value with fewer than `min_count` rows is never listed, nor told by the
+        complement of the listed ones; bounds follow `privacy.safe_bounds`; strings get no
+        bounds at all.
         """
         settings = self.settings
         has_nulls = self.nulls > 0
@@ -267,12 +258,13 @@ class ColumnProfiler:
             counted, counts = self.counter.table()
             self.hll.add_hashes(self.hash(counted))
             values = to_numpy(counted)
+            counts = fold_rare(counts, settings.min_count)
+            values, counts = values[counts > 0], counts[counts > 0]
             entry["distinct"] = {"value": int(len(values)), "exact": True}
             frequent = counts >= settings.min_count
             entry["top"] = self.top_exact(values, counts)
             entry["suppressed"] = {"values": int((~frequent).sum()), "rows": int(counts[~frequent].sum())}
-            bounds = self.bounds_exact(values, counts)
-            frequent_values = set(values[frequent].tolist())
+            bounds = self.bounds(values, counts.astype(np.float64), counts, frequent)
             rank_error = 0.0
             entry["clustering"] = self.clustering(counts / max(counts.sum(), 1))
         else:
@@ -284,26 +276,27 @@ class ColumnProfiler:
                 "standard_error": round(HyperLogLog.standard_error(), 6),
             }
             entry["top"] = self.top_sampled(points, weights)
-            bounds = self.bounds_sampled(points, weights)
-            frequent_values = {v for v, _ in entry["top"]["values"]}
+            bounds = None
+            if points.size:
+                starts = np.concatenate([[0], np.flatnonzero(points[1:] != points[:-1]) + 1])
+                sums = np.add.reduceat(weights, starts)
+                sizes = np.diff(np.append(starts, points.size))
+                frequent = (sizes >= self.sampled_rows_needed()) & (sums >= settings.min_count)
+                bounds = self.bounds(points[starts], sums, sizes, frequent)
             rank_error = self.sample.rank_error
             listed = np.array([c for _, c in entry["top"]["values"]], dtype=np.float64)
             entry["clustering"] = self.clustering(listed / max(self.rows - self.nulls, 1))
-        entry["sketch"] = self.hll.encode()
+        if settings.sketch_key:
+            entry["sketch"] = seal(self.hll, settings.sketch_key, self.name)
         redacted = self.name in settings.redact
         entry["redacted"] = redacted
         if redacted:
             entry["top"]["values"] = sorted([redact_value(settings.redaction_key, v), c] for v, c in entry["top"]["values"])
             return entry
         entry["top"]["values"] = [[self.output(v), c] for v, c in entry["top"]["values"]]
-        if self.kind in ("integer", "float", "temporal") and bounds is not None:
-            last = len(bounds) - 1
-            safe = [
-                self.output(b) if b in frequent_values else self.coarsen(b, -1 if i == 0 else 1 if i == last else 0)
-                for i, b in enumerate(bounds)
-            ]
-            entry["histogram"] = {"bounds": safe, "exact": self.exact, "rank_error": round(rank_error, 6)}
-            entry["min"], entry["max"] = safe[0], safe[-1]
+        if bounds is not None:
+            entry["histogram"] = {"bounds": bounds, "exact": self.exact, "rank_error": round(rank_error, 6)}
+            entry["min"], entry["max"] = bounds[0], bounds[-1]
         return entry
 
     def top_exact(self, values: np.ndarray, counts: np.ndarray) -> dict[str, Any]:
@@ -341,39 +334,20 @@ class ColumnProfiler:
         weight spans k - 1 of the new spacings, about 2(k - 1) of the old points)."""
         return max(2, self.settings.min_count)
 
-    def bounds_exact(self, values: np.ndarray, counts: np.ndarray) -> list[Any] | None:
-        if self.kind not in ("integer", "float", "temporal") or len(values) == 0:
+    def bounds(self, values: np.ndarray, weights: np.ndarray, held: np.ndarray, frequent: np.ndarray) -> list[Any] | None:
+        """Histogram bounds of sorted distinct values: `weights` rows each stands for, `held`
+        rows known to hold each (a sample's points are rows of their own)."""
+        if self.kind not in ("integer", "float", "temporal"):
             return None
-        return _equi_depth(values, counts.astype(np.float64), self.settings.buckets)
-
-    def bounds_sampled(self, points: np.ndarray, weights: np.ndarray) -> list[Any] | None:
-        if self.kind not in ("integer", "float", "temporal") or points.size == 0:
-            return None
-        bounds = _equi_depth(points, weights, self.settings.buckets)
-        bounds[0], bounds[-1] = self.low, self.high
-        return bounds
+        step = 86_400 * 10**9 // _unit_nanoseconds(self.arrow_type) if self.kind == "temporal" else 0
+        return safe_bounds(values, weights, held, frequent, self.settings.min_count, self.settings.buckets,
+                           step, self.kind != "float", self.output)
 
     def output(self, value: Any) -> Any:
         value = _plain(value)
         if self.kind == "temporal":
             return _iso(value, self.arrow_type)
         return value
-
-    def coarsen(self, value: Any, direction: int) -> Any:
-        """Round a bound that may be one row's value: down at the low end, up at the high end."""
-        value = _plain(value)
-        if self.kind == "temporal":
-            unit = _unit_nanoseconds(self.arrow_type)
-            day = 86_400 * 10**9 // unit
-            rounded = (math.floor if direction < 0 else math.ceil if direction > 0 else round)(value / day) * day
-            return _iso(int(rounded), self.arrow_type)
-        if value == 0 or not math.isfinite(value):
-            return value
-        exponent = math.floor(math.log10(abs(value))) - 2
-        scale = 10.0 ** exponent
-        rounding = math.floor if direction < 0 else math.ceil if direction > 0 else round
-        rounded = rounding(value / scale) * scale
-        return int(rounded) if self.kind == "integer" else float(f"{rounded:.12g}")
 
 
 class _Counter:
@@ -438,11 +412,7 @@ class _Counter:
 
 def _equi_depth(values: np.ndarray, weights: np.ndarray, buckets: int) -> list[Any]:
     """Bounds at quantiles i/buckets by the inverted CDF (numpy `method="inverted_cdf"`)."""
-    cumulative = np.cumsum(weights)
-    total = cumulative[-1]
-    ranks = np.maximum(np.ceil(np.linspace(0.0, 1.0, buckets + 1) * total - 1e-9), 1.0)
-    positions = np.minimum(np.searchsorted(cumulative, ranks - 1e-9, side="left"), len(values) - 1)
-    return [values[p] for p in positions]
+    return [values[p] for p in equi_depth_positions(weights, buckets)]
 
 
 def _temporal_ints(array: pa.Array) -> pa.Array:

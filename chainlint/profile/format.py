@@ -12,7 +12,7 @@ import math
 from typing import Any
 
 FORMAT_NAME = "chainlint-profile"
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2
 
 
 class ProfileError(Exception):

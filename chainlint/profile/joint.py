@@ -6,8 +6,8 @@ the data from chainlint's IR (pyarrow compute, never the user's code): one boole
 predicate, packed as bits. For a chain of up to `PACKED_STEPS` predicates, the rows passing
 each subset are the popcount of the AND of its masks; for longer chains the masks form one code
 per row, counted by one `bincount` and summed over supersets. The profile stores, per set of
-predicates, the rows that pass each subset of them; a count under `min_count` is stored as
-"below", as rare values are.
+predicates, the rows that pass each subset of them, changed so that no group of fewer than
+`min_count` rows can be derived from them (`privacy.hide_small_cells`).
 """
 
 from __future__ import annotations
@@ -24,6 +24,7 @@ from chainlint.analysis.model import Chain
 from chainlint.evaluate.arrow_masks import bit_mask
 from chainlint.evaluate.support import NotEvaluable, unevaluable
 from chainlint.ir import Node
+from chainlint.profile.privacy import hide_small_cells
 
 MAX_STEPS = 12
 PACKED_STEPS = 6  # 2**6 ANDs of packed masks beat a per-row code; past that, bincount wins
@@ -89,12 +90,12 @@ class JointCounter:
                 target.subsets += superset_sums(pattern_counts(planes, batch.num_rows))
 
     def finish(self, min_count: int) -> list[dict]:
-        """Per set of predicates: rows passing every subset (bit i: the i-th predicate)."""
+        """Per set of predicates: rows passing every subset (bit i: the i-th predicate), with
+        every pattern of passed predicates empty or held by at least `min_count` rows."""
         entries = []
         for texts in sorted(self.targets):
-            subsets = self.targets[texts].subsets
-            counts = [[mask, int(c) if c >= min_count or c == 0 else "below"] for mask, c in enumerate(subsets)]
-            entries.append({"predicates": list(texts), "subsets": counts})
+            subsets = hide_small_cells(self.targets[texts].subsets, min_count)
+            entries.append({"predicates": list(texts), "subsets": [[mask, int(c)] for mask, c in enumerate(subsets)]})
         return entries
 
 

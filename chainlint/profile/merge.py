@@ -19,10 +19,13 @@ import numpy as np
 from chainlint import __version__
 from chainlint.profile.columns import _equi_depth
 from chainlint.profile.format import FORMAT_NAME, FORMAT_VERSION, ProfileError
-from chainlint.profile.sketches import HyperLogLog
+from chainlint.profile.sketches import HyperLogLog, SketchKeyError, seal, unseal
+from chainlint.profile.store import SKETCH_KEY
 
 
-def merge_profiles(parts: list[dict[str, Any]], name: str) -> dict[str, Any]:
+def merge_profiles(parts: list[dict[str, Any]], name: str, key: bytes) -> dict[str, Any]:
+    """The profile of the whole; `key`: the store's sketch key, which sealed every part's
+    distinct-count sketches (they are opened, merged and sealed again)."""
     if not parts:
         raise ProfileError("nothing to merge")
     settings = parts[0]["settings"]
@@ -46,7 +49,7 @@ def merge_profiles(parts: list[dict[str, Any]], name: str) -> dict[str, Any]:
             "merged_from": [p["name"] for p in parts],
         },
         "settings": settings,
-        "columns": {c: _merge_column([p["columns"][c] for p in parts], settings) for c in parts[0]["columns"]},
+        "columns": {c: _merge_column(c, [p["columns"][c] for p in parts], settings, parts, key) for c in parts[0]["columns"]},
         "column_order": parts[0].get("column_order", sorted(parts[0]["columns"])),
     }
 
@@ -67,7 +70,9 @@ def _part_error(column: dict[str, Any], min_count: int) -> int:
     return int(top.get("error", 0)) + (min(listed) if listed else column["rows"] - column["nulls"])
 
 
-def _merge_column(columns: list[dict[str, Any]], settings: dict[str, Any]) -> dict[str, Any]:
+def _merge_column(
+    name: str, columns: list[dict[str, Any]], settings: dict[str, Any], parts: list[dict[str, Any]], key: bytes,
+) -> dict[str, Any]:
     first = columns[0]
     merged: dict[str, Any] = {
         "type": next((c["type"] for c in columns if c["nulls"]), first["type"]),
@@ -96,9 +101,9 @@ def _merge_column(columns: list[dict[str, Any]], settings: dict[str, Any]) -> di
         "rows": sum(c.get("suppressed", {}).get("rows", 0) for c in columns),
     }
     sketch = HyperLogLog()
-    for column in columns:
-        sketch = sketch.merge(HyperLogLog.decode(column["sketch"]))
-    merged["sketch"] = sketch.encode()
+    for part, column in zip(parts, columns):
+        sketch = sketch.merge(_open_sketch(part, name, column, key))
+    merged["sketch"] = seal(sketch, key, name)
     if full and all(c["distinct"]["exact"] for c in columns):
         merged["distinct"] = {"value": len(counts), "exact": True}
     else:
@@ -108,6 +113,20 @@ def _merge_column(columns: list[dict[str, Any]], settings: dict[str, Any]) -> di
         merged["histogram"] = _merge_histograms(columns, counts if full else None, settings["buckets"])
         merged["min"], merged["max"] = merged["histogram"]["bounds"][0], merged["histogram"]["bounds"][-1]
     return merged
+
+
+def _open_sketch(part: dict[str, Any], name: str, column: dict[str, Any], key: bytes) -> HyperLogLog:
+    where = f"profile {part['name']!r}, column {name!r}"
+    if "sketch" not in column:
+        raise ProfileError(f"{where}: no distinct-count sketch to merge")
+    if not key:
+        raise ProfileError(f"{where}: merging needs the sketch key that profiled the parts ({SKETCH_KEY} in the store); this store has none")
+    try:
+        return unseal(column["sketch"], key, name)
+    except SketchKeyError:
+        raise ProfileError(f"{where}: its sketch was sealed with another key than this store's {SKETCH_KEY}; profile the parts with one store's key") from None
+    except ValueError as error:
+        raise ProfileError(f"{where}: unreadable sketch: {error}") from None
 
 
 def _key(value: Any) -> tuple[str, Any]:

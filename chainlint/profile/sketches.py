@@ -4,6 +4,12 @@
   Fusy, Gandouet & Meunier 2007); registers merge by maximum. Vectorised with numpy: values
   are hashed with fixed functions of chainlint's own (no library's hash, whose output may
   change between versions), so the same data always gives the same registers.
+- `seal` / `unseal`: the registers as a profile stores them, encrypted under the store's sketch
+  key. Registers built with a public hash let anyone holding a profile test candidate values
+  (a value's register proves absence and suggests presence); sealed, they read as random bytes
+  to whoever lacks the key. Deterministic (the nonce is a keyed MAC of the registers, as in
+  SIV), so the same data under the same key gives the same text; the MAC also catches a wrong
+  key on merging.
 - `WeightedSample`: a bounded set of weighted points for quantiles and frequent values: every
   `stride`-th value with weight `stride`; when full, it is compacted to equally spaced weighted
   quantiles and the stride doubles. Each compaction adds at most 2/capacity of rank error,
@@ -13,7 +19,8 @@
 from __future__ import annotations
 
 import base64
-import zlib
+import hashlib
+import hmac
 
 import numpy as np
 import pyarrow as pa
@@ -116,15 +123,56 @@ class HyperLogLog:
     def standard_error() -> float:
         return 1.04 / np.sqrt(1 << HLL_PRECISION)
 
-    def encode(self) -> str:
-        return base64.b64encode(zlib.compress(self.registers.tobytes(), 9)).decode("ascii")
 
-    @classmethod
-    def decode(cls, text: str) -> HyperLogLog:
-        raw = np.frombuffer(zlib.decompress(base64.b64decode(text)), dtype=np.uint8).copy()
-        if raw.size != 1 << HLL_PRECISION:
-            raise ValueError("distinct-count sketch has the wrong size")
-        return cls(raw)
+
+_TAG_BYTES = 16
+_REGISTER_BITS = 5  # ranks reach 32 - HLL_PRECISION + 1 = 21
+SEALED_BYTES = _TAG_BYTES + (1 << HLL_PRECISION) * _REGISTER_BITS // 8
+
+
+class SketchKeyError(ValueError):
+    """A sealed sketch that this key did not seal (or that was altered)."""
+
+
+def seal(sketch: HyperLogLog, key: bytes, column: str) -> str:
+    """The registers packed in 5 bits each (a fixed length: a compressed length would tell how
+    many are set), encrypted with a keystream drawn from a MAC of themselves; base64."""
+    packed = np.packbits(np.unpackbits(sketch.registers[:, None], axis=1)[:, 8 - _REGISTER_BITS :]).tobytes()
+    tag = hmac.new(_subkey(key, b"tag"), _column_bytes(column) + packed, hashlib.sha256).digest()[:_TAG_BYTES]
+    return base64.b64encode(tag + _xor(packed, _keystream(key, tag, len(packed)))).decode("ascii")
+
+
+def unseal(text: str, key: bytes, column: str) -> HyperLogLog:
+    """The registers of a sealed sketch; SketchKeyError when `key` did not seal it for `column`."""
+    raw = base64.b64decode(text.encode("ascii"), validate=True)
+    if len(raw) != SEALED_BYTES:
+        raise ValueError("distinct-count sketch has the wrong size")
+    tag, body = raw[:_TAG_BYTES], raw[_TAG_BYTES:]
+    packed = _xor(body, _keystream(key, tag, len(body)))
+    expected = hmac.new(_subkey(key, b"tag"), _column_bytes(column) + packed, hashlib.sha256).digest()[:_TAG_BYTES]
+    if not key or not hmac.compare_digest(tag, expected):
+        raise SketchKeyError("the distinct-count sketch was sealed with another key")
+    bits = np.unpackbits(np.frombuffer(packed, dtype=np.uint8)).reshape(-1, _REGISTER_BITS)
+    registers = np.packbits(np.pad(bits, ((0, 0), (8 - _REGISTER_BITS, 0))), axis=1).ravel()
+    return HyperLogLog(registers)
+
+
+def _subkey(key: bytes, purpose: bytes) -> bytes:
+    return hmac.new(key, b"chainlint sketch " + purpose, hashlib.sha256).digest()
+
+
+def _column_bytes(column: str) -> bytes:
+    return column.encode("utf-8", "surrogatepass") + b"\0"
+
+
+def _keystream(key: bytes, tag: bytes, size: int) -> bytes:
+    stream = _subkey(key, b"stream")
+    blocks = [hmac.new(stream, tag + i.to_bytes(4, "big"), hashlib.sha256).digest() for i in range(-(-size // 32))]
+    return b"".join(blocks)[:size]
+
+
+def _xor(data: bytes, stream: bytes) -> bytes:
+    return (np.frombuffer(data, dtype=np.uint8) ^ np.frombuffer(stream, dtype=np.uint8)).tobytes()
 
 
 class WeightedSample:

@@ -111,3 +111,35 @@ def redaction_key(store: Path, create: bool) -> bytes:
     config["redaction_key"] = secrets.token_hex(32)
     write_atomic(config_path, dumps(config))
     return bytes.fromhex(config["redaction_key"])
+
+
+SKETCH_KEY = Path("private") / "sketch-key"
+
+
+def sketch_key(store: Path, create: bool) -> bytes:
+    """The store's key for sealing distinct-count sketches (`.chainlint/private/sketch-key`),
+    made on first use. The folder ignores itself (its `.gitignore` holds `*`): the key must
+    never be committed, and only profiling and merging need it."""
+    path = store / SKETCH_KEY
+    try:
+        text = path.read_text(encoding="ascii").strip()
+    except (FileNotFoundError, NotADirectoryError):
+        text = ""
+    except (OSError, UnicodeDecodeError) as error:
+        raise StoreError(f"{path}: cannot read the sketch key: {getattr(error, 'strerror', None) or error}") from None
+    if re.fullmatch(r"[0-9a-f]{64}", text):
+        return bytes.fromhex(text)
+    if text:
+        raise StoreError(f"{path}: not a sketch key (64 hexadecimal digits expected)")
+    if not create:
+        return b""
+    key = secrets.token_hex(32)
+    write_atomic(path.parent / ".gitignore", "*\n")
+    try:  # an empty file of the owner's only, which the write then replaces keeping its mode
+        os.close(os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600))
+    except FileExistsError:
+        pass
+    except OSError as error:
+        raise StoreError(f"{path}: cannot write: {error.strerror}") from None
+    write_atomic(path, key + "\n")
+    return bytes.fromhex(key)
