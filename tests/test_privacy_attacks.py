@@ -18,9 +18,12 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 from click.testing import CliRunner
+from hypothesis import given
+from hypothesis import strategies as st
 
 from chainlint.cli import main
 from chainlint.profile.columns import redact_value
+from chainlint.profile.privacy import fold_rare, hide_small_cells
 from chainlint.profile.sketches import HLL_PRECISION, hash32, hash_strings
 from chainlint.profile.store import load_profile, redaction_key
 
@@ -102,6 +105,18 @@ def test_a_rare_value_beside_a_common_one_is_not_told_by_complement(tmp_path: Pa
     with_yes = _profile(tmp_path, _people(7, 103, "1931-05-17", True), "yes")["columns"]["flag"]
     without = _profile(tmp_path, _people(7, 103, "1931-05-17", False), "no")["columns"]["flag"]
     assert _without_sketch(with_yes) == _without_sketch(without)
+
+
+def test_few_rare_values_of_a_known_set_are_not_told_by_their_number(tmp_path: Path) -> None:
+    # Everyone knows the five statuses; 'lost', 'held' and 'returned' occur twice each. Counting
+    # three unlisted values (6 rows) would tell that all three occur.
+    common = ["delivered"] * 1_500 + ["late"] * 494
+    rare = ["lost", "lost", "held", "held", "returned", "returned"]
+    with_rare = _profile(tmp_path, pd.DataFrame({"status": pd.array(common + rare, dtype="str")}), "rare")
+    without = _profile(tmp_path, pd.DataFrame({"status": pd.array(common + ["delivered"] * 6, dtype="str")}), "none")
+    column = _without_sketch(with_rare["columns"]["status"])
+    assert column == _without_sketch(without["columns"]["status"])
+    assert column["suppressed"] == {"values": 0, "rows": 0} and column["distinct"]["value"] == 2
 
 
 def _mail_frame() -> tuple[pd.DataFrame, list[str], list[int]]:
@@ -235,3 +250,25 @@ def test_the_sketch_key_stays_out_of_the_repository(tmp_path: Path) -> None:
     assert len(key.read_text().strip()) == 64 and key.stat().st_mode & 0o077 == 0
     assert (store / "private" / ".gitignore").read_text() == "*\n"  # git ignores the folder
     assert "sketch-key" not in (store / "profiles" / "m.json").read_text()
+
+
+@given(st.lists(st.integers(0, 7), min_size=1, max_size=300), st.integers(1, 3), st.integers(1, 8))
+def test_no_small_group_is_derivable_from_any_joint_table(codes: list[int], steps: int, min_count: int) -> None:
+    # Random rows, each passing a random pattern of `steps` predicates.
+    patterns = np.array(codes, dtype=np.int64) % (1 << steps)
+    subsets = np.array([np.count_nonzero((patterns & mask) == mask) for mask in range(1 << steps)])
+    stored = hide_small_cells(subsets, min_count)
+    cells = _cells([[mask, int(count)] for mask, count in enumerate(stored)])
+    assert stored[0] == len(codes)  # every row is still counted once
+    if len(codes) >= min_count:
+        assert all(cell == 0 or cell >= min_count for cell in cells.values()), cells
+
+
+@given(st.lists(st.integers(1, 12), min_size=1, max_size=40), st.integers(1, 6))
+def test_folded_counts_never_leave_a_small_remainder(counts: list[int], min_count: int) -> None:
+    original = np.array(counts, dtype=np.int64)
+    folded = fold_rare(original, min_count)
+    assert folded.sum() == original.sum()
+    rare = (folded > 0) & (folded < min_count)
+    if not (original < min_count).all():
+        assert folded[rare].sum() == 0 or (folded[rare].sum() >= min_count and rare.sum() >= min_count)

@@ -178,7 +178,9 @@ class ColumnProfiler:
         expected = pairs * (1.0 - float(np.sum(shares**2)))
         if expected <= 0:
             return 1.0
-        return round(min(1.0, max(0.0, 1.0 - self.changes / expected)), 3)
+        # One decimal: enough for the cost model, and a few rare rows (two changes each at most)
+        # seldom move it.
+        return round(min(1.0, max(0.0, 1.0 - self.changes / expected)), 1)
 
     def count_exact(self, valid: pa.Array | pa.ChunkedArray, values: np.ndarray | None) -> None:
         """Add a batch's non-null values to the exact counts (`values`: their numpy form, for

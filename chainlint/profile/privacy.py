@@ -9,9 +9,11 @@ fields keep to it:
   (the precision drops a digit at a time until it does). The ends are taken `min_count` rows
   in from the true extremes, so that the rarest values (an age of 103, one person's birth
   date) never move them.
-- `fold_rare`: when the rows of unlisted values are fewer than `min_count`, even their number
-  tells (listed 'no' x 1,999 of 2,000 rows: somebody said 'yes'); they are counted with the
-  most common value instead, so that a column reads as if it held no rare value at all.
+- `fold_rare`: when the unlisted values hold fewer than `min_count` rows, or are fewer than
+  `min_count` values, even their number tells (listed 'no' x 1,999 of 2,000 rows: somebody said
+  'yes'; 3 unlisted values of a status column whose 5 values everyone knows: all 3 occur); they
+  are counted with the most common value instead, so that the column reads as if it held no
+  rare value at all.
 - `hide_small_cells`: joint counts. From the rows passing every subset of a chain's predicates
   a reader derives, by inclusion-exclusion, the rows passing exactly each pattern of them (a
   count's complement is one such derivation). Patterns held by fewer than `min_count` rows are
@@ -69,7 +71,7 @@ def safe_bounds(
             direction = -1 if index == 0 else 1
             # An end may move inward (up to its neighbouring bound) rather than round to a
             # far-off number when its tail is sparse.
-            walk = _walk(position, positions[1] if index == 0 else positions[-2])
+            walk = _walk(position, max(position, positions[1]) if index == 0 else min(position, positions[-2]))
             chosen = next((found for p in walk if (found := safe(p, direction, 0, 3))), None)
             chosen = chosen or safe(position, direction, 0, _MAX_STEPS)
         else:
@@ -150,11 +152,12 @@ def equi_depth_positions(weights: np.ndarray, buckets: int) -> list[int]:
 
 
 def fold_rare(counts: np.ndarray, min_count: int) -> np.ndarray:
-    """Counts in which values held by fewer than `min_count` rows, when all of them together
-    are fewer than `min_count` rows, are counted with the most common value (and become 0)."""
+    """Counts in which values held by fewer than `min_count` rows, when they are fewer than
+    `min_count` rows or fewer than `min_count` values in all, are counted with the most common
+    value (and become 0): at most (min_count - 1)**2 rows move."""
     rare = counts < min_count
     rare_rows = int(counts[rare].sum())
-    if rare_rows == 0 or rare_rows >= min_count or rare.all():
+    if rare_rows == 0 or rare.all() or (rare_rows >= min_count and int(rare.sum()) >= min_count):
         return counts
     folded = np.where(rare, 0, counts)
     folded[int(np.argmax(folded))] += rare_rows  # the first of the most common, in value order
