@@ -285,7 +285,7 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
         dataset = open_dataset(data, batch_rows=batch_rows)
         joint = None
         if sources:
-            joint = JointCounter(_chains_for(sources, name, dataset), set(dataset.schema.names))
+            joint = JointCounter(_chains_for(sources, name, dataset), set(dataset.schema.names), frozenset(redact))
             for text, reason in sorted(joint.skipped.items()):
                 click.echo(f"skipped `{text}`: {reason}", err=True)
         progress = _Progress(sys.stderr.isatty())

@@ -272,3 +272,21 @@ def test_folded_counts_never_leave_a_small_remainder(counts: list[int], min_coun
     rare = (folded > 0) & (folded < min_count)
     if not (original < min_count).all():
         assert folded[rare].sum() == 0 or (folded[rare].sum() >= min_count and rare.sum() >= min_count)
+
+
+def test_joint_counts_never_test_a_redacted_column(tmp_path: Path) -> None:
+    # A chain naming an address of a redacted column: its count would confirm the address.
+    frame, rare, _ = _mail_frame()
+    (tmp_path / "src").mkdir()
+    (tmp_path / "src" / "pipe.py").write_text(
+        "# chainlint: profile=mail\n"
+        f"out = mails[lambda d: d.mail == '{rare[0]}'][lambda d: d.room > 20000][lambda d: d.room < 25000]\n"
+    )
+    data = tmp_path / "mail.parquet"
+    frame.to_parquet(data)
+    result = CliRunner().invoke(main, ["profile", str(data), "--name", "mail", "--store", str(_store(tmp_path)),
+                                       "--redact", "mail", "--for", str(tmp_path / "src")])
+    assert result.exit_code == 0, result.output
+    assert f"skipped `mail == '{rare[0]}'`: it reads a redacted column" in result.output
+    document = load_profile(tmp_path / "store" / "profiles" / "mail.json")
+    assert [entry["predicates"] for entry in document["joint"]] == [["room < 25000", "room > 20000"]]

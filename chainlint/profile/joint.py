@@ -40,7 +40,9 @@ class _Target:
 class JointCounter:
     """Counts, batch by batch, how many rows pass each combination of a chain's predicates."""
 
-    def __init__(self, chains: Sequence[Chain], columns: set[str]) -> None:
+    def __init__(self, chains: Sequence[Chain], columns: set[str], redacted: frozenset[str] = frozenset()) -> None:
+        """`redacted`: columns whose predicates are not counted (a count would confirm that the
+        code's literal occurs in the column)."""
         self.targets: dict[tuple[str, ...], _Target] = {}
         self.skipped: dict[str, str] = {}
         for chain in chains:
@@ -51,6 +53,8 @@ class JointCounter:
                     reason = unevaluable(predicate)
                     if reason is None and not predicate.columns() <= columns:
                         reason = "it reads columns the data does not have"
+                    elif reason is None and predicate.columns() & redacted:
+                        reason = "it reads a redacted column"
                     if reason:
                         self.skipped[predicate.canonical()] = reason
                         continue
