@@ -20,6 +20,7 @@ from chainlint.analysis.model import FileError
 from chainlint.analysis.run import analyse_files
 from chainlint.config import Config, ConfigError, describe, load_config, override
 from chainlint.discover import discover
+from chainlint.notebook.locate import locate_planned, locate_result
 from chainlint.estimate.calibrate import COST_MODEL_FILE, model_to_json
 from chainlint.estimate.calibrate import calibrate as measure_model
 from chainlint.plan.chains import plan_chain
@@ -46,7 +47,7 @@ from chainlint.profile.store import (
     sketch_key,
     write_atomic,
 )
-from chainlint.report.check import check_json, check_lines, check_summary
+from chainlint.report.check import cell_prefix, check_json, check_lines, check_summary, error_line
 from chainlint.report.escape import printable
 from chainlint.report.explain import all_errors, explain_json, explain_text, summary
 from chainlint.report.profiles import profile_line, profile_summary
@@ -109,6 +110,7 @@ def explain(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, 
     config = _config(paths, store=store, exclude=tuple(exclude) or None)
     results, discovery_errors = _analyse(paths, config.exclude, max_file_size, jobs)
     planned, store_errors = plan_results(results, replace(options_from(config), rows=rows))
+    planned = locate_planned(planned, results)
     errors = all_errors(results, discovery_errors + store_errors)
     if output_format == "json":
         click.echo(explain_json(planned, errors), nl=False)
@@ -117,7 +119,7 @@ def explain(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, 
         if text:
             click.echo(text)
         for error in errors:
-            click.echo(printable(f"{error.path}:{error.line}:{error.column}: error: {error.message}"), err=True)
+            click.echo(error_line(error), err=True)
         click.echo(summary(results, len({e.path for e in errors})))
     sys.exit(EXIT_ERROR if errors else EXIT_OK)
 
@@ -164,9 +166,13 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
         findings, fixes = attach_fixes(result.findings, results)
         result = replace(result, findings=tuple(findings))
     result = replace(result, errors=tuple(discovery_errors) + result.errors)
-    remaining = list(result.findings)
-    if write:
-        remaining = _write_fixes(result.findings, fixes)
+    written = _write_fixes(fixes) if write else set()
+    result = locate_result(result, results)
+    remaining = [f for f in result.findings if not _fixed(f, written)]
+    for finding in result.findings:
+        if _fixed(finding, written):
+            click.echo(printable(f"{finding.path}:{finding.span.line}:{finding.span.column}: fixed: reorder: "
+                                 f"{cell_prefix(finding.cell)}steps now run as {', '.join(str(i + 1) for i in finding.order or ())}"))
     fixed = len(result.findings) - len(remaining)
     if output_format == "json":
         report = check_json(result)
@@ -187,14 +193,14 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
         click.echo(report, nl=False)
     if output_format == "text" or output:
         for error in sorted(result.errors, key=lambda e: (e.path, e.line, e.column)):
-            click.echo(printable(f"{error.path}:{error.line}:{error.column}: error: {error.message}"), err=True)
+            click.echo(error_line(error), err=True)
         click.echo(check_summary(replace(result, findings=tuple(remaining)), fixed), err=show_diff or bool(output))
     failing = set(config.fail_rules or options.rules)
     sys.exit(EXIT_ERROR if result.errors else EXIT_FINDINGS if any(f.rule in failing for f in remaining) else EXIT_OK)
 
 
-def _write_fixes(findings: Sequence[Finding], fixes: dict) -> list[Finding]:  # type: ignore[type-arg]
-    """Write every file that has a verified rewrite; the findings that remain unfixed."""
+def _write_fixes(fixes: dict) -> set[str]:  # type: ignore[type-arg]
+    """Write every file that has a verified rewrite; the paths written."""
     from chainlint.rewrite.fixes import write_fix
 
     for folder in sorted({os.path.dirname(os.path.realpath(path)) for path in fixes}):
@@ -213,13 +219,11 @@ def _write_fixes(findings: Sequence[Finding], fixes: dict) -> list[Finding]:  # 
             done[real] = fix.new_text
         else:
             click.echo(printable(f"{path}:1:1: warning: not rewritten: {reason}"), err=True)
-    remaining = []
-    for finding in findings:
-        if finding.rule == "reorder" and finding.fix is not None and finding.path in written:
-            click.echo(printable(f"{finding.path}:{finding.span.line}:{finding.span.column}: fixed: reorder: steps now run as {', '.join(str(i + 1) for i in finding.order or ())}"))
-        else:
-            remaining.append(finding)
-    return remaining
+    return written
+
+
+def _fixed(finding: Finding, written: set[str]) -> bool:
+    return finding.rule == "reorder" and finding.fix is not None and finding.path in written
 
 
 def _same_file(first: str, second: str) -> bool:

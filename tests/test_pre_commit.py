@@ -26,16 +26,31 @@ def environment(tmp_path_factory: pytest.TempPathFactory) -> dict[str, str]:
             "GIT_COMMITTER_NAME": "t", "GIT_COMMITTER_EMAIL": "t@example.invalid"}
 
 
+def _notebook(path: Path) -> None:
+    """A notebook written by nbformat's own writer, holding a costly chain in its third cell."""
+    import nbformat
+    from nbformat.v4 import new_code_cell, new_markdown_cell, new_notebook
+
+    book = new_notebook(metadata={"kernelspec": {"name": "python3", "language": "python", "display_name": "Python 3"}})
+    book.cells = [
+        new_markdown_cell("# Damaged parcels"),
+        new_code_cell("import pandas as pd\nscans = pd.read_parquet('data/parcel_scans.parquet')"),
+        new_code_cell("late = (\n    scans\n    .loc[lambda d: d.weight_kg > 0.5]\n    .loc[lambda d: d.status == 'damaged']\n)"),
+    ]
+    nbformat.write(book, str(path))
+
+
 def _repository(folder: Path, text: str, env: dict[str, str]) -> Path:
     shutil.copytree(DEMO / ".chainlint", folder / ".chainlint")
     (folder / "pipeline.py").write_text(text)
+    _notebook(folder / "tour.ipynb")
     for command in (["git", "init", "-q"], ["git", "add", "-A"], ["git", "commit", "-qm", "start"]):
         subprocess.run(command, cwd=folder, env=env, check=True)
     return folder
 
 
-def _try(folder: Path, hook: str, env: dict[str, str]) -> subprocess.CompletedProcess[str]:
-    command = [sys.executable, "-m", "pre_commit", "try-repo", str(ROOT), hook, "--files", "pipeline.py"]
+def _try(folder: Path, hook: str, env: dict[str, str], *files: str) -> subprocess.CompletedProcess[str]:
+    command = [sys.executable, "-m", "pre_commit", "try-repo", str(ROOT), hook, "--files", *(files or ["pipeline.py"])]
     return subprocess.run(command, cwd=folder, env=env, capture_output=True, text=True, timeout=900)
 
 
@@ -44,6 +59,8 @@ def test_check_hook_fails_on_a_costly_chain_and_passes_on_a_clean_one(tmp_path: 
     failed = _try(costly, "chainlint-check", environment)
     assert failed.returncode == 1, failed.stdout + failed.stderr
     assert "reorder:" in failed.stdout
+    notebook = _try(costly, "chainlint-check", environment, "tour.ipynb")
+    assert notebook.returncode == 1 and "tour.ipynb:2:5: reorder: cell 3:" in notebook.stdout, notebook.stdout
     clean = _repository(tmp_path / "clean", CLEAN, environment)
     passed = _try(clean, "chainlint-check", environment)
     assert passed.returncode == 0, passed.stdout + passed.stderr
@@ -55,3 +72,16 @@ def test_fix_hook_rewrites_the_file(tmp_path: Path, environment: dict[str, str])
     assert result.returncode == 1  # files were modified (and a never-matches finding remains)
     text = (folder / "pipeline.py").read_text()
     assert text.index('"damaged"') < text.index('"WEST"')
+
+
+def test_fix_hook_rewrites_a_notebook(tmp_path: Path, environment: dict[str, str]) -> None:
+    import nbformat
+
+    folder = _repository(tmp_path / "notebook", CLEAN, environment)
+    result = _try(folder, "chainlint-fix", environment, "pipeline.py", "tour.ipynb")
+    assert result.returncode == 1, result.stdout + result.stderr  # the notebook was modified
+    assert "tour.ipynb:2:5: fixed: reorder: cell 3: steps now run as 2, 1" in result.stdout
+    book = nbformat.read(str(folder / "tour.ipynb"), as_version=nbformat.NO_CONVERT)
+    nbformat.validate(book)
+    source = book.cells[2].source
+    assert source.index("damaged") < source.index("weight_kg")

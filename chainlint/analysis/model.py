@@ -20,6 +20,24 @@ class Span:
 
 
 @dataclass(frozen=True)
+class Cell:
+    """A notebook's code cell: `number` is its 1-based place among all the notebook's cells (as
+    editors count them), `id` the notebook's own cell id (nbformat 4.5 on), when it has one."""
+
+    number: int
+    id: str | None = None
+
+
+@dataclass(frozen=True)
+class CellLines:
+    """Where a code cell's lines sit in the one text a notebook is analysed as."""
+
+    cell: Cell
+    first_line: int
+    line_count: int
+
+
+@dataclass(frozen=True)
 class Barrier:
     """Why a step may not move: `frame` (reads the frame it receives), `opaque` (not understood)
     or `foreign` (a mask computed on another frame)."""
@@ -94,6 +112,7 @@ class Chain:
     origin: FrameOrigin | None = None
     profile_comment: str | None = None
     keep: tuple[str, ...] | None = None
+    cell: Cell | None = None
 
     def segments(self) -> tuple[tuple[int, ...], ...]:
         """Indices of the movable steps, grouped into the runs between barriers."""
@@ -117,14 +136,21 @@ class FileError:
     line: int
     column: int
     message: str
+    cell: Cell | None = None
 
 
 @dataclass(frozen=True)
 class FileAnalysis:
     """One file's chains and errors; `digest` identifies the text analysed (to spot a file
-    that changed on disk before it is rewritten)."""
+    that changed on disk before it is rewritten).
+
+    For a notebook, `cells` maps the analysed text's lines to code cells: the chains are
+    located in that text (the rewriter works on it) until `chainlint.notebook.locate` moves
+    them into their cells; the errors are already located in cells.
+    """
 
     path: str
     chains: tuple[Chain, ...] = ()
     errors: tuple[FileError, ...] = ()
     digest: str = ""
+    cells: tuple[CellLines, ...] = ()

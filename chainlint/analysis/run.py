@@ -7,10 +7,12 @@ import multiprocessing
 import os
 from collections.abc import Iterable, Sequence
 from concurrent.futures import ProcessPoolExecutor
+from dataclasses import replace
 
-from chainlint.analysis.model import FileAnalysis, FileError
+from chainlint.analysis.model import Cell, CellLines, FileAnalysis, FileError
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import find_seams
+from chainlint.notebook.cells import Notebook, is_notebook, notebook_from_text
 from chainlint.parse.source import (
     DEFAULT_MAX_BYTES,
     SourceError,
@@ -46,9 +48,25 @@ def text_digest(text: str) -> str:
 def analyse_file(path: str, max_bytes: int = DEFAULT_MAX_BYTES) -> FileAnalysis:
     try:
         source = read_source(path, max_bytes)
+        if is_notebook(path):
+            return analyse_notebook(notebook_from_text(path, source.text))
     except SourceError as error:
         return FileAnalysis(path, errors=(FileError(path, error.line, error.column, error.message),))
     return analyse_source(source)
+
+
+def analyse_notebook(notebook: Notebook) -> FileAnalysis:
+    """A notebook's code cells analysed as one module; errors are located in their cells."""
+    analysis = analyse_source(notebook.source)
+    cells = tuple(CellLines(Cell(c.number, c.id), c.first_line, c.line_count) for c in notebook.cells)
+    errors = []
+    for line, column, message in [(e.line, e.column, e.message) for e in analysis.errors] + list(notebook.errors):
+        cell = notebook.cell_at_line(line)
+        if cell is None:
+            errors.append(FileError(notebook.path, 1, 1, message))
+        else:
+            errors.append(FileError(notebook.path, line - cell.first_line + 1, column, message, Cell(cell.number, cell.id)))
+    return replace(analysis, errors=tuple(errors), cells=cells)
 
 
 def _analyse_job(job: tuple[str, int]) -> FileAnalysis:

@@ -1,4 +1,4 @@
-"""Walk the given files and folders for `*.py`, skipping what a repository would not lint.
+"""Walk the given files and folders for `*.py` and `*.ipynb`, skipping what a repository would not lint.
 
 Skipped: hidden folders, virtual environments (a folder holding `pyvenv.cfg`, or named like
 one), `__pycache__` and `site-packages`, whatever the `.gitignore` files of the repository
@@ -92,7 +92,7 @@ class _IgnoreRules:
 
 
 def discover(paths: Sequence[str], exclude: Iterable[str] = ()) -> Discovered:
-    """The Python files under `paths`, sorted and without duplicates; unreadable paths as errors."""
+    """The Python files and notebooks under `paths`, sorted and without duplicates; unreadable paths as errors."""
     excluded = pathspec.GitIgnoreSpec.from_lines(list(exclude))
     rules = _IgnoreRules()
     found = Discovered()
@@ -134,7 +134,7 @@ def discover(paths: Sequence[str], exclude: Iterable[str] = ()) -> Discovered:
                 kept.append(name)
             subfolders[:] = kept
             for name in sorted(files):
-                if not name.endswith(".py"):
+                if not name.endswith((".py", ".ipynb")):
                     continue
                 path = os.path.join(folder, name)
                 if not os.path.isfile(path):  # a FIFO, socket or device named *.py: reading could block

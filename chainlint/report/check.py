@@ -1,4 +1,8 @@
-"""`chainlint check` output: GNU `path:line:col: rule: message` lines and a summary, or JSON."""
+"""`chainlint check` output: GNU `path:line:col: rule: message` lines and a summary, or JSON.
+
+In a notebook the line is counted within its cell and the message starts with `cell N: `
+(N counts all the notebook's cells from 1, as editors show them); JSON carries `cell`.
+"""
 
 from __future__ import annotations
 
@@ -7,15 +11,25 @@ from collections import Counter
 from typing import Any
 
 from chainlint.analysis.check import CheckResult
+from chainlint.analysis.model import Cell, FileError
 from chainlint.report.escape import encodable, printable
-from chainlint.report.explain import error_record
+from chainlint.report.explain import cell_record, error_record
 from chainlint.rules import Finding
+
+
+def cell_prefix(cell: Cell | None) -> str:
+    return "" if cell is None else f"cell {cell.number}: "
+
+
+def error_line(error: FileError) -> str:
+    return printable(f"{error.path}:{error.line}:{error.column}: error: {cell_prefix(error.cell)}{error.message}")
 
 
 def finding_record(finding: Finding) -> dict[str, Any]:
     return {
         "rule": finding.rule,
         "path": finding.path,
+        "cell": cell_record(finding.cell),
         "line": finding.span.line,
         "column": finding.span.column,
         "end_line": finding.span.end_line,
@@ -48,9 +62,10 @@ def check_json(result: CheckResult) -> str:
 def check_lines(result: CheckResult) -> list[str]:
     lines = []
     for f in result.findings:
-        lines.append(printable(f"{f.path}:{f.span.line}:{f.span.column}: {f.rule}: {f.message}"))
+        cell = cell_prefix(f.cell)
+        lines.append(printable(f"{f.path}:{f.span.line}:{f.span.column}: {f.rule}: {cell}{f.message}"))
         if f.fix_error:
-            lines.append(printable(f"{f.path}:{f.span.line}:{f.span.column}: note: no automatic fix: {f.fix_error}"))
+            lines.append(printable(f"{f.path}:{f.span.line}:{f.span.column}: note: {cell}no automatic fix: {f.fix_error}"))
     return lines
 
 

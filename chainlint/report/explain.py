@@ -7,7 +7,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from chainlint.analysis.check import PlannedChain
-from chainlint.analysis.model import Chain, FileAnalysis, FileError, Step
+from chainlint.analysis.model import Cell, Chain, FileAnalysis, FileError, Step
 from chainlint.plan.chains import ChainPlan
 from chainlint.report.escape import encodable, printable
 
@@ -31,6 +31,7 @@ def step_record(step: Step) -> dict[str, Any]:
 def chain_record(chain: Chain) -> dict[str, Any]:
     return {
         "path": chain.path,
+        "cell": cell_record(chain.cell),
         "line": chain.span.line,
         "column": chain.span.column,
         "end_line": chain.span.end_line,
@@ -41,8 +42,13 @@ def chain_record(chain: Chain) -> dict[str, Any]:
     }
 
 
+def cell_record(cell: Cell | None) -> dict[str, Any] | None:
+    """A notebook cell in JSON: its 1-based number among all cells and its id (or null)."""
+    return None if cell is None else {"number": cell.number, "id": cell.id}
+
+
 def error_record(error: FileError) -> dict[str, Any]:
-    return {"path": error.path, "line": error.line, "column": error.column, "message": error.message}
+    return {"path": error.path, "cell": cell_record(error.cell), "line": error.line, "column": error.column, "message": error.message}
 
 
 def all_errors(results: Sequence[FileAnalysis], extra: Sequence[FileError] = ()) -> list[FileError]:
@@ -132,7 +138,8 @@ def _chain_text(chain: Chain) -> str:
     movable = sum(step.movable for step in chain.steps)
     form = "statement run" if chain.form == "statements" else "method chain"
     head = printable(
-        f"{chain.path}:{chain.span.line}:{chain.span.column}: {form} on `{chain.frame}`, "
+        f"{chain.path}:{chain.span.line}:{chain.span.column}: {'' if chain.cell is None else f'cell {chain.cell.number}: '}"
+        f"{form} on `{chain.frame}`, "
         f"{len(chain.steps)} steps, {movable} movable"
     )
     rows = [("#", "at", "kind", "moves", "predicate")]

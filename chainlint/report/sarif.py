@@ -3,6 +3,11 @@
 Locations are relative URIs under the base id `SRCROOT` (the folder chainlint ran in); columns
 count Unicode code points (`columnKind` says so) and end columns point one past the last
 character, as SARIF regions do. A `reorder` finding carries its rewrite as a SARIF fix.
+
+In a notebook the region's lines count within the cell, which the location names as a logical
+location (`cell N`, kind `module`, its fully qualified name `path#cell=N`) and in its
+properties (`cell`, `cellId`). A notebook finding carries no SARIF fix: its regions are not
+places in the file's own JSON text, so a consumer could not apply it (`check --fix` can).
 """
 
 from __future__ import annotations
@@ -16,7 +21,7 @@ from urllib.parse import quote
 
 from chainlint import __version__
 from chainlint.analysis.check import CheckResult
-from chainlint.analysis.model import Span
+from chainlint.analysis.model import Cell, Span
 from chainlint.report.escape import encodable
 from chainlint.rules import CATALOG, Finding
 
@@ -34,8 +39,15 @@ def _region(span: Span) -> dict[str, int]:
     return {"startLine": span.line, "startColumn": span.column, "endLine": span.end_line, "endColumn": span.end_column}
 
 
-def _location(path: str, span: Span) -> dict[str, Any]:
-    return {"physicalLocation": {"artifactLocation": {"uri": _uri(path), "uriBaseId": BASE}, "region": _region(span)}}
+def _location(path: str, span: Span, cell: Cell | None = None) -> dict[str, Any]:
+    location: dict[str, Any] = {
+        "physicalLocation": {"artifactLocation": {"uri": _uri(path), "uriBaseId": BASE}, "region": _region(span)}
+    }
+    if cell is not None:
+        name = f"cell {cell.number}"
+        location["logicalLocations"] = [{"name": name, "fullyQualifiedName": f"{_uri(path)}#cell={cell.number}", "kind": "module"}]
+        location["properties"] = {"cell": cell.number, "cellId": cell.id}
+    return location
 
 
 def _result(finding: Finding, index: dict[str, int], levels: dict[str, str]) -> dict[str, Any]:
@@ -44,9 +56,9 @@ def _result(finding: Finding, index: dict[str, int], levels: dict[str, str]) -> 
         "ruleIndex": index[finding.rule],
         "level": levels[finding.rule],
         "message": {"text": finding.message},
-        "locations": [_location(finding.path, finding.span)],
+        "locations": [_location(finding.path, finding.span, finding.cell)],
     }
-    if finding.fix is not None:
+    if finding.fix is not None and finding.cell is None:
         result["fixes"] = [{
             "description": {"text": "put the chain's steps into the planned order"},
             "artifactChanges": [{
@@ -84,7 +96,7 @@ def check_sarif(result: CheckResult, rules: Sequence[str]) -> str:
         ],
     }
     notifications = [
-        {"level": "error", "message": {"text": error.message}, "locations": [_location(error.path, Span(error.line, error.column, error.line, error.column + 1))]}
+        {"level": "error", "message": {"text": error.message}, "locations": [_location(error.path, Span(error.line, error.column, error.line, error.column + 1), error.cell)]}
         for error in sorted(result.errors, key=lambda e: (e.path, e.line, e.column))
     ]
     run = {

@@ -17,7 +17,9 @@ from dataclasses import dataclass, replace
 
 from chainlint.analysis.model import Chain, FileAnalysis
 from chainlint.analysis.run import text_digest
-from chainlint.parse.source import SourceError, SourceText, decode_source, read_source
+from chainlint.notebook.cells import is_notebook, notebook_from_text
+from chainlint.notebook.rewrite import rewrite_cells
+from chainlint.parse.source import SourceError, SourceText, decode_source, read_source, text_source
 from chainlint.report.escape import printable
 from chainlint.rewrite.permute import Edit, RewriteError, apply_edits, chain_edit
 from chainlint.rewrite.verify import verify
@@ -47,8 +49,13 @@ def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -
     updated: dict[int, Finding] = {}
     files: dict[str, FileFix] = {}
     for path, reorders in by_file.items():
+        notebook = None
         try:
             source = read_source(path)
+            if is_notebook(path):
+                # A notebook is rewritten in its analysed text, then back into its cells.
+                notebook = notebook_from_text(path, source.text)
+                source = notebook.source
         except SourceError as error:
             source, refusal = None, f"cannot read it again: {error.message}"
         else:
@@ -74,10 +81,17 @@ def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -
             alone = [item for item in prepared if _verified(source, [item], updated)]
             # Edits that pass alone must still pass together before the file is rewritten.
             accepted = _verified(source, alone, updated)
+        if accepted and notebook is not None:
+            try:
+                files[path] = FileFix(path, text_source(path, notebook.file_text), rewrite_cells(notebook, [e for _, _, e in accepted]))
+            except RewriteError as error:
+                for finding, _, _ in accepted:
+                    updated[id(finding)] = replace(finding, fix_error=str(error))
+                continue
+        elif accepted:
+            files[path] = FileFix(path, source, apply_edits(source.text, [edit for _, _, edit in accepted]))
         for finding, _, edit in accepted:
             updated[id(finding)] = replace(finding, fix=edit)
-        if accepted:
-            files[path] = FileFix(path, source, apply_edits(source.text, [edit for _, _, edit in accepted]))
     return [updated.get(id(f), f) for f in findings], files
 
 

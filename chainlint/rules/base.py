@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from chainlint.analysis.model import Span
+from chainlint.analysis.model import Cell, Span
 from chainlint.rewrite.permute import Edit
 
 
@@ -20,6 +20,7 @@ class Finding:
     order: tuple[int, ...] | None = None
     fix: Edit | None = None
     fix_error: str | None = None
+    cell: Cell | None = None
 
 
 @dataclass(frozen=True)
