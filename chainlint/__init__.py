@@ -1,3 +1,10 @@
 """chainlint: keep every chain of pandas row filters in a cheap, result-preserving order."""
 
 __version__ = "0.1.0"
+
+
+def load_ipython_extension(ipython):  # type: ignore[no-untyped-def]
+    """`%load_ext chainlint`: the `%%chainlint` cell magic (needs the `notebook` extra)."""
+    from chainlint.notebook.magic import load
+
+    load(ipython)

@@ -75,7 +75,7 @@ def test_costly_chain_is_reported_with_the_planned_order(project: Path) -> None:
     }
     assert costly["order"][0] == min(truth, key=truth.get) == 2
     assert costly["speedup"] >= 1.25 and costly["current_seconds"] > costly["planned_seconds"] > 0
-    assert set(costly) == {"rule", "path", "line", "column", "end_line", "end_column", "message", "speedup",
+    assert set(costly) == {"rule", "path", "cell", "line", "column", "end_line", "end_column", "message", "speedup",
                            "current_seconds", "planned_seconds", "order", "fix", "fix_error"}
     assert costly["fix"]["line"] == 7 and costly["fix_error"] is None
     assert not any(f["line"] == 11 for f in report["findings"])

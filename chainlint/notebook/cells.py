@@ -3,6 +3,7 @@
 The engine reads Python; a notebook becomes one text (the code cells' sources, each followed
 by a `pass` line so that a statement run never spans two cells) and a map from that text back
 to cells. IPython syntax that is not Python (`%magic` and `!shell` lines, `x = !cmd`,
+`%time`/`%timeit`/`%prun` before a statement, which stays analysed,
 `?help` / `name?`, cell magics whose body is not Python) is masked in place: the masked text
 keeps its length, so every other position is unchanged. A cell that still does not parse is a
 located error and is blanked; the rest of the notebook is analysed. Only the standard library
@@ -25,6 +26,8 @@ PYTHON_CELL_MAGICS = frozenset({"time", "timeit", "capture", "prun", "chainlint"
 _SEPARATOR = "pass\n"
 _LINE = re.compile(r"[^\r\n]*(?:\r\n|\r|\n|$)")
 _ASSIGNED_SHELL = re.compile(r"^(\s*[A-Za-z_][\w\s,]*=\s*)[%!]")
+#: Line magics whose argument is a Python statement (without options): only the magic is masked.
+_TIMED = re.compile(r"^(\s*)%(?:time|timeit|prun)[ \t]+(?=[^\s-])")
 
 
 @dataclass(frozen=True)
@@ -103,7 +106,7 @@ def notebook_from_text(path: str, file_text: str) -> Notebook:
         if not isinstance(cell, dict) or cell.get("cell_type") != "code":
             continue
         text = cell_source(cell)
-        masked, error = _analysable(text)
+        masked, error = analysable(text)
         if error is not None:
             errors.append((line + error[0] - 1, error[1], error[2]))
         identifier = cell.get("id") if isinstance(cell.get("id"), str) else None
@@ -141,7 +144,7 @@ def _lines(text: str) -> list[str]:
     return [match.group() for match in _LINE.finditer(text)][:-1]
 
 
-def _analysable(text: str) -> tuple[str, tuple[int, int, str] | None]:
+def analysable(text: str) -> tuple[str, tuple[int, int, str] | None]:
     """The cell's text as Python of the same length, or blanked with the syntax error's place."""
     lines = _lines(text)
     first = lines[0].strip()
@@ -178,6 +181,10 @@ def _mask_line(line: str) -> str:
     stripped = line.strip()
     if not stripped or stripped.startswith("#"):
         return line
+    timed = _TIMED.match(line)
+    if timed:
+        start = timed.end(1)
+        return line[:start] + "0;" + " " * (timed.end() - start - 2) + line[timed.end():]
     if stripped[0] in "%!?" or stripped.endswith("?"):
         return _mask(line, _indent(line))
     match = _ASSIGNED_SHELL.match(line)
