@@ -108,16 +108,19 @@ def apply_rules(planned: Sequence[PlannedChain], options: Options) -> tuple[list
         found: list[Finding] = []
         if unbound.NAME in options.rules:
             found.extend(unbound.check(item.chain, item.binding))
+        keep = item.chain.keep
         if item.plan is not None and item.estimator is not None:
-            if reorder.NAME in options.rules:
+            typos = never_matches.check(item.plan, item.estimator) if never_matches.NAME in options.rules else []
+            found.extend(typos)
+            # An order planned around a misspelt literal would be advice built on the typo
+            # (and a fix that moves it first): the chain is planned once the literal is fixed.
+            held = bool(typos) and not (keep is not None and (not keep or never_matches.NAME in keep))
+            if reorder.NAME in options.rules and not held:
                 found.extend(reorder.check(item.plan, options.context))
-            if never_matches.NAME in options.rules:
-                found.extend(never_matches.check(item.plan, item.estimator))
             if unknown_column.NAME in options.rules:
                 found.extend(unknown_column.check(item.plan, item.estimator))
             if stale_joint.NAME in options.rules:
                 found.extend(stale_joint.check(item.plan, item.estimator))
-        keep = item.chain.keep
         for finding in found:
             (suppressed if keep is not None and (not keep or finding.rule in keep) else findings).append(finding)
 

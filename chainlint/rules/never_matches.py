@@ -52,6 +52,7 @@ def check(plan: ChainPlan, estimator: Estimator) -> list[Finding]:
                 seen = f"occurs in fewer than {min_count} rows of profile `{plan.binding.profile}`, if at all"
             else:
                 seen = f"never occurs in profile `{plan.binding.profile}`"
-            message = f"`{column}` == {value!r} {seen} ({len(known)} known values){hint}"
+            message = (f"`{column}` == {value!r} {seen} ({len(known)} known values){hint or '.'} "
+                       f"The chain's order will be planned once this literal is fixed.")
             findings.append(Finding(NAME, plan.chain.path, step.span, message))
     return findings
