@@ -18,6 +18,7 @@ from chainlint.analysis.check import RULES, Options, options_from, plan_results
 from chainlint.analysis.check import check as run_check
 from chainlint.analysis.model import FileError
 from chainlint.analysis.run import analyse_files
+from chainlint.cli_csv import csv_from, csv_options
 from chainlint.config import Config, ConfigError, describe, load_config, override
 from chainlint.discover import discover
 from chainlint.notebook.locate import locate_planned, locate_result
@@ -277,8 +278,9 @@ def _fail(message: str) -> NoReturn:
 @click.option("--batch-rows", type=click.IntRange(min=1), default=BATCH_ROWS, show_default=True)
 @click.option("--for", "sources", multiple=True, type=click.Path(), metavar="SRC",
               help="Also count exactly how the predicates of the chains in SRC (bound to NAME) combine on the data; repeatable.")
+@csv_options
 def profile(data: Sequence[str], name: str, store: str | None, min_count: int, redact: Sequence[str],
-            distinct_cap: int, top: int, batch_rows: int, sources: Sequence[str]) -> None:
+            distinct_cap: int, top: int, batch_rows: int, sources: Sequence[str], **reader: str | None) -> None:
     """Gather column statistics from DATA (CSV, Parquet, Feather/Arrow, JSON Lines) into a profile."""
     folder = _store(store)
     try:
@@ -286,7 +288,7 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
         key = redaction_key(folder, create=bool(redact))
         settings = Settings(min_count=min_count, distinct_cap=distinct_cap, top=top,
                             redact=frozenset(redact), redaction_key=key, sketch_key=sketch_key(folder, create=True))
-        dataset = open_dataset(data, batch_rows=batch_rows)
+        dataset = open_dataset(data, batch_rows=batch_rows, csv=csv_from(**reader))  # type: ignore[arg-type]
         joint = None
         if sources:
             joint = JointCounter(_chains_for(sources, name, dataset), set(dataset.schema.names), frozenset(redact))
@@ -422,11 +424,12 @@ def calibrate(store: str | None, rows: int) -> None:
 @click.option("--store", type=click.Path(file_okay=False), help="Profile store (default: the nearest .chainlint/ of FILE).")
 @click.option("--format", "output_format", type=click.Choice(["text", "json"]), default="text", show_default=True)
 @click.option("--plot", type=click.Path(dir_okay=False), help="Also draw every measured chain in one SVG picture.")
+@csv_options
 def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, columns: str | None, store: str | None,
-            output_format: str, plot: str | None) -> None:
+            output_format: str, plot: str | None, **reader: str | None) -> None:
     """Time the written and the planned order of the chains in FILE (or the one at LINE) on real data."""
     from chainlint.measure.report import measure_json, measure_text
-    from chainlint.measure.run import MeasureError, load_table, measure_chain
+    from chainlint.measure.run import MeasureError, as_read_csv, load_table, measure_chain
     from chainlint.measure.svg import measurement_svg
 
     path, _, line_text = target.partition(":")
@@ -440,10 +443,10 @@ def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, col
     if not chains:
         _fail(f"{target}: no chain of row filters {'at that line' if line_text else 'in this file'}")
     try:
-        table = load_table(data, rows, [c.strip() for c in columns.split(",")] if columns else None)
+        table = load_table(data, rows, [c.strip() for c in columns.split(",")] if columns else None, csv_from(**reader))  # type: ignore[arg-type]
     except (DataError, MeasureError) as error:
         _fail(str(error))
-    frame = table.to_pandas()
+    frame = as_read_csv(table)
     planned, problems = plan_results([replace(result, chains=tuple(chains))], Options(store=Path(store) if store else None, rows=len(frame)))
     in_memory = None
     measurements, notes = [], []

@@ -15,7 +15,7 @@ import pytest
 from click.testing import CliRunner
 
 from chainlint.cli import main
-from chainlint.profile import readers
+from chainlint.profile import csv_reader
 from chainlint.profile.columns import ColumnProfiler, Settings, redact_value
 from chainlint.profile.store import find_store, load_profile, redaction_key
 
@@ -70,14 +70,14 @@ def _pieced_csv(path: Path, replace: tuple[int, str], compressed: bool) -> Path:
 
 @pytest.mark.parametrize("compressed", [False, True])
 def test_malformed_row_in_a_later_piece_names_its_line(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, compressed: bool) -> None:
-    monkeypatch.setattr(readers, "_CSV_BLOCK", 64)  # the file is parsed in many pieces
+    monkeypatch.setattr(csv_reader, "_CSV_BLOCK", 64)  # the file is parsed in many pieces
     path = _pieced_csv(tmp_path / "bad.csv", (48, "9,9,9"), compressed)
     assert f"{path}:48: malformed CSV row (expected 2 fields, found 3)" in _error_line(_profile(tmp_path, path))
 
 
 @pytest.mark.parametrize("compressed", [False, True])
 def test_value_of_another_type_in_a_later_piece_names_its_line(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, compressed: bool) -> None:
-    monkeypatch.setattr(readers, "_CSV_BLOCK", 64)  # the first piece decides that `a` holds integers
+    monkeypatch.setattr(csv_reader, "_CSV_BLOCK", 64)  # the first piece decides that `a` holds integers
     path = _pieced_csv(tmp_path / "mixed.csv", (52, "many,3"), compressed)
     line = _error_line(_profile(tmp_path, path))
     assert f"{path}:52: " in line and "invalid value 'many'" in line and "first part decided" in line
@@ -93,7 +93,7 @@ def test_tab_separated_values(tmp_path: Path) -> None:
 
 
 def test_line_longer_than_a_piece(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
-    monkeypatch.setattr(readers, "_CSV_BLOCK", 64)
+    monkeypatch.setattr(csv_reader, "_CSV_BLOCK", 64)
     path = tmp_path / "long.csv"
     path.write_text("a,b\n" + "".join(f"{'x' * (500 if i == 7 else 3)},{i}\n" for i in range(30)))
     result = _profile(tmp_path, path, "--min-count", "1")  # the one long value is counted
@@ -147,10 +147,13 @@ def test_several_csv_files_are_one_dataset_if_their_columns_agree(tmp_path: Path
     assert (tmp_path / "store" / "profiles" / "p.json").read_bytes() == before
 
 
-def test_duplicate_column_names(tmp_path: Path) -> None:
+def test_duplicate_column_names_are_made_unique_as_pandas_does(tmp_path: Path) -> None:
     path = tmp_path / "dup.csv"
-    path.write_text("a,a\n1,2\n")
-    assert "duplicate column names: 'a'" in _error_line(_profile(tmp_path, path))
+    path.write_text("a,a,,a.1,a\n1,2,3,4,5\n")
+    assert _profile(tmp_path, path).exit_code == 0
+    document = json.loads((tmp_path / "store" / "profiles" / "p.json").read_text())
+    # pandas.read_csv is the ground truth of the names.
+    assert document["column_order"] == list(pd.read_csv(path).columns) == ["a", "a.2", "Unnamed: 2", "a.1", "a.3"]
 
 
 def test_awkward_columns_profile_fine(tmp_path: Path) -> None:

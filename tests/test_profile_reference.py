@@ -16,7 +16,7 @@ from click.testing import CliRunner
 from flights import flights
 
 from chainlint.cli import main
-from chainlint.profile import readers
+from chainlint.profile import csv_reader
 from chainlint.profile.store import load_profile
 
 
@@ -195,7 +195,7 @@ def test_csv_in_many_pieces_profiles_as_in_one(tmp_path: Path, monkeypatch: pyte
     frame.to_csv(path, index=False)
     exact = ("--min-count", "1")  # every value counted, as pandas counts them
     whole = _profile([str(path)], tmp_path / "store", "one", *exact)  # one store: one sketch key
-    monkeypatch.setattr(readers, "_CSV_BLOCK", 1 << 16)  # about 40 pieces
+    monkeypatch.setattr(csv_reader, "_CSV_BLOCK", 1 << 16)  # about 40 pieces
     pieces = _profile([str(path)], tmp_path / "store", "many", *exact)
     assert all(c["distinct"]["exact"] for c in whole["columns"].values() if "distinct" in c)
     assert pieces["columns"] == whole["columns"]

@@ -18,7 +18,7 @@ import pyarrow as pa
 from chainlint.analysis.model import Chain
 from chainlint.evaluate.pandas_masks import apply_step
 from chainlint.evaluate.support import unevaluable
-from chainlint.profile.readers import open_dataset
+from chainlint.profile.readers import CsvOptions, open_dataset
 
 
 class MeasureError(Exception):
@@ -47,9 +47,9 @@ class Measurement:
         return self.written.seconds / self.planned.seconds if self.planned.seconds > 0 else 1.0
 
 
-def load_table(data: Sequence[str], rows: int | None, columns: Sequence[str] | None) -> pa.Table:
+def load_table(data: Sequence[str], rows: int | None, columns: Sequence[str] | None, csv: CsvOptions | None = None) -> pa.Table:
     """The data as one Arrow table (first `rows` rows, chosen `columns`), with the profile readers."""
-    dataset = open_dataset(data)
+    dataset = open_dataset(data, csv=csv)
     names = dataset.schema.names
     if columns:
         missing = [c for c in columns if c not in names]
@@ -69,6 +69,17 @@ def load_table(data: Sequence[str], rows: int | None, columns: Sequence[str] | N
     schema = dataset.schema if not columns else pa.schema([dataset.schema.field(c) for c in columns])
     table = pa.concat_tables([b.cast(schema) if b.schema != schema else b for b in batches]) if batches else schema.empty_table()
     return table.combine_chunks()
+
+
+def as_read_csv(table: pa.Table) -> pd.DataFrame:
+    """The table as the frame pandas' readers give: a boolean column with missing values holds
+    NaN, not None, in its object array."""
+    frame = table.to_pandas()
+    for field in table.schema:
+        if pa.types.is_boolean(field.type) and table.column(field.name).null_count:
+            column = frame[field.name]
+            frame[field.name] = column.where(column.notna(), float("nan"))
+    return frame
 
 
 def measurable(chain: Chain) -> str | None:

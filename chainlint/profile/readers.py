@@ -10,28 +10,25 @@ from __future__ import annotations
 
 import glob
 import hashlib
-import mmap
 import os
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Iterator, Sequence
 from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
 
-import numpy as np
 import pyarrow as pa
-import pyarrow.csv as pacsv
 import pyarrow.ipc as paipc
 import pyarrow.json as pajson
 import pyarrow.parquet as pq
 
+from chainlint.profile.csv_reader import CsvOptions, open_csv
+from chainlint.profile.errors import DataError
+
+__all__ = ["BATCH_ROWS", "CsvOptions", "DataError", "Dataset", "open_dataset"]
+
 BATCH_ROWS = 262_144
-_CSV_BLOCK = 32 << 20
-_CSV_PARSE_BLOCK = 1 << 20  # pyarrow's default; measured the quickest here
-
-
-class DataError(Exception):
-    """Data that cannot be profiled; the message names the file (and line where known)."""
+_JSON_BLOCK = 32 << 20
 
 
 @dataclass(frozen=True)
@@ -134,8 +131,9 @@ def _files_of(path: str) -> list[str]:
     return [path]
 
 
-def open_dataset(arguments: Sequence[str], batch_rows: int = BATCH_ROWS) -> Dataset:
-    """Open DATA arguments as one dataset; raises DataError naming the file on bad input."""
+def open_dataset(arguments: Sequence[str], batch_rows: int = BATCH_ROWS, csv: CsvOptions | None = None) -> Dataset:
+    """Open DATA arguments as one dataset (CSV as `pd.read_csv(path, ...)` with `csv`'s
+    options reads it); raises DataError naming the file on bad input."""
     paths = _expand(arguments)
     if not paths:
         raise DataError("no data given")
@@ -159,7 +157,7 @@ def open_dataset(arguments: Sequence[str], batch_rows: int = BATCH_ROWS) -> Data
     digests = [pool.submit(_sha256, path) for path in files]
     pool.shutdown(wait=False)
     try:
-        schema, batches, expected = _open_files(kind, paths, files, [d.bytes for d in described], batch_rows)
+        schema, batches, expected = _open_files(kind, paths, files, [d.bytes for d in described], batch_rows, csv or CsvOptions())
         _check_columns(schema, files[0])
     except DataError:
         for digest in digests:
@@ -169,16 +167,16 @@ def open_dataset(arguments: Sequence[str], batch_rows: int = BATCH_ROWS) -> Data
 
 
 def _open_files(
-    kind: str, paths: Sequence[str], files: list[str], sizes: list[int], batch_rows: int,
+    kind: str, paths: Sequence[str], files: list[str], sizes: list[int], batch_rows: int, csv: CsvOptions,
 ) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     if kind == "parquet" and any(os.path.isdir(p) for p in paths):
         return _open_parquet_dataset(paths, batch_rows)
     if kind == "csv":
         # Opening a CSV file parses its first piece: later files are opened only when reached,
         # so that memory stays bounded however many files are given.
-        schema, first, rows = _open_csv(files[0], batch_rows)
+        schema, first, rows = open_csv(files[0], csv)
         expected = None if rows is None else round(rows * sum(sizes) / max(sizes[0], 1))
-        return schema, _chain_csv(files, schema, first, batch_rows), expected
+        return schema, _chain_csv(files, schema, first, batch_rows, csv), expected
     opener = {"parquet": _open_parquet, "arrow": _open_arrow, "jsonl": _open_jsonl}[kind]
     opened = [opener(path, batch_rows) for path in files]
     schema = opened[0][0]
@@ -198,13 +196,16 @@ def _chain(streams: Iterator[Iterator[pa.Table]]) -> Iterator[pa.Table]:
         yield from stream
 
 
-def _chain_csv(files: list[str], schema: pa.Schema, first: Iterator[pa.Table], batch_rows: int) -> Iterator[pa.Table]:
-    yield from first
+def _chain_csv(files: list[str], schema: pa.Schema, first: Iterator[pa.Table], batch_rows: int,
+               csv: CsvOptions) -> Iterator[pa.Table]:
+    for table in first:
+        yield from table_batches(table, batch_rows)
     for path in files[1:]:
-        other, stream, _ = _open_csv(path, batch_rows)
+        other, stream, _ = open_csv(path, csv)
         if not other.equals(schema):
             raise DataError(_differs(path, files[0]))
-        yield from stream
+        for table in stream:
+            yield from table_batches(table, batch_rows)
 
 
 def _check_columns(schema: pa.Schema, path: str) -> None:
@@ -214,176 +215,6 @@ def _check_columns(schema: pa.Schema, path: str) -> None:
     duplicates = sorted({n for n in names if names.count(n) > 1})
     if duplicates:
         raise DataError(f"{path}: duplicate column names: {', '.join(repr(n) for n in duplicates)}")
-
-
-def _open_csv(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
-    """CSV in pieces cut at line ends, each parsed by the multi-threaded `read_csv`.
-
-    An uncompressed file is memory-mapped and its pieces handed to pyarrow without a copy; the
-    first piece holds the header and decides the column types, later ones are parsed with those
-    names and types. Values may not contain line breaks (as with pyarrow's
-    `newlines_in_values=False`).
-    """
-    size = os.path.getsize(path)
-    if size == 0:
-        raise DataError(f"{path}: empty file")
-    pieces = _csv_pieces(path)
-    try:
-        first, _ = next(pieces)
-    except StopIteration:
-        raise DataError(f"{path}: empty file") from None
-    table = _parse_csv_piece(path, first, 0, None)
-    binary = [f.name for f in table.schema if pa.types.is_binary(f.type) or pa.types.is_large_binary(f.type)]
-    if binary:
-        raise DataError(f"{path}: column {binary[0]!r} is not valid UTF-8 text")
-    schema = table.schema
-    # The row count, estimated from the first piece, sets the summaries' sampling stride.
-    expected = None if _compressed(path) or not len(first) else round(table.num_rows * size / len(first))
-
-    def stream() -> Iterator[pa.Table]:
-        yield from table_batches(table, batch_rows)
-        for piece, offset in pieces:
-            yield from table_batches(_parse_csv_piece(path, piece, offset, schema), batch_rows)
-
-    return schema, stream(), expected
-
-
-def _compressed(path: str) -> bool:
-    with pa.input_stream(path, compression="detect") as source:
-        return isinstance(source, pa.CompressedInputStream)
-
-
-def _csv_pieces(path: str) -> Iterator[tuple[pa.Buffer, int]]:
-    """(a piece of whole lines, the byte offset where it starts in the decompressed text)."""
-    try:
-        source = pa.input_stream(path, compression="detect")
-    except (pa.ArrowInvalid, OSError) as error:
-        raise DataError(f"{path}: cannot read: {str(error).splitlines()[0]}") from None
-    if not isinstance(source, pa.CompressedInputStream):
-        source.close()
-        yield from _mapped_pieces(path)
-        return
-    with source:
-        carry = b""
-        offset = 0
-        while True:
-            try:
-                block = source.read(_CSV_BLOCK)
-            except (pa.ArrowInvalid, OSError) as error:
-                raise DataError(f"{path}: cannot read: {str(error).splitlines()[0]}") from None
-            data = carry + block
-            cut = len(data) if not block else data.rfind(b"\n") + 1
-            if cut > 0:
-                yield pa.py_buffer(data[:cut]), offset
-                offset += cut
-            carry = data[cut:]
-            if not block:
-                return
-
-
-def _mapped_pieces(path: str) -> Iterator[tuple[pa.Buffer, int]]:
-    """Pieces of a memory-mapped file, without copies. A piece's pages are let go once it has
-    been parsed (the parsed table holds copies), so resident memory stays bounded. (As with any
-    memory map, a file truncated by another program while it is read ends the process.)"""
-    with open(path, "rb") as handle:
-        # Not closed here: pyarrow's views keep the map alive, and it unmaps when the last goes.
-        mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
-    whole = pa.py_buffer(mapped)
-    size = len(mapped)
-    start = 0
-    while start < size:
-        end = min(size, start + _CSV_BLOCK)
-        if end < size:
-            cut = mapped.rfind(b"\n", start, end)
-            if cut < 0:  # a line longer than a piece
-                cut = mapped.find(b"\n", end)
-            end = size if cut < 0 else cut + 1
-        yield whole.slice(start, end - start), start
-        if hasattr(mapped, "madvise"):
-            low = start // mmap.PAGESIZE * mmap.PAGESIZE
-            mapped.madvise(mmap.MADV_DONTNEED, low, end // mmap.PAGESIZE * mmap.PAGESIZE - low)
-        start = end
-
-
-def _line_at(path: str, offset: int) -> int:
-    """The line number of the byte at `offset` of the decompressed text (for error messages)."""
-    lines = 1
-    with pa.input_stream(path, compression="detect") as source:
-        while offset > 0:
-            block = source.read(min(offset, 1 << 20))
-            if not block:
-                break
-            lines += block.count(b"\n")
-            offset -= len(block)
-    return lines
-
-
-def _parse_csv_piece(path: str, piece: pa.Buffer, offset: int, schema: pa.Schema | None) -> pa.Table:
-    """Parse one piece: the first (offset 0) with its header, the others with `schema`'s names
-    and types."""
-    invalid: list[tuple[int | None, str]] = []
-
-    def on_invalid(row: pacsv.InvalidRow) -> str:
-        invalid.append((row.number, f"expected {row.expected_columns} fields, found {row.actual_columns}"))
-        return "error"
-
-    names = schema.names if schema is not None else None
-    delimiter = "\t" if path.lower().endswith((".tsv", ".tsv.gz")) else ","
-    convert = pacsv.ConvertOptions(column_types=schema) if schema is not None else pacsv.ConvertOptions()
-
-    def parse(threads: bool, data: pa.Buffer = piece) -> pa.Table:
-        return pacsv.read_csv(
-            data,
-            read_options=pacsv.ReadOptions(use_threads=threads, block_size=_CSV_PARSE_BLOCK, column_names=names),
-            parse_options=pacsv.ParseOptions(delimiter=delimiter, invalid_row_handler=on_invalid),
-            convert_options=convert,
-        )
-
-    try:
-        return parse(True)
-    except (pa.ArrowInvalid, pa.ArrowTypeError) as error:
-        message = str(error).splitlines()[0]
-        if invalid:
-            # Row numbers are known only to a single-threaded parse: re-parse to name the line.
-            invalid.clear()
-            try:
-                parse(False)
-            except (pa.ArrowInvalid, pa.ArrowTypeError):
-                pass
-        if invalid:
-            number, what = invalid[-1]
-            where = f":{_line_at(path, offset) + number - 1}" if number is not None else ""
-            raise DataError(f"{path}{where}: malformed CSV row ({what})") from None
-        if "utf8" in message.lower() or "utf-8" in message.lower():
-            raise DataError(f"{path}: not valid UTF-8 text ({message})") from None
-        if "conversion error" in message.lower():
-            line = _line_at(path, offset) + _first_failing_line(piece, lambda prefix: _fails(parse, prefix))
-            raise DataError(f"{path}:{line}: {message} (the file's first part decided this column's type)") from None
-        raise DataError(f"{path}: {message}") from None
-
-
-def _fails(parse: Callable[[bool, pa.Buffer], pa.Table], data: pa.Buffer) -> bool:
-    try:
-        parse(False, data)
-    except (pa.ArrowInvalid, pa.ArrowTypeError):
-        return True
-    return False
-
-
-def _first_failing_line(piece: pa.Buffer, fails: Callable[[pa.Buffer], bool]) -> int:
-    """The index of the piece's first line whose values do not convert: the shortest prefix of
-    whole lines that fails to parse, found by bisection (only on the error path)."""
-    ends = np.flatnonzero(np.frombuffer(piece, dtype=np.uint8) == 10) + 1
-    if not ends.size or ends[-1] != len(piece):
-        ends = np.append(ends, len(piece))
-    low, high = 0, len(ends) - 1
-    while low < high:
-        middle = (low + high) // 2
-        if fails(piece.slice(0, int(ends[middle]))):
-            high = middle
-        else:
-            low = middle + 1
-    return low
 
 
 def table_batches(part: pa.Table | pa.RecordBatch, rows: int) -> Iterator[pa.Table]:
@@ -459,7 +290,7 @@ def _open_jsonl(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Tabl
     if os.path.getsize(path) == 0:
         raise DataError(f"{path}: empty file")
     try:
-        reader = pajson.open_json(path, read_options=pajson.ReadOptions(block_size=_CSV_BLOCK, use_threads=False))
+        reader = pajson.open_json(path, read_options=pajson.ReadOptions(block_size=_JSON_BLOCK, use_threads=False))
     except (pa.ArrowInvalid, OSError) as error:
         raise DataError(f"{path}: {str(error).splitlines()[0]}") from None
 

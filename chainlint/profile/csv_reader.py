@@ -1,0 +1,399 @@
+"""CSV read as `pd.read_csv(path, ...)` reads it, by pyarrow's threaded parser.
+
+pandas' defaults are kept: its NA strings (an empty field is missing, in text columns too),
+its boolean words, no date parsing unless `parse_dates` asks, header names made unique and
+blank ones named as pandas names them. `tests/test_csv_like_pandas.py` holds the reader to
+`pd.read_csv` itself on awkward files. The file is cut into memory-mapped pieces at line ends
+outside quoted values (a quoted value may hold line breaks); the first piece decides the types.
+"""
+
+from __future__ import annotations
+
+import codecs
+import csv
+import io
+import itertools
+import mmap
+import os
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.csv as pacsv
+
+from chainlint.profile.errors import DataError
+
+_CSV_BLOCK = 32 << 20
+_CSV_PARSE_BLOCK = 1 << 20  # pyarrow's default; measured the quickest here
+
+#: pandas' default NA strings (`pandas._libs.parsers.STR_NA_VALUES`, pandas 3.1).
+PANDAS_NA = ("", "#N/A", "#N/A N/A", "#NA", "-1.#IND", "-1.#QNAN", "-NaN", "-nan", "1.#IND", "1.#QNAN",
+             "<NA>", "N/A", "NA", "NULL", "NaN", "None", "n/a", "nan", "null")
+#: The words pandas' C parser reads as booleans.
+PANDAS_TRUE, PANDAS_FALSE = ("True", "TRUE", "true"), ("False", "FALSE", "false")
+
+_DTYPES = {
+    "str": pa.string(), "string": pa.string(), "object": pa.string(),
+    "int64": pa.int64(), "int": pa.int64(), "Int64": pa.int64(), "int32": pa.int32(),
+    "float64": pa.float64(), "float": pa.float64(), "float32": pa.float32(),
+    "bool": pa.bool_(), "boolean": pa.bool_(),
+    "category": pa.dictionary(pa.int32(), pa.string()),
+}
+
+
+@dataclass(frozen=True)
+class CsvOptions:
+    """The `pd.read_csv` options chainlint follows; the defaults are pandas' own.
+
+    `header`: the header rows (`None`: no header; several: names joined as pandas' tuples
+    print); `skiprows`: a count of leading lines, or line numbers (leading ones, or the ones
+    right after the header); `na_values` add to pandas' NA strings; `dtype`: (column, dtype)
+    pairs; `parse_dates`: columns read as datetimes.
+    """
+
+    sep: str | None = None
+    header: tuple[int, ...] | None = (0,)
+    skiprows: int | tuple[int, ...] = 0
+    na_values: tuple[str, ...] = ()
+    dtype: tuple[tuple[str, str], ...] = ()
+    parse_dates: tuple[str, ...] = ()
+    encoding: str = "utf-8"
+
+    def check(self) -> None:
+        """Raise DataError for options chainlint cannot follow."""
+        if self.sep is not None and len(self.sep) != 1:
+            raise DataError(f"separator {self.sep!r}: only a single character is supported")
+        unknown = sorted({d for _, d in self.dtype if d not in _DTYPES})
+        if unknown:
+            raise DataError(f"dtype {unknown[0]!r} is not supported (use one of {', '.join(sorted(_DTYPES))})")
+        if self.header is not None and (not self.header or list(self.header) != list(range(self.header[0], self.header[-1] + 1))):
+            raise DataError("header rows must be consecutive")
+        try:
+            name = codecs.lookup(self.encoding).name
+        except LookupError:
+            raise DataError(f"unknown encoding {self.encoding!r}") from None
+        if name.startswith(("utf-16", "utf-32")):
+            raise DataError(f"encoding {self.encoding!r} is not supported (line ends are not single bytes)")
+
+
+@dataclass(frozen=True)
+class _Layout:
+    names: list[str]
+    skip: int  # rows before the data (header rows included)
+    skip_after: int  # rows skipped right after the header
+
+
+def _unique_names(names: list[str]) -> list[str]:
+    """Duplicate names suffixed `.1`, `.2`, ... skipping names the header already holds, as
+    pandas does."""
+    taken = set(names)
+    used: set[str] = set()
+    counts: dict[str, int] = {}
+    out = []
+    for name in names:
+        candidate = name
+        if name in used:
+            k = counts.get(name, 1)
+            while f"{name}.{k}" in taken or f"{name}.{k}" in used:
+                k += 1
+            candidate = f"{name}.{k}"
+            counts[name] = k + 1
+        used.add(candidate)
+        out.append(candidate)
+    return out
+
+
+def _layout(path: str, options: CsvOptions, delimiter: str) -> _Layout:
+    """Column names and rows to skip, from the header rows read with Python's csv module."""
+    skiprows = options.skiprows
+    lead, skip_after = (skiprows, 0) if isinstance(skiprows, int) else (0, 0)
+    header = options.header
+    levels = 0 if header is None else len(header)
+    if isinstance(skiprows, tuple) and skiprows:
+        rows = sorted(set(skiprows))
+        after = (header[-1] + 1) if header is not None else 0
+        if rows == list(range(len(rows))) and (header is None or header[0] >= len(rows)):
+            lead = len(rows)
+        elif rows == list(range(after, after + len(rows))):
+            skip_after = len(rows)
+        else:
+            raise DataError(f"{path}: skiprows {list(skiprows)}: only leading lines or lines right after the header are supported")
+        if lead and header is not None:
+            header = tuple(h - lead for h in header)
+    first = lead + (header[0] if header is not None else 0)
+    encoding = "utf-8-sig" if codecs.lookup(options.encoding).name == "utf-8" else options.encoding
+    try:
+        with pa.input_stream(path, compression="detect") as raw:
+            text = io.TextIOWrapper(raw, encoding=encoding, newline="")  # type: ignore[arg-type]
+            records = list(itertools.islice(csv.reader(text, delimiter=delimiter), first + max(levels, 1)))
+    except UnicodeDecodeError as error:
+        shown = "UTF-8" if encoding == "utf-8-sig" else options.encoding
+        raise DataError(f"{path}: not valid {shown} text ({error}); give its encoding") from None
+    except (csv.Error, OSError, pa.ArrowInvalid) as error:
+        raise DataError(f"{path}: cannot read the header: {error}") from None
+    wanted = records[first:]
+    if len(wanted) < max(levels, 1):
+        raise DataError(f"{path}: no header row at line {first + 1}")
+    width = max(len(r) for r in wanted)
+    if levels == 0:
+        return _Layout([str(i) for i in range(width)], first, skip_after)
+    rows = [r + [""] * (width - len(r)) for r in wanted]
+    if levels == 1:
+        names = [n if n.strip() else f"Unnamed: {i}" for i, n in enumerate(rows[0])]
+    else:
+        tuples = [tuple(r[i] if r[i].strip() else f"Unnamed: {i}_level_{lvl}" for lvl, r in enumerate(rows)) for i in range(width)]
+        names = [str(t) for t in tuples]
+    return _Layout(_unique_names(names), first + levels, skip_after)
+
+
+class CsvFile:
+    """One CSV file: its layout, the parse options, and its pieces parsed as tables."""
+
+    def __init__(self, path: str, options: CsvOptions) -> None:
+        options.check()
+        self.path = path
+        self.options = options
+        self.delimiter = options.sep or ("\t" if path.lower().endswith((".tsv", ".tsv.gz")) else ",")
+        self.layout = _layout(path, options, self.delimiter)
+        self.types = {name: _DTYPES[d] for name, d in options.dtype}
+        for name in options.parse_dates:
+            self.types[name] = pa.timestamp("us")
+        missing = sorted(set(self.types) - set(self.layout.names))
+        if missing:
+            raise DataError(f"{path}: no column {missing[0]!r} (named by dtype or parse_dates)")
+
+    def convert(self, types: dict[str, pa.DataType]) -> pacsv.ConvertOptions:
+        return pacsv.ConvertOptions(
+            column_types=types, null_values=list(dict.fromkeys(PANDAS_NA + self.options.na_values)),
+            strings_can_be_null=True, quoted_strings_can_be_null=True,
+            true_values=list(PANDAS_TRUE), false_values=list(PANDAS_FALSE),
+        )
+
+    def parse_first(self, piece: pa.Buffer, quoted: bool) -> pa.Table:
+        """The first piece; it decides the types. Columns pyarrow would read as dates or times
+        stay text, as pandas leaves them without `parse_dates`."""
+        table = self.parse(piece, 0, quoted, self.types, first=True)
+        temporal = {f.name: pa.string() for f in table.schema if f.name not in self.types and (
+            pa.types.is_temporal(f.type))}
+        if temporal:
+            table = self.parse(piece, 0, quoted, {**self.types, **temporal}, first=True)
+        for index, field in enumerate(table.schema):
+            if pa.types.is_null(field.type):  # every value missing: pandas reads float64 NaN
+                table = table.set_column(index, field.name, pa.nulls(table.num_rows, pa.float64()))
+        return table
+
+    def parse(self, piece: pa.Buffer, offset: int, quoted: bool, types: dict[str, pa.DataType],
+              first: bool = False) -> pa.Table:
+        invalid: list[tuple[int | None, str]] = []
+
+        def on_invalid(row: pacsv.InvalidRow) -> str:
+            invalid.append((row.number, f"expected {row.expected_columns} fields, found {row.actual_columns}"))
+            return "error"
+
+        layout = self.layout
+
+        def run(threads: bool, data: pa.Buffer = piece) -> pa.Table:
+            return pacsv.read_csv(
+                data,
+                read_options=pacsv.ReadOptions(
+                    use_threads=threads, block_size=_CSV_PARSE_BLOCK, column_names=layout.names,
+                    skip_rows=layout.skip if first else 0, skip_rows_after_names=layout.skip_after if first else 0,
+                    encoding=self.options.encoding),
+                parse_options=pacsv.ParseOptions(delimiter=self.delimiter, invalid_row_handler=on_invalid,
+                                                 newlines_in_values=quoted),
+                convert_options=self.convert(types),
+            )
+
+        try:
+            return run(True)
+        except (pa.ArrowInvalid, pa.ArrowTypeError) as error:
+            raise self._error(error, invalid, run, piece, offset) from None
+
+    def _error(self, error: Exception, invalid: list, run: Callable, piece: pa.Buffer, offset: int) -> DataError:  # type: ignore[type-arg]
+        path = self.path
+        message = str(error).splitlines()[0]
+        if invalid:
+            # Row numbers are known only to a single-threaded parse: re-parse to name the line.
+            invalid.clear()
+            try:
+                run(False)
+            except (pa.ArrowInvalid, pa.ArrowTypeError):
+                pass
+        if invalid:
+            number, what = invalid[-1]
+            where = f":{_line_at(path, offset) + number - 1}" if number is not None else ""
+            return DataError(f"{path}{where}: malformed CSV row ({what})")
+        if "utf8" in message.lower() or "utf-8" in message.lower():
+            return DataError(f"{path}: not valid UTF-8 text ({message}); give its encoding")
+        if "conversion error" in message.lower():
+            line = _line_at(path, offset) + _first_failing_line(piece, lambda prefix: _fails(run, prefix))
+            return DataError(f"{path}:{line}: {message} (the file's first part decided this column's type; "
+                             "name its dtype, e.g. `str`, to read it otherwise)")
+        return DataError(f"{path}: {message}")
+
+
+def open_csv(path: str, options: CsvOptions) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
+    """(schema, tables of the file's pieces, estimated row count)."""
+    size = os.path.getsize(path)
+    if size == 0:
+        raise DataError(f"{path}: empty file")
+    reader = CsvFile(path, options)
+    pieces = _csv_pieces(path)
+    try:
+        first, _, quoted = next(pieces)
+    except StopIteration:
+        raise DataError(f"{path}: empty file") from None
+    table = reader.parse_first(first, quoted)
+    binary = [f.name for f in table.schema if pa.types.is_binary(f.type) or pa.types.is_large_binary(f.type)]
+    if binary:
+        raise DataError(f"{path}: column {binary[0]!r} is not valid UTF-8 text")
+    schema = table.schema
+    types = {f.name: f.type for f in schema}
+    # The row count, estimated from the first piece, sets the summaries' sampling stride.
+    expected = None if _compressed(path) or not len(first) else round(table.num_rows * size / len(first))
+
+    def stream() -> Iterator[pa.Table]:
+        yield table
+        for piece, offset, quoted_piece in pieces:
+            yield reader.parse(piece, offset, quoted_piece, types)
+
+    return schema, stream(), expected
+
+
+def _compressed(path: str) -> bool:
+    with pa.input_stream(path, compression="detect") as source:
+        return isinstance(source, pa.CompressedInputStream)
+
+
+def _piece_end(data, codes: np.ndarray, start: int, limit: int, size: int) -> tuple[int, bool]:  # type: ignore[no-untyped-def]
+    """(where the piece starting at `start` ends: after a line end outside quoted values, near
+    `limit`; whether the piece holds a quote). A quote count of even parity before a line end
+    means the line end is outside quotes (quotes inside values are doubled)."""
+    if limit >= size:
+        return size, data.find(b'"', start, size) >= 0
+    cut = data.rfind(b"\n", start, limit)
+    if data.find(b'"', start, limit) < 0:
+        if cut >= 0:
+            return cut + 1, False
+        cut = data.find(b"\n", limit)
+        return (size, data.find(b'"', start, size) >= 0) if cut < 0 else (cut + 1, data.find(b'"', start, cut) >= 0)
+    if cut >= 0:
+        quotes = int(np.count_nonzero(codes[start:cut] == 34))
+        while quotes % 2 and cut > start:
+            previous = data.rfind(b"\n", start, cut)
+            if previous < 0:
+                break
+            quotes -= int(np.count_nonzero(codes[previous:cut] == 34))
+            cut = previous
+        if quotes % 2 == 0:
+            return cut + 1, True
+    # A quoted value longer than a piece: go forward to the first line end outside quotes.
+    cut = limit if cut < 0 else cut
+    quotes = int(np.count_nonzero(codes[start:cut] == 34))
+    while True:
+        following = data.find(b"\n", cut + 1)
+        if following < 0:
+            return size, True
+        quotes += int(np.count_nonzero(codes[cut:following] == 34))
+        cut = following
+        if quotes % 2 == 0:
+            return cut + 1, True
+
+
+def _csv_pieces(path: str) -> Iterator[tuple[pa.Buffer, int, bool]]:
+    """(a piece of whole records, its byte offset in the decompressed text, whether it holds a
+    quote)."""
+    try:
+        source = pa.input_stream(path, compression="detect")
+    except (pa.ArrowInvalid, OSError) as error:
+        raise DataError(f"{path}: cannot read: {str(error).splitlines()[0]}") from None
+    if not isinstance(source, pa.CompressedInputStream):
+        source.close()
+        yield from _mapped_pieces(path)
+        return
+    with source:
+        carry = b""
+        offset = 0
+        while True:
+            try:
+                block = source.read(_CSV_BLOCK)
+            except (pa.ArrowInvalid, OSError) as error:
+                raise DataError(f"{path}: cannot read: {str(error).splitlines()[0]}") from None
+            data = carry + block
+            if not block:
+                if data:
+                    yield pa.py_buffer(data), offset, data.find(b'"') >= 0
+                return
+            codes = np.frombuffer(data, dtype=np.uint8)
+            cut = data.rfind(b"\n") + 1
+            quoted = data.find(b'"', 0, cut) >= 0
+            if quoted and cut:
+                end = cut - 1
+                quotes = int(np.count_nonzero(codes[:end] == 34))
+                while quotes % 2 and end > 0:
+                    previous = data.rfind(b"\n", 0, end)
+                    quotes -= int(np.count_nonzero(codes[max(previous, 0):end] == 34))
+                    end = previous
+                cut = end + 1 if end > 0 and quotes % 2 == 0 else 0
+            if cut > 0:
+                yield pa.py_buffer(data[:cut]), offset, quoted
+                offset += cut
+            carry = data[cut:]
+
+
+def _mapped_pieces(path: str) -> Iterator[tuple[pa.Buffer, int, bool]]:
+    """Pieces of a memory-mapped file, without copies. A piece's pages are let go once it has
+    been parsed (the parsed table holds copies), so resident memory stays bounded. (As with any
+    memory map, a file truncated by another program while it is read ends the process.)"""
+    with open(path, "rb") as handle:
+        # Not closed here: pyarrow's views keep the map alive, and it unmaps when the last goes.
+        mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
+    whole = pa.py_buffer(mapped)
+    codes = np.frombuffer(whole, dtype=np.uint8)
+    size = len(mapped)
+    start = 0
+    while start < size:
+        end, quoted = _piece_end(mapped, codes, start, min(size, start + _CSV_BLOCK), size)
+        yield whole.slice(start, end - start), start, quoted
+        if hasattr(mapped, "madvise"):
+            low = start // mmap.PAGESIZE * mmap.PAGESIZE
+            mapped.madvise(mmap.MADV_DONTNEED, low, end // mmap.PAGESIZE * mmap.PAGESIZE - low)
+        start = end
+
+
+def _line_at(path: str, offset: int) -> int:
+    """The line number of the byte at `offset` of the decompressed text (for error messages)."""
+    lines = 1
+    with pa.input_stream(path, compression="detect") as source:
+        while offset > 0:
+            block = source.read(min(offset, 1 << 20))
+            if not block:
+                break
+            lines += block.count(b"\n")
+            offset -= len(block)
+    return lines
+
+
+def _fails(run: Callable[[bool, pa.Buffer], pa.Table], data: pa.Buffer) -> bool:
+    try:
+        run(False, data)
+    except (pa.ArrowInvalid, pa.ArrowTypeError):
+        return True
+    return False
+
+
+def _first_failing_line(piece: pa.Buffer, fails: Callable[[pa.Buffer], bool]) -> int:
+    """The index of the piece's first line whose values do not convert: the shortest prefix of
+    whole lines that fails to parse, found by bisection (only on the error path)."""
+    ends = np.flatnonzero(np.frombuffer(piece, dtype=np.uint8) == 10) + 1
+    if not ends.size or ends[-1] != len(piece):
+        ends = np.append(ends, len(piece))
+    low, high = 0, len(ends) - 1
+    while low < high:
+        middle = (low + high) // 2
+        if fails(piece.slice(0, int(ends[middle]))):
+            high = middle
+        else:
+            low = middle + 1
+    return low
