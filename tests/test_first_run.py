@@ -51,3 +51,34 @@ def test_no_reorder_is_planned_around_a_literal_the_data_never_holds(flights_sto
     # --fix leaves the file as written: nothing moves the typo to the front.
     _check("--fix", str(path))
     assert path.read_text() == TYPO
+
+
+READS = '''import pandas as pd
+
+
+def load():
+    trips = pd.read_csv("data/trips.csv")
+    return trips[trips.minutes > 30].loc[lambda d: d.zone == "north"]
+'''
+
+TAKES = '''def late(trips):
+    return trips[trips.minutes > 30].loc[lambda d: d.zone == "north"]
+'''
+
+
+def test_chains_without_a_profile_are_counted_and_the_command_to_profile_them_printed(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    # A repository without pyproject.toml: files in two folders share the store at its root.
+    (tmp_path / ".git").mkdir()
+    (tmp_path / "jobs").mkdir()
+    (tmp_path / "jobs" / "read.py").write_text(READS)
+    (tmp_path / "lib").mkdir()
+    (tmp_path / "lib" / "take.py").write_text(TAKES)
+    monkeypatch.chdir(tmp_path)
+    result = _check("jobs", "lib")
+    assert result.exit_code == 0
+    lines = result.output.splitlines()
+    assert lines[-3] == "no findings; 2 chains in 2 files, 0 planned with a profile"
+    assert lines[-2] == "2 chains not planned: no profile in .chainlint"
+    assert lines[-1] == "  to profile their data: chainlint profile data/trips.csv --name trips"
+    result = _check("lib")
+    assert result.output.splitlines()[-1] == "  to profile their data: chainlint profile DATA --name NAME"

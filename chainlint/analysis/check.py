@@ -61,6 +61,7 @@ class PlannedChain:
     binding: Binding
     plan: ChainPlan | None = None
     estimator: Estimator | None = field(default=None, compare=False, repr=False)
+    store: Path | None = None
 
 
 @dataclass(frozen=True)
@@ -82,13 +83,14 @@ def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[lis
     for result in results:
         if not result.chains:
             continue
-        profiles = load_store((options.store or find_store(Path(result.path))).resolve())
+        store = (options.store or find_store(Path(result.path))).resolve()
+        profiles = load_store(store)
         for message in profiles.errors:
             errors.setdefault(message, FileError(message.split(":")[0], 1, 1, message))
         for chain in result.chains:
             binding = bind_chain(chain, profiles, options.bindings)
             if binding.profile is None:
-                planned.append(PlannedChain(chain, binding))
+                planned.append(PlannedChain(chain, binding, store=store))
                 continue
             document = profiles.profiles[binding.profile]
             estimator = estimators.get(id(document))
@@ -96,7 +98,7 @@ def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[lis
                 estimator = estimators[id(document)] = Estimator(document, profiles.key)
             rows = options.rows or dict(options.profile_rows).get(binding.profile)
             plan = plan_chain(chain, binding, estimator, rows, profiles.model)
-            planned.append(PlannedChain(chain, binding, plan, estimator))
+            planned.append(PlannedChain(chain, binding, plan, estimator, store))
     return planned, list(errors.values())
 
 

@@ -26,17 +26,21 @@ class StoreError(Exception):
 
 def find_store(start: str | os.PathLike[str] = ".") -> Path:
     """The nearest `.chainlint/` upward, else `.chainlint/` beside the nearest pyproject.toml,
-    else `.chainlint/` in the start folder."""
+    else at the root of the enclosing repository (the folder holding `.git`), else in the start
+    folder: so that every file of a project without pyproject.toml shares one store."""
+    return project_root(start) / STORE_FOLDER
+
+
+def project_root(start: str | os.PathLike[str] = ".") -> Path:
+    """The folder of the store `find_store` finds: the project whose code and data go together."""
     start_path = Path(os.path.abspath(start))  # a linked module belongs to the project it is linked into
     if start_path.is_file():
         start_path = start_path.parent
-    for folder in (start_path, *start_path.parents):
-        if (folder / STORE_FOLDER).is_dir():
-            return folder / STORE_FOLDER
-    for folder in (start_path, *start_path.parents):
-        if (folder / "pyproject.toml").is_file():
-            return folder / STORE_FOLDER
-    return start_path / STORE_FOLDER
+    for marker in (STORE_FOLDER, "pyproject.toml", ".git"):
+        for folder in (start_path, *start_path.parents):
+            if (folder / marker).is_dir() if marker == STORE_FOLDER else (folder / marker).exists():
+                return folder
+    return start_path
 
 
 def check_name(name: str) -> str:

@@ -7,11 +7,14 @@ In a notebook the line is counted within its cell and the message starts with `c
 from __future__ import annotations
 
 import json
+import re
 from collections import Counter
+from pathlib import Path
 from typing import Any
 
 from chainlint.analysis.check import CheckResult
 from chainlint.analysis.model import Cell, FileError
+from chainlint.profile.store import list_profiles
 from chainlint.report.escape import encodable, printable
 from chainlint.report.explain import cell_record, error_record
 from chainlint.rules import Finding
@@ -86,4 +89,43 @@ def check_summary(result: CheckResult, fixed: int = 0) -> str:
         text += f"; {len(result.suppressed)} kept as written by a `chainlint: keep` comment"
     if result.errors:
         text += f"; {len(result.errors)} error{'s' if len(result.errors) != 1 else ''}"
-    return text
+    return text + "".join("\n" + line for line in unplanned_lines(result))
+
+
+def unplanned_lines(result: CheckResult) -> list[str]:
+    """Why chains were not planned, naming the store once, and the command that would make a
+    profile for them: so that a repository without profiles does not read as all good."""
+    unbound = [c for c in result.chains if c.plan is None]
+    if not unbound:
+        return []
+    stores = sorted({_shown(c.store) for c in unbound if c.store is not None})
+    where = stores[0] if len(stores) == 1 else f"{len(stores)} stores"
+    count = f"{len(unbound)} chain{'s' if len(unbound) != 1 else ''}"
+    if all(c.store is not None and not list_profiles(c.store) for c in unbound):
+        lines = [f"{count} not planned: no profile in {where}"]
+    else:
+        lines = [f"{count} not planned: no profile in {where} describes {'them' if len(unbound) != 1 else 'it'} "
+                 "(`chainlint explain` says why for each)"]
+    paths = sorted({c.chain.origin.path for c in unbound if c.chain.origin and c.chain.origin.kind == "read" and c.chain.origin.path})
+    commands = [f"chainlint profile {path} --name {profile_name(path)}" for path in paths]
+    if len(paths) < len(unbound) and not commands:
+        commands = ["chainlint profile DATA --name NAME"]
+    lines += [f"  to profile their data: {command}" for command in commands[:3]]
+    if len(commands) > 3:
+        lines.append(f"  ... and {len(commands) - 3} more data files the code reads")
+    return lines
+
+
+def _shown(folder: Path) -> str:
+    """A folder relative to the current one when it lies inside it."""
+    try:
+        return str(folder.relative_to(Path.cwd())) or "."
+    except ValueError:
+        return str(folder)
+
+
+def profile_name(path: str) -> str:
+    """A profile name for a data file: its name without suffixes, in the characters names allow."""
+    stem = path.replace("\\", "/").rstrip("/").rsplit("/", 1)[-1].split(".")[0]
+    name = re.sub(r"[^A-Za-z0-9_.-]+", "_", stem).strip("_.-")
+    return name or "data"
