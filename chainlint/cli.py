@@ -14,7 +14,7 @@ from typing import NoReturn
 import click
 
 from chainlint import __version__
-from chainlint.analysis.check import RULES, Options, options_from, plan_results
+from chainlint.analysis.check import FAILING, RULES, Options, options_from, plan_results
 from chainlint.analysis.check import check as run_check
 from chainlint.analysis.model import FileError
 from chainlint.analysis.run import analyse_files
@@ -196,7 +196,7 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
         for error in sorted(result.errors, key=lambda e: (e.path, e.line, e.column)):
             click.echo(error_line(error), err=True)
         click.echo(check_summary(replace(result, findings=tuple(remaining)), fixed), err=show_diff or bool(output))
-    failing = set(config.fail_rules or options.rules)
+    failing = set(config.fail_rules or options.rules & FAILING)
     sys.exit(EXIT_ERROR if result.errors else EXIT_FINDINGS if any(f.rule in failing for f in remaining) else EXIT_OK)
 
 
@@ -277,12 +277,15 @@ def _fail(message: str) -> NoReturn:
 @click.option("--top", type=click.IntRange(min=1), default=100, show_default=True, help="Most common values kept per column.")
 @click.option("--batch-rows", type=click.IntRange(min=1), default=BATCH_ROWS, show_default=True)
 @click.option("--for", "sources", multiple=True, type=click.Path(), metavar="SRC",
-              help="Also count exactly how the predicates of the chains in SRC (bound to NAME) combine on the data; repeatable.")
+              help="Count how the predicates of the chains in SRC (bound to NAME) combine on the data (default: the whole project); repeatable.")
+@click.option("--no-joint", is_flag=True, help="Count no joint statistics: column statistics only.")
 @csv_options
 def profile(data: Sequence[str], name: str, store: str | None, min_count: int, redact: Sequence[str],
-            distinct_cap: int, top: int, batch_rows: int, sources: Sequence[str], **reader: str | None) -> None:
-    """Gather column statistics from DATA (CSV, Parquet, Feather/Arrow, JSON Lines) into a profile."""
+            distinct_cap: int, top: int, batch_rows: int, sources: Sequence[str], no_joint: bool, **reader: str | None) -> None:
+    """Gather column statistics from DATA (CSV, Parquet, Feather/Arrow, JSON Lines) into a profile, with
+    exact joint counts of the filters of the project's chains that it describes."""
     folder = _store(store)
+    root = folder.resolve().parent
     try:
         check_name(name)
         key = redaction_key(folder, create=bool(redact))
@@ -290,10 +293,11 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
                             redact=frozenset(redact), redaction_key=key, sketch_key=sketch_key(folder, create=True))
         dataset = open_dataset(data, batch_rows=batch_rows, csv=csv_from(**reader))  # type: ignore[arg-type]
         joint = None
-        if sources:
-            joint = JointCounter(_chains_for(sources, name, dataset), set(dataset.schema.names), frozenset(redact))
+        if not no_joint:
+            chains = _chains_for(sources or [str(root)], name, dataset)
+            joint = JointCounter(chains, set(dataset.schema.names), frozenset(redact), root)
             for text, reason in sorted(joint.skipped.items()):
-                click.echo(f"skipped `{text}`: {reason}", err=True)
+                click.echo(f"not counted `{text}`: {reason}", err=True)
         progress = _Progress(sys.stderr.isatty())
         document = profile_dataset(dataset, name, settings, progress, joint)
         progress.done()
@@ -301,7 +305,10 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
     except (DataError, StoreError, ProfileError) as error:
         _fail(str(error))
     state = "written" if changed else "unchanged"
-    extra = f", joint counts for {len(document['joint'])} predicate sets" if "joint" in document else ""
+    extra = ""
+    if "joint" in document:
+        counted = len({site for entry in document["joint"] for site in entry.get("chains", ())})
+        extra = f", joint counts for {len(document['joint'])} predicate sets of {counted} chains"
     click.echo(f"profile {name}: {document['rows']:,} rows, {len(document['columns'])} columns{extra} -> {path} ({state})")
 
 

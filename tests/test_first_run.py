@@ -45,8 +45,8 @@ def test_no_reorder_is_planned_around_a_literal_the_data_never_holds(flights_sto
     path.write_text(TYPO)
     result = _check("--format", "json", str(path))
     report = json.loads(result.output)
-    assert [f["rule"] for f in report["findings"]] == ["never-matches"]
-    (typo,) = report["findings"]
+    (typo,) = [f for f in report["findings"] if f["rule"] != "joint-uncounted"]
+    assert typo["rule"] == "never-matches"
     assert "'UAL'" in typo["message"] and "planned once this literal is fixed" in typo["message"]
     # --fix leaves the file as written: nothing moves the typo to the front.
     _check("--fix", str(path))
@@ -82,3 +82,84 @@ def test_chains_without_a_profile_are_counted_and_the_command_to_profile_them_pr
     assert lines[-1] == "  to profile their data: chainlint profile data/trips.csv --name trips"
     result = _check("lib")
     assert result.output.splitlines()[-1] == "  to profile their data: chainlint profile DATA --name NAME"
+
+
+CORRELATED = '''import pandas as pd
+
+LONG_TRIP = 2000
+
+
+def hawaii(frame):
+    return frame.loc[lambda d: d.dest == "HNL"].loc[lambda d: d.carrier == "HA"].loc[lambda d: d.distance > 1000]
+
+
+def long_ones(frame):
+    return frame.query("distance > @LONG_TRIP").query("carrier == 'UA'")
+
+
+def computed(frame):
+    frame["speed"] = frame.distance / frame.air_time
+    # chainlint: profile=flights
+    return frame[frame.speed > 8].loc[lambda d: d.origin == "JFK"]
+'''
+
+
+@pytest.fixture
+def counted(flights_store: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
+    """A project profiled with the defaults: no `--for`, no store option, from its root."""
+    root = tmp_path / "project"
+    root.mkdir()
+    (root / "pyproject.toml").write_text("[project]\nname = 'demo'\n")
+    (root / "data").mkdir()
+    (root / "data" / "flights.parquet").write_bytes((flights_store / "data" / "flights.parquet").read_bytes())
+    (root / "src").mkdir()
+    (root / "src" / "jobs.py").write_text(CORRELATED)
+    monkeypatch.chdir(root)
+    result = CliRunner().invoke(main, ["profile", "data/flights.parquet", "--name", "flights"])
+    assert result.exit_code == 0, result.output
+    assert "joint counts for 1 predicate sets of 1 chains" in result.output
+    return root
+
+
+def test_profile_counts_the_projects_chains_without_being_asked(counted: Path) -> None:
+    document = json.loads((counted / ".chainlint" / "profiles" / "flights.json").read_text())
+    (entry,) = document["joint"]
+    assert entry["chains"] == ["src/jobs.py:frame"]
+    frame = flights()
+    truth = frame[(frame.dest == "HNL") & (frame.carrier == "HA") & (frame.distance > 1000)]  # pandas
+    assert dict(entry["subsets"])[7] == len(truth)
+    explained = json.loads(CliRunner().invoke(main, ["explain", "--format", "json", "src/jobs.py"]).output)
+    assert [s["basis"] for s in explained["chains"][0]["steps"]] == ["joint (exact)"] * 3
+    result = CliRunner().invoke(main, ["profile", "data/flights.parquet", "--name", "flights", "--no-joint"])
+    assert result.exit_code == 0 and "joint" not in json.loads((counted / ".chainlint" / "profiles" / "flights.json").read_text())
+
+
+def test_chains_never_counted_are_notes_with_the_reason_not_failures(counted: Path) -> None:
+    result = _check("--format", "json", "src/jobs.py")
+    report = json.loads(result.output)
+    notes = {f["line"]: f["message"] for f in report["findings"] if f["rule"] == "joint-uncounted"}
+    assert "whose value is only known when the code runs" in notes[11]
+    assert "reads `speed`, which the data of profile `flights` does not have" in notes[17]
+    assert not [f for f in report["findings"] if f["rule"] == "stale-joint"]
+    assert result.exit_code == (1 if any(f["rule"] != "joint-uncounted" for f in report["findings"]) else 0)
+    only_notes = _check("--rule", "joint-uncounted", "--rule", "stale-joint", "src/jobs.py")
+    assert only_notes.exit_code == 0, only_notes.output
+    sarif = json.loads(_check("--format", "sarif", "src/jobs.py").output)
+    levels = {r["ruleId"]: r["level"] for r in sarif["runs"][0]["results"]}
+    assert levels["joint-uncounted"] == "note"
+
+
+def test_a_file_newer_than_the_profile_is_a_note_and_a_changed_chain_is_stale(counted: Path) -> None:
+    import os
+    import time
+
+    (counted / "src" / "later.py").write_text("def f(frame):\n    return frame[frame.month == 1].loc[lambda d: d.origin == 'EWR']\n")
+    future = time.time() + 10
+    os.utime(counted / "src" / "later.py", (future, future))
+    report = json.loads(_check("--format", "json", "src/later.py").output)
+    (note,) = [f for f in report["findings"] if f["rule"] == "joint-uncounted"]
+    assert "its file changed after profile `flights` was made" in note["message"]
+    # The counted chain changes: now it is stale, and that fails the run.
+    (counted / "src" / "jobs.py").write_text(CORRELATED.replace('"HA"', '"UA"'))
+    result = _check("--rule", "stale-joint", "src/jobs.py")
+    assert result.exit_code == 1 and ": stale-joint: " in result.output

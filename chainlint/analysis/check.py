@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from chainlint.analysis.model import Chain, FileAnalysis, FileError
+from chainlint.analysis.sites import chain_site
 from chainlint.bind.binding import Binding, bind_chain
 from chainlint.bind.profiles import load_store
 from chainlint.config import Config
@@ -17,6 +18,7 @@ from chainlint.rules import (
     CATALOG,
     Finding,
     RuleContext,
+    joint_uncounted,
     never_matches,
     reorder,
     stale_joint,
@@ -26,6 +28,8 @@ from chainlint.rules import (
 
 #: Rule names, and whether each runs unless asked otherwise.
 RULES = {module.NAME: module.NAME != unbound.NAME for module in CATALOG}
+#: The rules whose findings fail a run unless `fail_rules` says otherwise (notes only inform).
+FAILING = frozenset(module.NAME for module in CATALOG if getattr(module, "FAILS", True))
 
 
 @dataclass(frozen=True)
@@ -121,8 +125,11 @@ def apply_rules(planned: Sequence[PlannedChain], options: Options) -> tuple[list
                 found.extend(reorder.check(item.plan, options.context))
             if unknown_column.NAME in options.rules:
                 found.extend(unknown_column.check(item.plan, item.estimator))
+            site = chain_site(item.chain, item.store.parent if item.store else Path.cwd())
             if stale_joint.NAME in options.rules:
-                found.extend(stale_joint.check(item.plan, item.estimator))
+                found.extend(stale_joint.check(item.plan, item.estimator, site))
+            if joint_uncounted.NAME in options.rules:
+                found.extend(joint_uncounted.check(item.plan, item.estimator, site))
         for finding in found:
             (suppressed if keep is not None and (not keep or finding.rule in keep) else findings).append(finding)
 

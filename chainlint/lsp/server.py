@@ -34,7 +34,7 @@ from chainlint.config import ConfigError, load_config
 from chainlint.parse.source import SourceText, text_source
 from chainlint.rewrite.fixes import fix_in_text
 from chainlint.rewrite.permute import RewriteError
-from chainlint.rules import Finding
+from chainlint.rules import CATALOG, Finding
 
 DEBOUNCE_SECONDS = 0.025
 logger = logging.getLogger("chainlint.lsp")
@@ -91,7 +91,10 @@ def _range(ls: LanguageServer, source: SourceText, span: Span) -> types.Range:
 
 
 def diagnostics(ls: LanguageServer, state: DocumentState) -> list[types.Diagnostic]:
-    severity = {"unbound": types.DiagnosticSeverity.Information}
+    # The same level as the SARIF log: each rule's LEVEL.
+    levels = {"note": types.DiagnosticSeverity.Information, "warning": types.DiagnosticSeverity.Warning,
+              "error": types.DiagnosticSeverity.Error}
+    severity = {module.NAME: levels[module.LEVEL] for module in CATALOG}
     out = []
     for finding in state.findings:
         out.append(types.Diagnostic(

@@ -15,12 +15,14 @@ from __future__ import annotations
 import importlib
 import threading
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 import pyarrow as pa
 
 from chainlint.analysis.model import Chain
+from chainlint.analysis.sites import chain_site
 from chainlint.evaluate.arrow_masks import bit_mask
 from chainlint.evaluate.support import NotEvaluable, unevaluable
 from chainlint.ir import Node
@@ -35,14 +37,17 @@ class _Target:
     texts: tuple[str, ...]
     predicates: tuple[Node, ...]
     subsets: np.ndarray  # rows passing every predicate of each subset (bit i: the i-th)
+    sites: set[str] = field(default_factory=set)  # the chains counted (`chain_site`)
 
 
 class JointCounter:
     """Counts, batch by batch, how many rows pass each combination of a chain's predicates."""
 
-    def __init__(self, chains: Sequence[Chain], columns: set[str], redacted: frozenset[str] = frozenset()) -> None:
+    def __init__(self, chains: Sequence[Chain], columns: set[str], redacted: frozenset[str] = frozenset(),
+                 root: Path | None = None) -> None:
         """`redacted`: columns whose predicates are not counted (a count would confirm that the
-        code's literal occurs in the column)."""
+        code's literal occurs in the column); `root`: the project root, to name the chains
+        counted."""
         self.targets: dict[tuple[str, ...], _Target] = {}
         self.skipped: dict[str, str] = {}
         for chain in chains:
@@ -62,6 +67,8 @@ class JointCounter:
                 texts = tuple(sorted(chosen))[:MAX_STEPS]
                 if len(texts) >= 2 and texts not in self.targets:
                     self.targets[texts] = _Target(texts, tuple(chosen[t] for t in texts), np.zeros(1 << len(texts), dtype=np.int64))
+                if len(texts) >= 2 and root is not None:
+                    self.targets[texts].sites.add(chain_site(chain, root))
         if self.targets:
             # pyarrow turns Python literals into scalars through its pandas shim, which imports
             # pandas (0.2 s) on first use: start that import now, while the data is opened.
@@ -99,7 +106,10 @@ class JointCounter:
         entries = []
         for texts in sorted(self.targets):
             subsets = hide_small_cells(self.targets[texts].subsets, min_count)
-            entries.append({"predicates": list(texts), "subsets": [[mask, int(c)] for mask, c in enumerate(subsets)]})
+            entry: dict = {"predicates": list(texts), "subsets": [[mask, int(c)] for mask, c in enumerate(subsets)]}  # type: ignore[type-arg]
+            if self.targets[texts].sites:
+                entry["chains"] = sorted(self.targets[texts].sites)
+            entries.append(entry)
         return entries
 
 

@@ -1,27 +1,68 @@
-"""`stale-joint` (a note): the profile holds joint counts, but not for this chain's predicates."""
+"""`stale-joint`: the profile counted this chain's filters together once, and the code changed
+since, so its joint counts no longer cover the chain."""
 
 from __future__ import annotations
 
+import os
+from datetime import UTC, datetime
+
 from chainlint.estimate.selectivity import Estimator
+from chainlint.evaluate.support import unevaluable
 from chainlint.plan.chains import ChainPlan
 from chainlint.rules.base import Finding
 
 NAME = "stale-joint"
-LEVEL = "note"
-SUMMARY = "joint statistics do not cover the chain"
-DESCRIPTION = "The chain's profile was made with joint counts (`profile --for`), but not for this chain's predicates: the code changed since."
+LEVEL = "warning"
+SUMMARY = "joint counts made for an earlier version of the chain"
+DESCRIPTION = "The profile counted how this chain's filters combine, but the chain changed since: its joint counts no longer cover it."
 HELP = (
-    "Run `chainlint profile ... --for SRC` again to count how this chain's filters combine; until then it is planned under independence."
+    "Run `chainlint profile` again to count how the chain's filters combine now; until then it is planned under independence."
 )
 
 
-def check(plan: ChainPlan, estimator: Estimator) -> list[Finding]:
-    if not estimator.joint:
-        return []
+def gap(plan: ChainPlan, estimator: Estimator, site: str) -> tuple[str, str] | None:
+    """("stale" | "uncounted", why) for the first segment of two or more movable steps that the
+    profile's joint counts do not cover, or None. Only profiles made with joint counts have
+    gaps."""
+    if "joint" not in estimator.profile:
+        return None
+    name = plan.binding.profile
     for segment in plan.chain.segments():
-        texts = frozenset(plan.chain.steps[i].predicate.canonical() for i in segment)
-        if len(segment) >= 2 and not estimator.joint_covers(texts):
-            message = (f"profile `{plan.binding.profile}` has joint statistics, but not for these filters on "
-                       f"`{plan.chain.frame}`; they are stale, so the chain is planned under independence")
-            return [Finding(NAME, plan.chain.path, plan.chain.span, message)]
-    return []
+        steps = [plan.chain.steps[i] for i in segment]
+        texts = frozenset(step.predicate.canonical() for step in steps)
+        if len(segment) < 2 or estimator.joint_covers(texts):
+            continue
+        for step in steps:
+            reason = unevaluable(step.predicate)
+            if reason:
+                return "uncounted", f"`{step.predicate.canonical()}` cannot be counted on data: {reason}"
+            missing = sorted(step.predicate.columns() - estimator.columns.keys())
+            if missing:
+                return "uncounted", (f"`{step.predicate.canonical()}` reads `{missing[0]}`, which the data of profile "
+                                     f"`{name}` does not have (a column the code computes?)")
+        for entry in estimator.profile["joint"]:
+            sites = entry.get("chains")
+            if texts & set(entry["predicates"]) and (sites is None or site in sites):
+                return "stale", ""
+        created = str(estimator.profile.get("created", ""))
+        if _modified_after(plan.chain.path, created):
+            return "uncounted", f"its file changed after profile `{name}` was made ({created})"
+        return "uncounted", f"it was not among the chains counted when profile `{name}` was made"
+    return None
+
+
+def _modified_after(path: str, created: str) -> bool:
+    try:
+        made = datetime.strptime(created, "%Y-%m-%dT%H:%M:%SZ").replace(tzinfo=UTC).timestamp()
+        return os.stat(path).st_mtime > made + 1
+    except (OSError, ValueError):
+        return False
+
+
+def check(plan: ChainPlan, estimator: Estimator, site: str) -> list[Finding]:
+    found = gap(plan, estimator, site)
+    if found is None or found[0] != "stale":
+        return []
+    message = (f"profile `{plan.binding.profile}` counted these filters on `{plan.chain.frame}` together, but the chain "
+               "changed since; it is planned under independence until the data is profiled again")
+    return [Finding(NAME, plan.chain.path, plan.chain.span, message)]
