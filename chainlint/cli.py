@@ -48,7 +48,7 @@ from chainlint.profile.store import (
     sketch_key,
     write_atomic,
 )
-from chainlint.report.check import cell_prefix, check_json, check_lines, check_summary, error_line
+from chainlint.report.check import cell_prefix, check_json, check_lines, check_summary, error_line, shown_path
 from chainlint.report.escape import printable
 from chainlint.report.explain import all_errors, explain_json, explain_text, summary
 from chainlint.report.profiles import profile_line, profile_summary
@@ -306,10 +306,9 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
         _fail(str(error))
     state = "written" if changed else "unchanged"
     extra = ""
-    if "joint" in document:
-        counted = len({site for entry in document["joint"] for site in entry.get("chains", ())})
-        extra = f", joint counts for {len(document['joint'])} predicate sets of {counted} chains"
-    click.echo(f"profile {name}: {document['rows']:,} rows, {len(document['columns'])} columns{extra} -> {path} ({state})")
+    if joint is not None:
+        extra = f", joint counts for {len(document['joint'])} predicate sets from {joint.chains} chain{'s' if joint.chains != 1 else ''}"
+    click.echo(f"profile {name}: {document['rows']:,} rows, {len(document['columns'])} columns{extra} -> {shown_path(path)} ({state})")
 
 
 def _chains_for(sources: Sequence[str], name: str, dataset) -> list:  # type: ignore[no-untyped-def]

@@ -117,7 +117,7 @@ def counted(flights_store: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
     monkeypatch.chdir(root)
     result = CliRunner().invoke(main, ["profile", "data/flights.parquet", "--name", "flights"])
     assert result.exit_code == 0, result.output
-    assert "joint counts for 1 predicate sets of 1 chains" in result.output
+    assert "joint counts for 1 predicate sets from 1 chain" in result.output
     return root
 
 

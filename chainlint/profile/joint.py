@@ -50,7 +50,9 @@ class JointCounter:
         counted."""
         self.targets: dict[tuple[str, ...], _Target] = {}
         self.skipped: dict[str, str] = {}
+        self.chains = 0  # chains with at least one set of predicates to count
         for chain in chains:
+            counted = False
             for segment in chain.segments():
                 chosen: dict[str, Node] = {}
                 for index in segment:
@@ -67,8 +69,11 @@ class JointCounter:
                 texts = tuple(sorted(chosen))[:MAX_STEPS]
                 if len(texts) >= 2 and texts not in self.targets:
                     self.targets[texts] = _Target(texts, tuple(chosen[t] for t in texts), np.zeros(1 << len(texts), dtype=np.int64))
-                if len(texts) >= 2 and root is not None:
-                    self.targets[texts].sites.add(chain_site(chain, root))
+                if len(texts) >= 2:
+                    counted = True
+                    if root is not None:
+                        self.targets[texts].sites.add(chain_site(chain, root))
+            self.chains += counted
         if self.targets:
             # pyarrow turns Python literals into scalars through its pandas shim, which imports
             # pandas (0.2 s) on first use: start that import now, while the data is opened.

@@ -89,7 +89,7 @@ def check_summary(result: CheckResult, fixed: int = 0) -> str:
         text += f"; {len(result.suppressed)} kept as written by a `chainlint: keep` comment"
     if result.errors:
         text += f"; {len(result.errors)} error{'s' if len(result.errors) != 1 else ''}"
-    return text + "".join("\n" + line for line in unplanned_lines(result))
+    return text + "".join("\n" + printable(line) for line in unplanned_lines(result))
 
 
 def unplanned_lines(result: CheckResult) -> list[str]:
@@ -98,7 +98,7 @@ def unplanned_lines(result: CheckResult) -> list[str]:
     unbound = [c for c in result.chains if c.plan is None]
     if not unbound:
         return []
-    stores = sorted({_shown(c.store) for c in unbound if c.store is not None})
+    stores = sorted({shown_path(c.store) for c in unbound if c.store is not None})
     where = stores[0] if len(stores) == 1 else f"{len(stores)} stores"
     count = f"{len(unbound)} chain{'s' if len(unbound) != 1 else ''}"
     if all(c.store is not None and not list_profiles(c.store) for c in unbound):
@@ -116,7 +116,7 @@ def unplanned_lines(result: CheckResult) -> list[str]:
     return lines
 
 
-def _shown(folder: Path) -> str:
+def shown_path(folder: Path) -> str:
     """A folder relative to the current one when it lies inside it."""
     try:
         return str(folder.relative_to(Path.cwd())) or "."
