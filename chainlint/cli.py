@@ -419,6 +419,7 @@ def calibrate(store: str | None, rows: int) -> None:
         f"cost model -> {path}: numeric == {model.compare['numeric']:.2f} ns/row, str == {model.compare['str']:.2f} ns/row, "
         f"fixed {model.fixed / 1e6:.2f} ms/step"
     )
+    click.echo("commit it beside the profiles, so that CI and every machine plan with this model", err=True)
 
 
 @main.command()

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from chainlint.analysis.model import Chain, FileAnalysis, FileError
@@ -101,9 +101,19 @@ def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[lis
             if estimator is None:
                 estimator = estimators[id(document)] = Estimator(document, profiles.key)
             rows = options.rows or dict(options.profile_rows).get(binding.profile)
-            plan = plan_chain(chain, binding, estimator, rows, profiles.model)
+            plan = keep_written(plan_chain(chain, binding, estimator, rows, profiles.model), options.context)
             planned.append(PlannedChain(chain, binding, plan, estimator, store))
     return planned, list(errors.values())
+
+
+def keep_written(plan: ChainPlan, context: RuleContext) -> ChainPlan:
+    """The written order stays the plan unless the planned one clears the thresholds under the
+    cost model in force: an order already applied does not flip on a small change of the model
+    (a recalibration on another machine) or of the estimates."""
+    if plan.order == tuple(range(len(plan.chain.steps))) or (
+            plan.speedup >= context.min_gain and plan.written_seconds - plan.planned_seconds >= context.min_saving):
+        return plan
+    return replace(plan, planned=plan.written)
 
 
 def apply_rules(planned: Sequence[PlannedChain], options: Options) -> tuple[list[Finding], list[Finding]]:
