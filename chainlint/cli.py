@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import fnmatch
 import os
 import sys
 import time
@@ -18,6 +17,7 @@ from chainlint.analysis.check import FAILING, RULES, Options, options_from, plan
 from chainlint.analysis.check import check as run_check
 from chainlint.analysis.model import FileError
 from chainlint.analysis.run import analyse_files
+from chainlint.analysis.profiled import chains_for, code_read_options, project_chains
 from chainlint.cli_csv import csv_from, csv_options
 from chainlint.config import Config, ConfigError, describe, load_config, override
 from chainlint.discover import discover
@@ -30,6 +30,7 @@ from chainlint.profile.columns import Settings
 from chainlint.profile.format import ProfileError, dumps
 from chainlint.profile.joint import JointCounter
 from chainlint.profile.merge import merge_profiles
+from chainlint.profile.read_options import CsvOptions, command_flags
 from chainlint.profile.readers import (
     BATCH_ROWS,
     DataError,
@@ -291,10 +292,14 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
         key = redaction_key(folder, create=bool(redact))
         settings = Settings(min_count=min_count, distinct_cap=distinct_cap, top=top,
                             redact=frozenset(redact), redaction_key=key, sketch_key=sketch_key(folder, create=True))
-        dataset = open_dataset(data, batch_rows=batch_rows, csv=csv_from(**reader))  # type: ignore[arg-type]
+        csv = csv_from(**reader)  # type: ignore[arg-type]
+        code = [] if no_joint else project_chains(sources or [str(root)])
+        csv = _code_options(csv, code, data)
+        dataset = open_dataset(data, batch_rows=batch_rows, csv=csv)
         joint = None
         if not no_joint:
-            chains = _chains_for(sources or [str(root)], name, dataset)
+            config = _config(list(sources or [str(root)]))
+            chains = chains_for(code, config, name, {Path(f.path).name for f in dataset.files}, set(dataset.schema.names))
             joint = JointCounter(chains, set(dataset.schema.names), frozenset(redact), root)
             for text, reason in sorted(joint.skipped.items()):
                 click.echo(f"not counted `{text}`: {reason}", err=True)
@@ -311,26 +316,17 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
     click.echo(f"profile {name}: {document['rows']:,} rows, {len(document['columns'])} columns{extra} -> {shown_path(path)} ({state})")
 
 
-def _chains_for(sources: Sequence[str], name: str, dataset) -> list:  # type: ignore[no-untyped-def]
-    """The chains of SRC that profile NAME describes: bound to it by a comment, the
-    configuration or the file they read, or (bound to nothing else) reading only its columns."""
-    found = discover(sources)
-    config = _config(list(sources))
-    data_names = {Path(f.path).name for f in dataset.files}
-    columns = set(dataset.schema.names)
-    chosen = []
-    for result in analyse_files(found.files, jobs=1):
-        for chain in result.chains:
-            origin = chain.origin
-            named = chain.profile_comment or (origin.profile if origin else None)
-            if named is None and origin is not None:
-                named = next((p for pattern, p in config.bindings if fnmatch.fnmatchcase(origin.name, pattern)), None)
-            if named is None and origin is not None and origin.path and Path(origin.path).name in data_names:
-                named = name
-            reads = {c for step in chain.steps for c in step.predicate.columns()}
-            if named == name or (named is None and reads <= columns):
-                chosen.append(chain)
-    return chosen
+def _code_options(given: CsvOptions, chains: Sequence, data: Sequence[str]) -> CsvOptions:  # type: ignore[type-arg]
+    """The reader options given, or (none given) those the code's own `pd.read_csv` of DATA passes."""
+    if given != CsvOptions():
+        return given
+    found, problem = code_read_options(chains, data)
+    if problem:
+        click.echo(f"the code's pd.read_csv options for this file are not followed: {problem}", err=True)
+    if found is None:
+        return given
+    click.echo(f"reading as the code does: {command_flags(found)}", err=True)
+    return found
 
 
 @main.group(invoke_without_command=True)
@@ -450,7 +446,8 @@ def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, col
     if not chains:
         _fail(f"{target}: no chain of row filters {'at that line' if line_text else 'in this file'}")
     try:
-        table = load_table(data, rows, [c.strip() for c in columns.split(",")] if columns else None, csv_from(**reader))  # type: ignore[arg-type]
+        csv = _code_options(csv_from(**reader), chains, data)  # type: ignore[arg-type]
+        table = load_table(data, rows, [c.strip() for c in columns.split(",")] if columns else None, csv)
     except (DataError, MeasureError) as error:
         _fail(str(error))
     frame = as_read_csv(table)

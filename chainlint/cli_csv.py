@@ -7,7 +7,7 @@ from typing import Any
 
 import click
 
-from chainlint.profile.csv_reader import CsvOptions
+from chainlint.profile.read_options import CsvOptions
 
 
 def _rows(text: str, what: str) -> tuple[int, ...]:

@@ -16,7 +16,7 @@ from click.testing import CliRunner
 from chainlint.cli import main
 from chainlint.measure.run import as_read_csv, load_table
 from chainlint.profile import csv_reader
-from chainlint.profile.csv_reader import CsvOptions
+from chainlint.profile.read_options import CsvOptions
 
 AWKWARD = {
     # A column almost all empty, empty text, NA words pandas reads as missing.
@@ -147,3 +147,34 @@ def test_reader_options_that_cannot_be_followed_say_so(files: Path) -> None:
     result = CliRunner().invoke(main, ["profile", str(files / "empty.csv"), "--name", "p", "--store", str(files / "s"),
                                        "--parse-dates", "nope"])
     assert result.exit_code == 2 and "no column 'nope'" in result.output
+
+
+CODE = '''import pandas as pd
+
+
+def depots():
+    scans = pd.read_csv("data/scans.csv", sep=";", na_values=["-"], skiprows=[1], dtype={"code": "str"})
+    return scans[scans.parcels > 1].loc[lambda d: d.city == "north"]
+'''
+
+
+def test_the_codes_own_read_csv_options_are_followed(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    (tmp_path / "pyproject.toml").write_text("[project]\nname = 'demo'\n")
+    (tmp_path / "data").mkdir()
+    data = tmp_path / "data" / "scans.csv"
+    data.write_text("city;parcels;code\n(text);(n);(id)\n" + "".join(f"{c};{n};{k}\n" for c, n, k in
+                    [("north", 2, "007"), ("south", "-", "010"), ("north", 3, "-"), ("-", 1, "011")] * 3))
+    (tmp_path / "jobs.py").write_text(CODE)
+    monkeypatch.chdir(tmp_path)
+    hint = CliRunner().invoke(main, ["check", "jobs.py"]).output.splitlines()[-1]
+    assert hint == "  to profile their data: chainlint profile data/scans.csv --name scans --sep ';' --skiprows 1, --na-value - --dtype code=str"
+    result = CliRunner().invoke(main, ["profile", "data/scans.csv", "--name", "scans", "--min-count", "1"])
+    assert result.exit_code == 0, result.output
+    document = json.loads((tmp_path / ".chainlint" / "profiles" / "scans.json").read_text())
+    truth = pd.read_csv(data, sep=";", na_values=["-"], skiprows=[1], dtype={"code": "str"})  # pandas: the reference
+    for column in truth.columns:
+        assert document["columns"][column]["nulls"] == truth[column].isna().sum()
+        assert document["columns"][column]["type"] == str(truth[column].dtype)
+    assert sorted(v for v, _ in document["columns"]["code"]["top"]["values"]) == ["007", "010", "011"]
+    (entry,) = document["joint"]
+    assert dict(entry["subsets"])[3] == len(truth[(truth.parcels > 1) & (truth.city == "north")])

@@ -84,7 +84,9 @@ class FrameOrigin:
     `kind`: `read` (assigned from `pd.read_csv/read_parquet/read_feather/read_json`, `path`
     the literal or module-constant path when there is one), `parameter` (a parameter of the
     enclosing function), `assigned` (assigned from anything else) or `unknown`; `profile`: a
-    `# chainlint: profile=NAME` comment on the assigning statement.
+    `# chainlint: profile=NAME` comment on the assigning statement; `read_options`: the
+    reader options the call passes as literals (`sep`, `header`, `na_values`, ...), lists as
+    tuples and dictionaries as tuples of pairs.
     """
 
     name: str
@@ -92,6 +94,7 @@ class FrameOrigin:
     reader: str | None = None
     path: str | None = None
     profile: str | None = None
+    read_options: tuple[tuple[str, object], ...] = ()  # literal keyword arguments of the read call
 
 
 @dataclass(frozen=True)

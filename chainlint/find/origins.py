@@ -33,6 +33,29 @@ def profile_comment(line: str) -> str | None:
     return match.group(1) if match else None
 
 
+READ_OPTIONS = frozenset({"sep", "delimiter", "header", "skiprows", "na_values", "dtype", "parse_dates", "encoding"})
+
+
+def _frozen(value: object) -> object:
+    if isinstance(value, (list, tuple)):
+        return tuple(_frozen(v) for v in value)
+    if isinstance(value, dict):
+        return tuple((k, _frozen(v)) for k, v in value.items())
+    return value
+
+
+def read_options(call: ast.expr) -> tuple[tuple[str, object], ...]:
+    """The reader options a read call passes as literals, in keyword order; others are left out."""
+    found = []
+    for keyword in call.keywords if isinstance(call, ast.Call) else ():
+        if keyword.arg in READ_OPTIONS:
+            try:
+                found.append((keyword.arg, _frozen(ast.literal_eval(keyword.value))))
+            except (ValueError, TypeError, SyntaxError, MemoryError, RecursionError):
+                continue
+    return tuple(found)
+
+
 @dataclass
 class Scope:
     parameters: frozenset[str] = frozenset()
@@ -78,7 +101,8 @@ class Origins:
             self.constants[target.id] = value.value
         reader, path = self.reader_call(value)
         kind = "read" if reader else "assigned"
-        self.scopes[-1].assigned[target.id] = FrameOrigin(target.id, kind, reader, path, self.comment_on(statement))
+        options = read_options(value) if reader else ()
+        self.scopes[-1].assigned[target.id] = FrameOrigin(target.id, kind, reader, path, self.comment_on(statement), options)
 
     def reader_call(self, value: ast.expr) -> tuple[str | None, str | None]:
         """`("read_parquet", "data/x.parquet")` for `pd.read_parquet("data/x.parquet")`."""
@@ -97,7 +121,7 @@ class Origins:
     def lookup(self, name: str | None, base: ast.expr) -> FrameOrigin | None:
         reader, path = self.reader_call(base)
         if reader:
-            return FrameOrigin(name or "", "read", reader, path, None)
+            return FrameOrigin(name or "", "read", reader, path, None, read_options(base))
         if name is None:
             return None
         for scope in reversed(self.scopes):

@@ -23,6 +23,7 @@ import pyarrow as pa
 import pyarrow.csv as pacsv
 
 from chainlint.profile.errors import DataError
+from chainlint.profile.read_options import CsvOptions
 
 _CSV_BLOCK = 32 << 20
 _CSV_PARSE_BLOCK = 1 << 20  # pyarrow's default; measured the quickest here
@@ -40,41 +41,6 @@ _DTYPES = {
     "bool": pa.bool_(), "boolean": pa.bool_(),
     "category": pa.dictionary(pa.int32(), pa.string()),
 }
-
-
-@dataclass(frozen=True)
-class CsvOptions:
-    """The `pd.read_csv` options chainlint follows; the defaults are pandas' own.
-
-    `header`: the header rows (`None`: no header; several: names joined as pandas' tuples
-    print); `skiprows`: a count of leading lines, or line numbers (leading ones, or the ones
-    right after the header); `na_values` add to pandas' NA strings; `dtype`: (column, dtype)
-    pairs; `parse_dates`: columns read as datetimes.
-    """
-
-    sep: str | None = None
-    header: tuple[int, ...] | None = (0,)
-    skiprows: int | tuple[int, ...] = 0
-    na_values: tuple[str, ...] = ()
-    dtype: tuple[tuple[str, str], ...] = ()
-    parse_dates: tuple[str, ...] = ()
-    encoding: str = "utf-8"
-
-    def check(self) -> None:
-        """Raise DataError for options chainlint cannot follow."""
-        if self.sep is not None and len(self.sep) != 1:
-            raise DataError(f"separator {self.sep!r}: only a single character is supported")
-        unknown = sorted({d for _, d in self.dtype if d not in _DTYPES})
-        if unknown:
-            raise DataError(f"dtype {unknown[0]!r} is not supported (use one of {', '.join(sorted(_DTYPES))})")
-        if self.header is not None and (not self.header or list(self.header) != list(range(self.header[0], self.header[-1] + 1))):
-            raise DataError("header rows must be consecutive")
-        try:
-            name = codecs.lookup(self.encoding).name
-        except LookupError:
-            raise DataError(f"unknown encoding {self.encoding!r}") from None
-        if name.startswith(("utf-16", "utf-32")):
-            raise DataError(f"encoding {self.encoding!r} is not supported (line ends are not single bytes)")
 
 
 @dataclass(frozen=True)

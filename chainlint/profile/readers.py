@@ -22,7 +22,8 @@ import pyarrow.ipc as paipc
 import pyarrow.json as pajson
 import pyarrow.parquet as pq
 
-from chainlint.profile.csv_reader import CsvOptions, open_csv
+from chainlint.profile.csv_reader import open_csv
+from chainlint.profile.read_options import CsvOptions
 from chainlint.profile.errors import DataError
 
 __all__ = ["BATCH_ROWS", "CsvOptions", "DataError", "Dataset", "open_dataset"]

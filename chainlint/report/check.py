@@ -8,12 +8,15 @@ from __future__ import annotations
 
 import json
 import re
+import shlex
 from collections import Counter
 from pathlib import Path
 from typing import Any
 
 from chainlint.analysis.check import CheckResult
 from chainlint.analysis.model import Cell, FileError
+from chainlint.profile.errors import DataError
+from chainlint.profile.read_options import command_flags, options_from_code
 from chainlint.profile.store import list_profiles
 from chainlint.report.escape import encodable, printable
 from chainlint.report.explain import cell_record, error_record
@@ -106,14 +109,29 @@ def unplanned_lines(result: CheckResult) -> list[str]:
     else:
         lines = [f"{count} not planned: no profile in {where} describes {'them' if len(unbound) != 1 else 'it'} "
                  "(`chainlint explain` says why for each)"]
-    paths = sorted({c.chain.origin.path for c in unbound if c.chain.origin and c.chain.origin.kind == "read" and c.chain.origin.path})
-    commands = [f"chainlint profile {path} --name {profile_name(path)}" for path in paths]
+    reads = {(c.chain.origin.path, c.chain.origin.read_options) for c in unbound
+             if c.chain.origin and c.chain.origin.kind == "read" and c.chain.origin.path}
+    paths = sorted({path for path, _ in reads})
+    commands = [_command(path, {options for p, options in reads if p == path}) for path in paths]
     if len(paths) < len(unbound) and not commands:
         commands = ["chainlint profile DATA --name NAME"]
     lines += [f"  to profile their data: {command}" for command in commands[:3]]
     if len(commands) > 3:
         lines.append(f"  ... and {len(commands) - 3} more data files the code reads")
     return lines
+
+
+def _command(path: str, options: set[tuple[tuple[str, object], ...]]) -> str:
+    """The profile command for a data file, with the reader options the code passes to it
+    (when every read of it passes the same ones, and chainlint can follow them)."""
+    command = f"chainlint profile {shlex.quote(path)} --name {profile_name(path)}"
+    if len(options) == 1 and path.lower().endswith((".csv", ".csv.gz", ".tsv", ".tsv.gz", ".csv.bz2")):
+        try:
+            flags = command_flags(options_from_code(options.pop()))
+        except DataError:
+            flags = ""
+        command += f" {flags}" if flags else ""
+    return command
 
 
 def shown_path(folder: Path) -> str:
