@@ -93,8 +93,8 @@ def hawaii(frame):
     return frame.loc[lambda d: d.dest == "HNL"].loc[lambda d: d.carrier == "HA"].loc[lambda d: d.distance > 1000]
 
 
-def long_ones(frame):
-    return frame.query("distance > @LONG_TRIP").query("carrier == 'UA'")
+def long_ones(frame, limit: float):
+    return frame.query("distance > @limit").query("carrier == 'UA'")
 
 
 def computed(frame):
