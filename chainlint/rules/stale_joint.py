@@ -36,6 +36,9 @@ def gap(plan: ChainPlan, estimator: Estimator, site: str) -> tuple[str, str] | N
             reason = unevaluable(step.predicate)
             if reason:
                 return "uncounted", f"`{step.predicate.canonical()}` cannot be counted on data: {reason}"
+            redacted = sorted(step.predicate.columns() & set(estimator.profile["settings"].get("redacted", ())))
+            if redacted:
+                return "uncounted", f"`{step.predicate.canonical()}` reads `{redacted[0]}`, a redacted column, whose counts are not stored"
             missing = sorted(step.predicate.columns() - estimator.columns.keys())
             if missing:
                 return "uncounted", (f"`{step.predicate.canonical()}` reads `{missing[0]}`, which the data of profile "
