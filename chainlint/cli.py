@@ -302,7 +302,7 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
             chains = chains_for(code, config, name, {Path(f.path).name for f in dataset.files}, set(dataset.schema.names))
             joint = JointCounter(chains, set(dataset.schema.names), frozenset(redact), root)
             for text, reason in sorted(joint.skipped.items()):
-                click.echo(f"not counted `{text}`: {reason}", err=True)
+                click.echo(f"skipped `{text}`: {reason}", err=True)
         progress = _Progress(sys.stderr.isatty())
         document = profile_dataset(dataset, name, settings, progress, joint)
         progress.done()

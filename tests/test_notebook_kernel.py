@@ -102,7 +102,9 @@ def test_profile_of_a_live_frame_serves_check(executed, tmp_path: Path) -> None:
     document = load_profile(path)  # the store's own validation of the profile format
     assert document["rows"] == ROWS and document["name"] == "live_scans"
     (folder / "report.py").write_text(f"# chainlint: profile=live_scans\n{CHAIN.replace(chr(10), ' ')}\n")
-    result = CliRunner().invoke(main, ["explain", "--format", "json", str(folder / "report.py")])
+    # At a production row count, so that the planned order clears the thresholds (below them the
+    # written order stays the plan).
+    result = CliRunner().invoke(main, ["explain", "--format", "json", "--rows", "10000000", str(folder / "report.py")])
     (chain,) = json.loads(result.stdout)["chains"]
     assert chain["binding"] == {"profile": "live_scans", "how": "comment"} and chain["order"] == [1, 0]
 
