@@ -101,3 +101,30 @@ def test_bad_requests_are_clear_errors(project: Path) -> None:
     assert missing.exit_code == 2 and "--columns names no column of the data: nope" in missing.output
     nowhere = CliRunner().invoke(main, ["measure", f"{project / 'pipeline.py'}:3", "--data", str(project / "flights.parquet")])
     assert nowhere.exit_code == 2 and "no chain of row filters at that line" in nowhere.output
+
+
+def test_f_measure_says_when_only_the_index_class_differs(tmp_path: Path) -> None:
+    # pandas keeps a RangeIndex when a mask keeps an evenly spaced run of positions
+    # (checked here: pandas is the reference), so the order decides the result's index class.
+    import numpy as np
+    import pandas as pd
+
+    rows = 20_000
+    a = np.arange(rows)
+    b = np.zeros(rows, dtype=np.int64)
+    b[np.random.default_rng(3).choice(rows, 400, replace=False)] = 9
+    b[a % 100 == 0] = 0  # the rows both steps keep are every hundredth
+    frame = pd.DataFrame({"a": a, "b": b})
+    frame.to_parquet(tmp_path / "evenly.parquet")
+    written = frame[frame.b == 0].loc[lambda d: d.a % 100 == 0]
+    planned = frame.loc[lambda d: d.a % 100 == 0].loc[lambda d: d.b == 0]
+    assert type(written.index) is pd.Index and type(planned.index) is pd.RangeIndex
+    (tmp_path / "pipeline.py").write_text("def hundredth(frame):\n    return frame[frame.b == 0].loc[lambda d: d.a % 100 == 0]\n")
+    result = CliRunner().invoke(main, ["measure", str(tmp_path / "pipeline.py"), "--data", str(tmp_path / "evenly.parquet"),
+                                       "--repeat", "1", "--format", "json"])
+    assert result.exit_code == 0, result.output
+    (measurement,) = json.loads(result.stdout)["measurements"]
+    assert measurement["planned"]["order"] == [1, 0]
+    assert measurement["same_result"] is True and measurement["same_index_type"] is False
+    text = CliRunner().invoke(main, ["measure", str(tmp_path / "pipeline.py"), "--data", str(tmp_path / "evenly.parquet"), "--repeat", "1"])
+    assert "same frame, but with another index class or freq" in text.stdout

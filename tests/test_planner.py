@@ -41,6 +41,51 @@ def test_planned_order_is_optimal_against_brute_force(steps, shape, rows) -> Non
     assert planned <= best * (1 + 1e-9)
 
 
+def _limits(later: list[bool]) -> dict[int, int]:
+    """Precedence as the planner gets it: a step that may only move later keeps every step
+    written before it in front of it."""
+    return {i: (1 << i) - 1 for i, flag in enumerate(later) if flag}
+
+
+def _respects(order, before) -> bool:  # type: ignore[no-untyped-def]
+    done = 0
+    for step in order:
+        if before.get(step, 0) & ~done:
+            return False
+        done |= 1 << step
+    return True
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.tuples(costs, shares, st.booleans()), min_size=1, max_size=6), shapes, st.integers(1_000, 10_000_000))
+def test_planned_order_is_optimal_under_precedence_limits(steps, shape, rows) -> None:
+    predicates = [p for p, _, _ in steps]
+    rows_after = _independent([s for _, s, _ in steps], rows)
+    before = _limits([later for _, _, later in steps])
+
+    def cost(step: int, rows_in: float, kept: float) -> float:
+        return step_cost(rows_in, predicates[step], kept, shape)
+
+    order, planned = plan_segment(range(len(steps)), rows_after, cost, before)
+    assert sorted(order) == list(range(len(steps))) and _respects(order, before)
+    allowed = [p for p in itertools.permutations(range(len(steps))) if _respects(p, before)]
+    assert planned <= min(order_cost(p, rows_after, cost) for p in allowed) * (1 + 1e-9)
+
+
+@settings(max_examples=50, deadline=None)
+@given(st.lists(st.tuples(costs, shares, st.booleans()), min_size=EXACT_LIMIT + 1, max_size=EXACT_LIMIT + 3))
+def test_greedy_order_respects_precedence_limits(steps) -> None:
+    rows_after = _independent([s for _, s, _ in steps], 1e6)
+    before = _limits([later for _, _, later in steps])
+
+    def cost(step: int, rows_in: float, kept: float) -> float:
+        return rows_in * steps[step][0]
+
+    order, planned = plan_segment(range(len(steps)), rows_after, cost, before)
+    assert sorted(order) == list(range(len(steps))) and _respects(order, before)
+    assert math.isclose(planned, order_cost(order, rows_after, cost), rel_tol=1e-9)
+
+
 @settings(max_examples=200, deadline=None)
 @given(st.lists(st.tuples(costs, st.floats(min_value=0.0, max_value=0.999)), min_size=2, max_size=6))
 def test_rank_ordering_is_optimal_for_order_free_costs(steps) -> None:

@@ -31,6 +31,7 @@ def measure_json(measurements: Sequence[Measurement]) -> str:
                 "measured_speedup": round(m.measured_speedup, 4),
                 "estimated_speedup": round(m.estimated_speedup, 4),
                 "same_result": m.same_result,
+                "same_index_type": m.same_index_type,
             }
             for m in measurements
         ]
@@ -47,7 +48,12 @@ def measure_text(measurements: Sequence[Measurement]) -> str:
             rows = " -> ".join(f"{r:,}" for r in timing.rows_after)
             per_step = ", ".join(duration(s) for s in timing.step_seconds)
             lines.append(f"  {name:8} steps {steps:<14} {duration(timing.seconds):>10}  (per step: {per_step})  rows: {rows}")
-        verdict = "same frame" if m.same_result else "DIFFERENT FRAMES"
+        if not m.same_result:
+            verdict = "DIFFERENT FRAMES"
+        elif m.same_index_type:
+            verdict = "same frame"
+        else:
+            verdict = "same frame, but with another index class or freq (README: the index after a reorder)"
         lines.append(f"  measured speedup {m.measured_speedup:.2f}x, estimated {m.estimated_speedup:.2f}x; both orders return the {verdict}")
         blocks.append("\n".join(lines))
     return "\n\n".join(blocks) + ("\n" if blocks else "")

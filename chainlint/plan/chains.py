@@ -1,7 +1,9 @@
 """The plan of one chain: estimates per step, the written and the planned order, their costs.
 
-Barriers stay where they are; each segment of movable steps between them is planned for the
-rows that reach it. Selectivities are taken as independent.
+Barriers stay where they are, and so do steps whose answer depends on the rows they see; each
+segment of movable steps between them is planned for the rows that reach it, a step that may
+raise on rows an earlier step removes never moving before the steps written before it
+(`chainlint.plan.totality`). Selectivities are taken as independent.
 """
 
 from __future__ import annotations
@@ -20,6 +22,7 @@ from chainlint.estimate.cost import (
 )
 from chainlint.estimate.selectivity import Estimate, Estimator
 from chainlint.plan.planner import plan_segment
+from chainlint.plan.totality import ANY, LATER, STAYS, Limit, dtypes_of, judge
 
 
 @dataclass(frozen=True)
@@ -42,6 +45,13 @@ class ChainPlan:
     written: tuple[StepEstimate, ...]
     planned: tuple[StepEstimate, ...]
     fused_seconds: float
+    #: How far each step may move (None for a barrier the finder set).
+    limits: tuple[Limit | None, ...] = ()
+
+    def moves(self, step: int) -> bool:
+        """Whether the plan may move this step at all."""
+        limit = self.limits[step] if self.limits else None
+        return limit is not None and limit.moves != STAYS
 
     @property
     def order(self) -> tuple[int, ...]:
@@ -87,6 +97,8 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
         return cache[mask]
 
     clustered = [estimator.clustering(step.predicate) for step in chain.steps]
+    dtypes = dtypes_of(profile)
+    limits = tuple(judge(step.predicate, dtypes, binding.profile or "") if step.movable else None for step in chain.steps)
 
     def cost(step: int, rows_in: float, kept: float) -> float:
         return step_cost(rows_in, predicates[step], kept, shape, model, clustered[step])
@@ -94,29 +106,42 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
     planned: list[int] = []
     done = 0
     index = 0
-    while index < len(chain.steps):
-        if not chain.steps[index].movable:
-            planned.append(index)
-            done |= 1 << index
-            index += 1
-            continue
-        segment = []
-        while index < len(chain.steps) and chain.steps[index].movable:
-            segment.append(index)
-            index += 1
+    for segment in plan_segments(limits):
         base = done
 
         def segment_rows(mask: int, base: int = base) -> float:
             return rows_after(base | mask)
 
-        order, _ = plan_segment(segment, segment_rows, cost)
+        order, _ = plan_segment(segment, segment_rows, cost, precedence(segment, limits))
         planned.extend(order)
         for step in segment:
             done |= 1 << step
     written = _walk(range(len(chain.steps)), estimates, rows_after, cost, joint_steps)
     planned_estimates = _walk(planned, estimates, rows_after, cost, joint_steps)
-    fused = _fused_seconds(chain, estimates, predicates, total_rows, shape, model, clustered)
-    return ChainPlan(chain, binding, total_rows, written, planned_estimates, fused)
+    fused = _fused_seconds(limits, estimates, predicates, total_rows, shape, model, clustered)
+    return ChainPlan(chain, binding, total_rows, written, planned_estimates, fused, limits)
+
+
+def plan_segments(limits: tuple[Limit | None, ...]) -> list[list[int]]:
+    """The chain's steps in runs planned together: a step that may not move is a run alone."""
+    runs: list[list[int]] = []
+    for step, limit in enumerate(limits):
+        if limit is None or limit.moves == STAYS or not runs or not _moves(limits[runs[-1][-1]]):
+            runs.append([step])
+        else:
+            runs[-1].append(step)
+    return runs
+
+
+def precedence(segment: list[int], limits: tuple[Limit | None, ...]) -> dict[int, int]:
+    """For each step that may only move later, the bit mask of the segment's steps written
+    before it: they must still run before it."""
+    return {step: sum(1 << s for s in segment[:position])
+            for position, step in enumerate(segment) if limits[step] is not None and limits[step].moves == LATER}  # type: ignore[union-attr]
+
+
+def _moves(limit: Limit | None) -> bool:
+    return limit is not None and limit.moves != STAYS
 
 
 def _joint_steps(chain: Chain, estimator: Estimator, texts: list[str]) -> set[int]:
@@ -146,24 +171,19 @@ def _walk(order, estimates: list[Estimate], rows_after, cost, joint_steps: set[i
     return tuple(out)
 
 
-def _fused_seconds(chain: Chain, estimates: list[Estimate], predicates: list[float], rows: float,
+def _fused_seconds(limits: tuple[Limit | None, ...], estimates: list[Estimate], predicates: list[float], rows: float,
                    shape: FrameShape, model: CostModel, clustered: list[float]) -> float:
-    """Each segment of movable steps as one mask joined with `&`, barriers as written."""
+    """Each run of total steps as one mask joined with `&`, every other step as written (a
+    fused mask evaluates every part on all the rows it receives)."""
     total = 0.0
     rows_in = float(rows)
-    index = 0
-    steps = chain.steps
-    while index < len(steps):
-        if not steps[index].movable:
-            kept = estimates[index].selectivity
-            total += step_cost(rows_in, predicates[index], kept, shape, model, clustered[index])
-            rows_in *= kept
-            index += 1
-            continue
-        segment = []
-        while index < len(steps) and steps[index].movable:
-            segment.append(index)
-            index += 1
+    runs: list[list[int]] = []
+    for step, limit in enumerate(limits):
+        if runs and limit is not None and limit.moves == ANY and _moves(limits[runs[-1][-1]]):
+            runs[-1].append(step)
+        else:
+            runs.append([step])
+    for segment in runs:
         kept = math.prod(estimates[i].selectivity for i in segment)
         predicate = sum(predicates[i] for i in segment) + model.combine * (len(segment) - 1)
         total += step_cost(rows_in, predicate, kept, shape, model, min(clustered[i] for i in segment))

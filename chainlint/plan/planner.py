@@ -5,12 +5,15 @@ order, ascending a_i / (1 - s_i) is optimal (rank ordering: Ibaraki & Kameda 198
 Krishnamurthy, Boral & Zaniolo 1986; Hellerstein 1998). chainlint's take cost depends on the
 share a step keeps, and joint selectivities may be known, so the planner runs an exact dynamic
 program over subsets (2^k * k) for up to 12 steps, and a greedy rank order beyond.
+
+Both respect precedence limits: `before[step]`, a bit mask of the steps that must run before
+`step` (a step that may raise on rows an earlier step removes keeps those steps before it).
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 
 #: `cost(step, rows_in, kept_share)` in nanoseconds.
 StepCost = Callable[[int, float, float], float]
@@ -33,13 +36,16 @@ def _share(rows_out: float, rows_in: float) -> float:
     return 1.0 if rows_in <= 0 else min(1.0, rows_out / rows_in)
 
 
-def plan_segment(steps: Sequence[int], rows_after: RowsAfter, cost: StepCost) -> tuple[tuple[int, ...], float]:
-    """The cheapest order of `steps` (indices into the bit masks) and its cost."""
+def plan_segment(steps: Sequence[int], rows_after: RowsAfter, cost: StepCost,
+                 before: Mapping[int, int] | None = None) -> tuple[tuple[int, ...], float]:
+    """The cheapest order of `steps` (indices into the bit masks) that runs every step after
+    the steps in its `before` mask, and its cost."""
     steps = list(steps)
+    before = before or {}
     if len(steps) <= 1:
         return tuple(steps), order_cost(steps, rows_after, cost)
     if len(steps) > EXACT_LIMIT:
-        return _greedy(steps, rows_after, cost)
+        return _greedy(steps, rows_after, cost, before)
     full = 0
     for step in steps:
         full |= 1 << step
@@ -50,7 +56,7 @@ def plan_segment(steps: Sequence[int], rows_after: RowsAfter, cost: StepCost) ->
             rows_in = rows_after(mask)
             for step in steps:
                 bit = 1 << step
-                if mask & bit:
+                if mask & bit or before.get(step, 0) & ~mask:
                     continue
                 after = mask | bit
                 total = spent + cost(step, rows_in, _share(rows_after(after), rows_in))
@@ -62,7 +68,7 @@ def plan_segment(steps: Sequence[int], rows_after: RowsAfter, cost: StepCost) ->
     return order, spent
 
 
-def _greedy(steps: list[int], rows_after: RowsAfter, cost: StepCost) -> tuple[tuple[int, ...], float]:
+def _greedy(steps: list[int], rows_after: RowsAfter, cost: StepCost, before: Mapping[int, int]) -> tuple[tuple[int, ...], float]:
     order: list[int] = []
     mask = 0
     remaining = list(steps)
@@ -74,7 +80,8 @@ def _greedy(steps: list[int], rows_after: RowsAfter, cost: StepCost) -> tuple[tu
             spend = cost(step, rows_in, kept)
             return spend / max(1.0 - kept, 1e-12)
 
-        choice = min(remaining, key=lambda s: (rank(s), s))
+        ready = [s for s in remaining if not before.get(s, 0) & ~mask]
+        choice = min(ready, key=lambda s: (rank(s), s))
         order.append(choice)
         remaining.remove(choice)
         mask |= 1 << choice

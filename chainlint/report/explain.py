@@ -9,6 +9,7 @@ from typing import Any
 from chainlint.analysis.check import PlannedChain
 from chainlint.analysis.model import Cell, Chain, FileAnalysis, FileError, Step
 from chainlint.plan.chains import ChainPlan
+from chainlint.plan.totality import ANY, LATER, STAYS, Limit
 from chainlint.report.escape import encodable, printable
 
 
@@ -63,7 +64,7 @@ def planned_record(item: PlannedChain) -> dict[str, Any]:
         record["reason"] = item.binding.reason
         record.update(order=None, speedup=None, rows=None, written_seconds=None, planned_seconds=None, fused_seconds=None)
         for step in record["steps"]:
-            step.update(selectivity=None, basis=None, rows_in=None, rows_out=None, seconds=None)
+            step.update(moves=None, limit=None, selectivity=None, basis=None, rows_in=None, rows_out=None, seconds=None)
         return record
     record["binding"] = {"profile": item.binding.profile, "how": item.binding.how}
     record.update(
@@ -74,8 +75,10 @@ def planned_record(item: PlannedChain) -> dict[str, Any]:
         planned_seconds=round(plan.planned_seconds, 6),
         fused_seconds=round(plan.fused_seconds, 6),
     )
-    for step, estimate in zip(record["steps"], plan.written):
+    for step, estimate, limit in zip(record["steps"], plan.written, plan.limits):
         step.update(
+            moves=limit.moves if limit else "stays",
+            limit=limit.reason if limit else step["reason"],
             selectivity=round(estimate.selectivity, 6),
             basis=estimate.basis,
             rows_in=round(estimate.rows_in, 1),
@@ -94,7 +97,7 @@ def explain_json(planned: Sequence[PlannedChain], errors: Sequence[FileError]) -
 
 
 def explain_text(planned: Sequence[PlannedChain]) -> str:
-    return "\n".join(_chain_text(item.chain) + _plan_text(item) for item in planned)
+    return "\n".join(_chain_text(item.chain, item.plan.limits if item.plan else ()) + _plan_text(item) for item in planned)
 
 
 def _plan_text(item: PlannedChain) -> str:
@@ -134,8 +137,19 @@ def _order_table(title: str, plan: ChainPlan, estimates) -> list[str]:  # type: 
     return aligned
 
 
-def _chain_text(chain: Chain) -> str:
-    movable = sum(step.movable for step in chain.steps)
+#: What the "moves" column says for each limit of a bound chain.
+_MOVES = {ANY: "yes", LATER: "later", STAYS: "no"}
+
+
+def _chain_text(chain: Chain, limits: Sequence[Limit | None] = ()) -> str:
+    """The steps; with a plan's limits, how far each may move and why not further."""
+    if limits:
+        moves = [_MOVES[limit.moves] if limit else "no" for limit in limits]
+        reasons = [limit.reason if limit else step.barrier.reason if step.barrier else None for step, limit in zip(chain.steps, limits)]
+    else:
+        moves = ["yes" if step.movable else "no" for step in chain.steps]
+        reasons = [step.barrier.reason if step.barrier else None for step in chain.steps]
+    movable = sum(m != "no" for m in moves)
     form = "statement run" if chain.form == "statements" else "method chain"
     head = printable(
         f"{chain.path}:{chain.span.line}:{chain.span.column}: {'' if chain.cell is None else f'cell {chain.cell.number}: '}"
@@ -145,11 +159,9 @@ def _chain_text(chain: Chain) -> str:
     rows = [("#", "at", "kind", "moves", "predicate")]
     notes: dict[int, str] = {}
     for number, step in enumerate(chain.steps, start=1):
-        rows.append(
-            (str(number), f"{step.span.line}:{step.span.column}", step.kind, "yes" if step.movable else "no", printable(step.predicate.canonical()))
-        )
-        if step.barrier:
-            notes[number] = printable(step.barrier.reason)
+        rows.append((str(number), f"{step.span.line}:{step.span.column}", step.kind, moves[number - 1], printable(step.predicate.canonical())))
+        if reasons[number - 1]:
+            notes[number] = printable(reasons[number - 1])  # type: ignore[arg-type]
     widths = [max(len(row[i]) for row in rows) for i in range(4)]
     lines = [head]
     for index, row in enumerate(rows):
