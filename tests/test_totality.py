@@ -5,7 +5,8 @@ predicate as a filter step on the whole frame and on random subsets of its rows 
 included). A step judged `any` must, wherever it returns on a subset, return on the whole frame
 with the same answer for the subset's rows (it may move earlier); a step judged `later` must,
 wherever it returns on the whole frame, return on every subset with the same answers (it may
-move later). The predicates are rendered as a user writes them (lambda masks and query text).
+move later). The predicates are rendered as a user writes them: lambda masks, and query text
+(pandas' default engine here, the python one: numexpr is not installed).
 """
 
 from __future__ import annotations
@@ -107,13 +108,40 @@ def _python(node: Node, d: str = "d") -> str:
     return "(" + joiner.join(_python(p, d) for p in node.parts) + ")"  # type: ignore[attr-defined]
 
 
-def _kept(frame: pd.DataFrame, source: str) -> frozenset | type:
-    """The index labels a `.loc[lambda d: ...]` step keeps, or the exception type it raises."""
-    step = eval(compile(f"lambda d: {source}", "<step>", "eval"))
+def _query(node: Node) -> str | None:
+    """The same predicate as `query` text (None where query text cannot say it)."""
+    if isinstance(node, Column):
+        return node.name
+    if isinstance(node, Literal):
+        return None if isinstance(node.value, float) and math.isnan(node.value) else repr(node.value)
+    parts = [_query(child) for child in node.children()]
+    if None in parts:
+        return None
+    if isinstance(node, (Arith, Compare)):
+        return f"({parts[0]} {node.op} {parts[1]})"
+    if isinstance(node, Member):
+        return f"({parts[0]} {'not in' if node.negated else 'in'} [{', '.join(parts[1:])}])"  # type: ignore[arg-type]
+    if isinstance(node, Range):
+        return f"{parts[0]}.between({parts[1]}, {parts[2]})"
+    if isinstance(node, NullTest):
+        return f"{parts[0]}.{'notna' if node.negated else 'isna'}()"
+    if isinstance(node, StrTest):
+        options = "".join(f", {k}={v}" for (k, _), v in zip(node.options, parts[2:]))
+        return f"{parts[0]}.str.{node.method}({parts[1]}{options})"
+    if isinstance(node, Not):
+        return f"not {parts[0]}"
+    return "(" + (" and " if isinstance(node, And) else " or ").join(parts) + ")"  # type: ignore[arg-type]
+
+
+def _kept(frame: pd.DataFrame, source: str, query: bool = False) -> frozenset | type:
+    """The index labels a `.loc[lambda d: ...]` or `.query(...)` step keeps, or the exception
+    type it raises."""
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         try:
-            return frozenset(frame.loc[step].index)
+            if query:
+                return frozenset(frame.query(source).index)
+            return frozenset(frame.loc[eval(compile(f"lambda d: {source}", "<step>", "eval"))].index)
         except Exception as error:  # noqa: BLE001 - raising is what is compared
             return type(error)
 
@@ -126,21 +154,21 @@ def test_judgement_holds_in_pandas(rows, seed, predicate, subset_seeds) -> None:
     limit = judge(predicate, dtypes)
     if limit.moves == STAYS:
         return
-    source = _python(predicate)
-    whole = _kept(frame, source)
-    for subset_seed in subset_seeds + [None]:
-        if subset_seed is None:
-            part = frame.iloc[:0]
-        else:
-            chosen = np.random.default_rng(subset_seed).random(rows) < 0.5
-            part = frame[chosen]
-        some = _kept(part, source)
-        if limit.moves == ANY and isinstance(some, frozenset):
-            assert isinstance(whole, frozenset), (source, whole, "raises on the whole frame only")
-            assert some == whole & frozenset(part.index), source
-        if limit.moves == LATER and isinstance(whole, frozenset):
-            assert isinstance(some, frozenset), (source, some, "raises on fewer rows only")
-            assert some == whole & frozenset(part.index), source
+    forms = [(_python(predicate), False)] + ([(_query(predicate), True)] if _query(predicate) else [])
+    for source, query in forms:
+        whole = _kept(frame, source, query)
+        for subset_seed in subset_seeds + [None]:
+            if subset_seed is None:
+                part = frame.iloc[:0]
+            else:
+                part = frame[np.random.default_rng(subset_seed).random(rows) < 0.5]
+            some = _kept(part, source, query)
+            if limit.moves == ANY and isinstance(some, frozenset):
+                assert isinstance(whole, frozenset), (source, whole, "raises on the whole frame only")
+                assert some == whole & frozenset(part.index), source
+            if limit.moves == LATER and isinstance(whole, frozenset):
+                assert isinstance(some, frozenset), (source, some, "raises on fewer rows only")
+                assert some == whole & frozenset(part.index), source
 
 
 def test_the_cases_of_the_issue_are_not_total() -> None:
