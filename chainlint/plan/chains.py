@@ -48,11 +48,6 @@ class ChainPlan:
     #: How far each step may move (None for a barrier the finder set).
     limits: tuple[Limit | None, ...] = ()
 
-    def moves(self, step: int) -> bool:
-        """Whether the plan may move this step at all."""
-        limit = self.limits[step] if self.limits else None
-        return limit is not None and limit.moves != STAYS
-
     @property
     def order(self) -> tuple[int, ...]:
         return tuple(e.step for e in self.planned)
