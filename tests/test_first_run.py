@@ -82,6 +82,9 @@ def test_chains_without_a_profile_are_counted_and_the_command_to_profile_them_pr
     assert lines[-1] == "  to profile their data: chainlint profile data/trips.csv --name trips"
     result = _check("lib")
     assert result.output.splitlines()[-1] == "  to profile their data: chainlint profile DATA --name NAME"
+    report = json.loads(_check("--format", "json", "jobs", "lib").output)  # CI reads the same
+    assert report["not_planned"] == {"chains": 2, "summary": "2 chains not planned: no profile in .chainlint",
+                                     "commands": ["chainlint profile data/trips.csv --name trips"]}
 
 
 CORRELATED = '''import pandas as pd

@@ -61,6 +61,7 @@ def check_json(result: CheckResult) -> str:
         "findings": [finding_record(f) for f in result.findings],
         "suppressed": len(result.suppressed),
         "errors": [error_record(e) for e in sorted(result.errors, key=lambda e: (e.path, e.line, e.column))],
+        "not_planned": unplanned_record(result),
     }
     return json.dumps(encodable(document), indent=2, ensure_ascii=False) + "\n"
 
@@ -98,27 +99,36 @@ def check_summary(result: CheckResult, fixed: int = 0) -> str:
 def unplanned_lines(result: CheckResult) -> list[str]:
     """Why chains were not planned, naming the store once, and the command that would make a
     profile for them: so that a repository without profiles does not read as all good."""
+    record = unplanned_record(result)
+    if record is None:
+        return []
+    commands = record["commands"]
+    lines = [record["summary"]] + [f"  to profile their data: {command}" for command in commands[:3]]
+    if len(commands) > 3:
+        lines.append(f"  ... and {len(commands) - 3} more data files the code reads")
+    return lines
+
+
+def unplanned_record(result: CheckResult) -> dict[str, Any] | None:
+    """`{"chains", "summary", "commands"}` for the chains no profile describes, or None."""
     unbound = [c for c in result.chains if c.plan is None]
     if not unbound:
-        return []
+        return None
     stores = sorted({shown_path(c.store) for c in unbound if c.store is not None})
     where = stores[0] if len(stores) == 1 else f"{len(stores)} stores"
     count = f"{len(unbound)} chain{'s' if len(unbound) != 1 else ''}"
     if all(c.store is not None and not list_profiles(c.store) for c in unbound):
-        lines = [f"{count} not planned: no profile in {where}"]
+        summary = f"{count} not planned: no profile in {where}"
     else:
-        lines = [f"{count} not planned: no profile in {where} describes {'them' if len(unbound) != 1 else 'it'} "
-                 "(`chainlint explain` says why for each)"]
+        summary = (f"{count} not planned: no profile in {where} describes {'them' if len(unbound) != 1 else 'it'} "
+                   "(`chainlint explain` says why for each)")
     reads = {(c.chain.origin.path, c.chain.origin.read_options) for c in unbound
              if c.chain.origin and c.chain.origin.kind == "read" and c.chain.origin.path}
     paths = sorted({path for path, _ in reads})
     commands = [_command(path, {options for p, options in reads if p == path}) for path in paths]
     if len(paths) < len(unbound) and not commands:
         commands = ["chainlint profile DATA --name NAME"]
-    lines += [f"  to profile their data: {command}" for command in commands[:3]]
-    if len(commands) > 3:
-        lines.append(f"  ... and {len(commands) - 3} more data files the code reads")
-    return lines
+    return {"chains": len(unbound), "summary": summary, "commands": commands}
 
 
 def _command(path: str, options: set[tuple[tuple[str, object], ...]]) -> str:
