@@ -31,6 +31,7 @@ from chainlint.analysis.check import (
 from chainlint.analysis.model import Span
 from chainlint.analysis.run import analyse_source
 from chainlint.config import ConfigError, load_config
+from chainlint.lsp import notebooks
 from chainlint.parse.source import SourceText, text_source
 from chainlint.rewrite.fixes import fix_in_text
 from chainlint.rewrite.permute import RewriteError
@@ -51,7 +52,7 @@ class DocumentState:
 
 class ChainlintServer(LanguageServer):
     def __init__(self) -> None:
-        super().__init__("chainlint", __version__)
+        super().__init__("chainlint", __version__, notebook_document_sync=notebooks.SYNC)
         self.states: dict[str, DocumentState] = {}
         self.pending: dict[str, asyncio.Task[None]] = {}
 
@@ -71,6 +72,9 @@ def _options(path: str) -> Options:
         logger.warning("%s", error)
         return Options()
     return options_from(config)
+
+
+notebooks.register(server, _options)
 
 
 def analyse_document(uri: str, text: str) -> DocumentState:
@@ -158,6 +162,8 @@ def _contains(ls: LanguageServer, source: SourceText, span: Span, position: type
 
 @server.feature(types.TEXT_DOCUMENT_CODE_ACTION, types.CodeActionOptions(code_action_kinds=[types.CodeActionKind.QuickFix]))
 def code_action(ls: ChainlintServer, params: types.CodeActionParams) -> list[types.CodeAction]:
+    if params.text_document.uri in ls.notebooks.cells:
+        return notebooks.code_actions(ls, params)
     state = ls.states.get(params.text_document.uri)
     if state is None:
         return []
@@ -190,6 +196,9 @@ def code_action(ls: ChainlintServer, params: types.CodeActionParams) -> list[typ
 
 @server.feature(types.TEXT_DOCUMENT_HOVER)
 def hover(ls: ChainlintServer, params: types.HoverParams) -> types.Hover | None:
+    if params.text_document.uri in ls.notebooks.cells:
+        item = notebooks.hovered(ls, params)
+        return None if item is None else types.Hover(contents=types.MarkupContent(kind=types.MarkupKind.Markdown, value=plan_markdown(item)))
     state = ls.states.get(params.text_document.uri)
     if state is None:
         return None

@@ -16,9 +16,10 @@ import ast
 import bisect
 import json
 import re
+from collections.abc import Sequence
 from dataclasses import dataclass
 
-from chainlint.parse.source import SourceError, SourceText, decode_source, text_source
+from chainlint.parse.source import SourceError, SourceText, text_source
 
 #: Cell magics whose body is Python (the first line is masked, the body analysed).
 PYTHON_CELL_MAGICS = frozenset({"time", "timeit", "capture", "prun", "chainlint"})
@@ -81,12 +82,6 @@ def is_notebook(path: str) -> bool:
     return path.endswith(".ipynb")
 
 
-def read_notebook(path: str, data: bytes) -> Notebook:
-    """Decode and map a notebook; a file that is not a notebook raises a located SourceError."""
-    file_source = decode_source(path, data)
-    return notebook_from_text(path, file_source.text)
-
-
 def notebook_from_text(path: str, file_text: str) -> Notebook:
     try:
         document = json.loads(file_text)
@@ -98,25 +93,31 @@ def notebook_from_text(path: str, file_text: str) -> Notebook:
         raise SourceError(f"notebook format {document.get('nbformat')!r} is not read; nbformat 4 is")
     if not _is_python(document.get("metadata")):
         return Notebook(path, file_text, text_source(path, ""), (), ())
+    cells = [
+        (index, cell.get("id") if isinstance(cell.get("id"), str) else None, cell_source(cell))
+        for index, cell in enumerate(document["cells"])
+        if isinstance(cell, dict) and cell.get("cell_type") == "code"
+    ]
+    return notebook_from_cells(path, cells, file_text)
+
+
+def notebook_from_cells(path: str, cells: Sequence[tuple[int, str | None, str]], file_text: str = "") -> Notebook:
+    """The analysed text of code cells given as (index among all cells, id, text), in order:
+    a notebook file's, or the cells an editor sent over LSP."""
     pieces: list[str] = []
-    cells: list[CodeCell] = []
+    code_cells: list[CodeCell] = []
     errors: list[tuple[int, int, str]] = []
     offset, line = 0, 1
-    for index, cell in enumerate(document["cells"]):
-        if not isinstance(cell, dict) or cell.get("cell_type") != "code":
-            continue
-        text = cell_source(cell)
+    for index, identifier, text in cells:
         masked, error = analysable(text)
         if error is not None:
             errors.append((line + error[0] - 1, error[1], error[2]))
-        identifier = cell.get("id") if isinstance(cell.get("id"), str) else None
-        line_count = len(_lines(text))
-        cells.append(CodeCell(index + 1, identifier, index, text, offset, line, line_count))
+        code_cells.append(CodeCell(index + 1, identifier, index, text, offset, line, len(_lines(text))))
         piece = masked + ("" if masked.endswith(("\n", "\r")) or not masked else "\n") + _SEPARATOR
         pieces.append(piece)
         offset += len(piece)
         line += len(_lines(piece))
-    return Notebook(path, file_text, text_source(path, "".join(pieces)), tuple(cells), tuple(errors))
+    return Notebook(path, file_text, text_source(path, "".join(pieces)), tuple(code_cells), tuple(errors))
 
 
 def cell_source(cell: dict) -> str:  # type: ignore[type-arg]
