@@ -93,7 +93,8 @@ def test_pyproject_configuration_and_precedence(project: Path) -> None:
     overridden = _check("--min-gain", "1.25", "--format", "json", "pipeline.py")
     findings = json.loads(overridden.stdout)["findings"]
     assert [f["rule"] for f in findings] == ["reorder", "reorder"]
-    assert findings[0]["message"].endswith("start with `status == 'damaged'`") and "100,000,000 rows" in findings[0]["message"]
+    assert findings[0]["message"].startswith("run `status == 'damaged'` first: ")
+    assert findings[0]["message"].endswith(" at 100,000,000 rows, set in [tool.chainlint.rows])")
     shown = CliRunner().invoke(main, ["config", "pipeline.py"])
     assert shown.exit_code == 0
     assert f"min_gain = 50.0  # {project / 'pyproject.toml'}" in shown.stdout

@@ -100,8 +100,10 @@ def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[lis
             estimator = estimators.get(id(document))
             if estimator is None:
                 estimator = estimators[id(document)] = Estimator(document, profiles.key)
-            rows = options.rows or dict(options.profile_rows).get(binding.profile)
-            plan = keep_written(plan_chain(chain, binding, estimator, rows, profiles.model), options.context)
+            configured = dict(options.profile_rows).get(binding.profile)
+            rows = options.rows or configured
+            rows_from = "option" if options.rows else "configuration" if configured else "profile"
+            plan = keep_written(plan_chain(chain, binding, estimator, rows, profiles.model, rows_from), options.context)
             planned.append(PlannedChain(chain, binding, plan, estimator, store))
     return planned, list(errors.values())
 

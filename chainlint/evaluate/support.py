@@ -18,7 +18,7 @@ class NotEvaluable(Exception):
 def unevaluable(node: Node) -> str | None:
     """Why `node` cannot be evaluated, or None when it can."""
     if isinstance(node, Opaque):
-        return f"it holds code chainlint does not model (`{node.text}`)"
+        return f"it calls `{node.text}`, which chainlint cannot follow without running your code"
     if isinstance(node, Named):
         return f"it reads the name `{node.name}`, whose value is only known when the code runs"
     if isinstance(node, Literal) and isinstance(node.value, int) and not _INT64[0] <= node.value <= _INT64[1]:

@@ -90,7 +90,7 @@ def measurable(chain: Chain) -> str | None:
     for number, step in enumerate(chain.steps, start=1):
         reason = unevaluable(step.predicate)
         if reason:
-            return f"step {number} cannot be built from chainlint's IR: {reason}"
+            return f"step {number} cannot be measured: {reason}"
     return None
 
 

@@ -47,6 +47,7 @@ class ChainPlan:
     fused_seconds: float
     #: How far each step may move (None for a barrier the finder set).
     limits: tuple[Limit | None, ...] = ()
+    rows_from: str = "profile"
 
     @property
     def order(self) -> tuple[int, ...]:
@@ -66,8 +67,9 @@ class ChainPlan:
 
 
 def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int | None = None,
-               model: CostModel = DEFAULT_MODEL) -> ChainPlan:
-    """Plan a bound chain with the estimator of its profile; `rows` scales the estimates."""
+               model: CostModel = DEFAULT_MODEL, rows_from: str = "profile") -> ChainPlan:
+    """Plan a bound chain with the estimator of its profile; `rows` scales the estimates and
+    `rows_from` says where that count came from (`profile`, `option`, `configuration`)."""
     profile = estimator.profile
     shape = estimator.shape
     total_rows = rows or profile["rows"]
@@ -114,7 +116,8 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
     written = _walk(range(len(chain.steps)), estimates, rows_after, cost, joint_steps)
     planned_estimates = _walk(planned, estimates, rows_after, cost, joint_steps)
     fused = _fused_seconds(limits, estimates, predicates, total_rows, shape, model, clustered)
-    return ChainPlan(chain, binding, total_rows, written, planned_estimates, fused, limits)
+    return ChainPlan(chain, binding, total_rows, written, planned_estimates, fused, limits,
+                     rows_from if rows else "profile")
 
 
 def plan_segments(limits: tuple[Limit | None, ...]) -> list[list[int]]:

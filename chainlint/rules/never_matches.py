@@ -49,10 +49,10 @@ def check(plan: ChainPlan, estimator: Estimator) -> list[Finding]:
             close = difflib.get_close_matches(str(value), known, n=3, cutoff=0.5)
             hint = f"; did you mean {' or '.join(repr(c) for c in close)}?" if close else ""
             if stats.suppressed_values:
-                seen = f"occurs in fewer than {min_count} rows of profile `{plan.binding.profile}`, if at all"
+                seen = f"holds {value!r} in fewer than {min_count} rows of profile `{plan.binding.profile}`, if at all"
             else:
-                seen = f"never occurs in profile `{plan.binding.profile}`"
-            message = (f"`{column}` == {value!r} {seen} ({len(known)} known values){hint or '.'} "
+                seen = f"never holds {value!r} in profile `{plan.binding.profile}`"
+            message = (f"`{column}` {seen} ({len(known)} known values){hint or '.'} "
                        f"The chain's order will be planned once this literal is fixed.")
             findings.append(Finding(NAME, plan.chain.path, step.span, message))
     return findings

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from chainlint.plan.chains import ChainPlan
 from chainlint.rules.base import Finding, RuleContext
+from chainlint.units import duration
 
 NAME = "reorder"
 LEVEL = "warning"
@@ -14,8 +15,8 @@ HELP = (
 SUMMARY = "filters run in a costly order"
 
 
-def _milliseconds(seconds: float) -> str:
-    return f"{seconds * 1e3:.1f} ms" if seconds < 10 else f"{seconds:.1f} s"
+#: Where the row count came from, when it is not the profile's own.
+_ROWS_FROM = {"option": ", from --rows", "configuration": ", set in [tool.chainlint.rows]", "profile": ""}
 
 
 def check(plan: ChainPlan, context: RuleContext) -> list[Finding]:
@@ -27,9 +28,9 @@ def check(plan: ChainPlan, context: RuleContext) -> list[Finding]:
     first = plan.chain.steps[plan.order[0]].predicate.canonical()
     order = ", ".join(str(i + 1) for i in plan.order)
     message = (
-        f"{len(plan.chain.steps)} filters on `{plan.chain.frame}` would run about {plan.speedup:.1f}x faster "
-        f"as steps {order} ({_milliseconds(plan.written_seconds)} -> {_milliseconds(plan.planned_seconds)} "
-        f"for {plan.rows:,} rows of profile `{plan.binding.profile}`); start with `{first}`"
+        f"run `{first}` first: about {plan.speedup:.1f}x faster as steps {order} "
+        f"({duration(plan.written_seconds)} -> {duration(plan.planned_seconds)} at {plan.rows:,} rows"
+        f"{_ROWS_FROM[plan.rows_from]})"
     )
     return [Finding(NAME, plan.chain.path, plan.chain.span, message, plan.speedup, plan.written_seconds,
                     plan.planned_seconds, plan.order)]
