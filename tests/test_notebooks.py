@@ -77,8 +77,8 @@ def test_check_locates_findings_in_cells(project: Path) -> None:
     assert result.exit_code == 1, result.output
     lines = result.stdout.splitlines()
     # The line counts within the cell; the cell is named first in the message (GNU form kept).
-    assert lines[0].startswith("tour.ipynb:2:5: reorder: cell 3: 2 filters on `scans`")
-    assert lines[1].startswith("tour.ipynb:2:10: never-matches: cell 4: `parcel_size` == 'XXL'")
+    assert lines[0].startswith("tour.ipynb:2:5: reorder: cell 3: run `")
+    assert lines[1].startswith("tour.ipynb:2:10: never-matches: cell 4: `parcel_size` never holds 'XXL'")
     records = json.loads(_check("--format", "json", "tour.ipynb").stdout)["findings"]
     assert [(r["cell"], r["line"], r["column"]) for r in records] == [
         ({"number": 3, "id": "cell-2"}, 2, 5), ({"number": 4, "id": "cell-3"}, 2, 10)
