@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import functools
+
 import os
 import sys
 import time
@@ -19,7 +21,7 @@ from chainlint.analysis.model import FileError
 from chainlint.analysis.run import analyse_files
 from chainlint.analysis.profiled import chains_for, code_read_options, project_chains
 from chainlint.cli_csv import csv_from, csv_options
-from chainlint.config import Config, ConfigError, describe, load_config, override
+from chainlint.config import Config, ConfigError, as_toml, load_config, override
 from chainlint.discover import discover
 from chainlint.notebook.locate import locate_planned, locate_result
 from chainlint.estimate.calibrate import COST_MODEL_FILE, model_to_json
@@ -276,7 +278,8 @@ def _fail(message: str) -> NoReturn:
 @click.option("--distinct-cap", type=click.IntRange(min=1), default=10_000, show_default=True,
               help="Count values exactly up to this many distinct ones, then estimate.")
 @click.option("--top", type=click.IntRange(min=1), default=100, show_default=True, help="Most common values kept per column.")
-@click.option("--batch-rows", type=click.IntRange(min=1), default=BATCH_ROWS, show_default=True)
+@click.option("--batch-rows", type=click.IntRange(min=1), default=BATCH_ROWS, show_default=True,
+              help="Rows read and counted at a time: memory grows with it, speed hardly.")
 @click.option("--for", "sources", multiple=True, type=click.Path(), metavar="SRC",
               help="Count how the predicates of the chains in SRC (bound to NAME) combine on the data (default: the whole project); repeatable.")
 @click.option("--no-joint", is_flag=True, help="Count no joint statistics: column statistics only.")
@@ -334,8 +337,9 @@ def _code_options(given: CsvOptions, chains: Sequence, data: Sequence[str]) -> C
 @click.pass_context
 def profiles(context: click.Context, store: str | None) -> None:
     """List the store's profiles; `show NAME` summarises one, `merge NAME PART...` combines parts."""
-    context.obj = _store(store)
+    context.obj = store
     if context.invoked_subcommand is None:
+        context.obj = _store(store)
         found = list_profiles(context.obj)
         if not found:
             click.echo(f"no profiles in {context.obj}")
@@ -349,10 +353,21 @@ def profiles(context: click.Context, store: str | None) -> None:
         sys.exit(EXIT_ERROR if failed else EXIT_OK)
 
 
+def _store_here(function):  # type: ignore[no-untyped-def]
+    """`--store` after the subcommand as well as before it (`profiles show NAME --store DIR`)."""
+    @click.option("--store", "own_store", type=click.Path(file_okay=False),
+                  help="Profile store folder (default: the project's .chainlint/).")
+    @click.pass_obj
+    @functools.wraps(function)
+    def wrapper(group_store: str | None, own_store: str | None, **kwargs):  # type: ignore[no-untyped-def]
+        return function(_store(own_store or group_store), **kwargs)
+    return wrapper
+
+
 @profiles.command()
 @click.argument("name")
 @click.option("--top", type=click.IntRange(min=1), default=5, show_default=True, help="Top values shown per column.")
-@click.pass_obj
+@_store_here
 def show(folder: Path, name: str, top: int) -> None:
     """Summarise profile NAME: per column type, nulls, distinct, top values with shares, range."""
     try:
@@ -364,7 +379,7 @@ def show(folder: Path, name: str, top: int) -> None:
 
 @profiles.command("check")
 @click.argument("names", nargs=-1)
-@click.pass_obj
+@_store_here
 def check_profiles(folder: Path, names: Sequence[str]) -> None:
     """Tell whether profiles (default: all) are out of date: their data files' content changed.
 
@@ -386,7 +401,7 @@ def check_profiles(folder: Path, names: Sequence[str]) -> None:
 @profiles.command()
 @click.argument("name")
 @click.argument("parts", nargs=-1, required=True)
-@click.pass_obj
+@_store_here
 def merge(folder: Path, name: str, parts: Sequence[str]) -> None:
     """Combine the profiles PARTS (names in the store) of one dataset into profile NAME."""
     try:
@@ -432,7 +447,7 @@ def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, col
             output_format: str, plot: str | None, **reader: str | None) -> None:
     """Time the written and the planned order of the chains in FILE (or the one at LINE) on real data."""
     from chainlint.measure.report import measure_json, measure_text
-    from chainlint.measure.run import MeasureError, as_read_csv, load_table, measure_chain
+    from chainlint.measure.run import DataMismatch, MeasureError, as_read_csv, load_table, measure_chain
     from chainlint.measure.svg import measurement_svg
 
     path, _, line_text = target.partition(":")
@@ -454,6 +469,7 @@ def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, col
     planned, problems = plan_results([replace(result, chains=tuple(chains))], Options(store=Path(store) if store else None, rows=len(frame)))
     in_memory = None
     measurements, notes = [], []
+    unrunnable = 0
     progress_shown = sys.stderr.isatty() and output_format == "text"
     for item in planned:
         plan = item.plan
@@ -469,6 +485,12 @@ def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, col
 
         try:
             measurements.append(measure_chain(frame, item.chain, plan.order, plan.speedup, repeat, progress))
+        except DataMismatch as error:
+            needs = "columns " + ", ".join(sorted({c for step in item.chain.steps for c in step.columns}))
+            if item.binding.profile:
+                needs += f", as in the data of profile `{item.binding.profile}`"
+            notes.append(f"{item.chain.path}:{item.chain.span.line}: error: cannot run this chain: {error}; it needs {needs}")
+            unrunnable += 1
         except MeasureError as error:
             notes.append(f"{item.chain.path}:{item.chain.span.line}: cannot measure: {error}")
         if progress_shown:
@@ -487,7 +509,7 @@ def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, col
     different = [m for m in measurements if not m.same_result]
     for m in different:
         click.echo(f"{m.chain.path}:{m.chain.span.line}: error: the planned order returned a different frame than the written one", err=True)
-    sys.exit(EXIT_ERROR if different or not measurements else EXIT_OK)
+    sys.exit(EXIT_ERROR if different or unrunnable or not measurements else EXIT_OK)
 
 
 def _profile_in_memory(table):  # type: ignore[no-untyped-def]
@@ -502,12 +524,8 @@ def _profile_in_memory(table):  # type: ignore[no-untyped-def]
 @main.command("config")
 @click.argument("path", required=False, type=click.Path())
 def config_command(path: str | None) -> None:
-    """Print the effective configuration for PATH (default: here) and where each value came from."""
-    config = _config([path] if path else [])
-    click.echo(f"# from {config.source or 'defaults only (no chainlint.toml or [tool.chainlint] found)'}")
-    for key, value, origin in describe(config):
-        shown = dict(value) if key in ("bindings", "rows") else (list(value) if isinstance(value, tuple) else value)
-        click.echo(f"{key} = {shown!r}  # {origin}")
+    """Print the effective configuration for PATH (default: here) as TOML, each value with where it came from."""
+    click.echo(as_toml(_config([path] if path else [])), nl=False)
 
 
 @main.command()

@@ -8,6 +8,8 @@ and the file, with the closest known key suggested.
 
 from __future__ import annotations
 
+import json
+
 import difflib
 import os
 import tomllib
@@ -135,3 +137,38 @@ def describe(config: Config) -> list[tuple[str, Any, str]]:
     for key in sorted(_KEYS):
         rows.append((key, getattr(config, key), config.origins.get(key, "default")))
     return rows
+
+
+def _toml_value(value: Any) -> str:
+    """A TOML literal: strings as basic strings (JSON's escapes are TOML's), lists inline."""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, (int, float)):
+        return repr(value)
+    if isinstance(value, (list, tuple)):
+        return "[" + ", ".join(_toml_value(v) for v in value) + "]"
+    return json.dumps(str(value), ensure_ascii=False)
+
+
+#: What an unset key means, shown where TOML has no value to print.
+_UNSET = {"store": "the nearest .chainlint/ upward of each file", "rules": "every rule but unbound",
+          "fail_rules": "every rule that runs"}
+
+
+def as_toml(config: Config) -> str:
+    """The effective configuration as a `[tool.chainlint]` table that TOML readers accept, each
+    value followed by where it came from (a file, the command line, or `default`)."""
+    lines = [f"# from {config.source or 'defaults only (no chainlint.toml or [tool.chainlint] found)'}",
+             "[tool.chainlint]"]
+    tables = []
+    for key, value, origin in describe(config):
+        if key in ("bindings", "rows"):
+            body = [f"{json.dumps(name, ensure_ascii=False)} = {_toml_value(target)}" for name, target in value]
+            tables.append([f"[tool.chainlint.{key}]  # {origin}", *(body or ["# (none)"])])
+        elif value is None:
+            lines.append(f"# {key}: not set ({_UNSET.get(key, 'no value')})  # {origin}")
+        else:
+            lines.append(f"{key} = {_toml_value(value)}  # {origin}")
+    for table in tables:
+        lines += ["", *table]
+    return "\n".join(lines) + "\n"

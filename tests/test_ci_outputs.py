@@ -4,6 +4,7 @@
 from __future__ import annotations
 
 import json
+import tomllib
 import shutil
 from pathlib import Path
 
@@ -99,6 +100,8 @@ def test_pyproject_configuration_and_precedence(project: Path) -> None:
     assert shown.exit_code == 0
     assert f"min_gain = 50.0  # {project / 'pyproject.toml'}" in shown.stdout
     assert "min_saving_ms = 5.0  # default" in shown.stdout
+    printed = tomllib.loads(shown.stdout)["tool"]["chainlint"]   # the standard library's TOML reader
+    assert printed["min_gain"] == 50.0 and printed["rows"] == {"parcel_scans": 100_000_000}
 
 
 def test_chainlint_toml_and_unknown_keys(project: Path) -> None:

@@ -128,3 +128,13 @@ def test_f_measure_says_when_only_the_index_class_differs(tmp_path: Path) -> Non
     assert measurement["same_result"] is True and measurement["same_index_type"] is False
     text = CliRunner().invoke(main, ["measure", str(tmp_path / "pipeline.py"), "--data", str(tmp_path / "evenly.parquet"), "--repeat", "1"])
     assert "same frame, but with another index class or freq" in text.stdout
+
+
+def test_a_chain_the_data_cannot_run_fails_and_says_what_it_needs(project: Path, tmp_path: Path) -> None:
+    (tmp_path / "other.py").write_text("def f(frame):\n    return frame[frame.distance > 100].loc[lambda d: d.gate == 'B7']\n")
+    result = CliRunner().invoke(main, ["measure", str(tmp_path / "other.py"), "--data", str(project / "flights.parquet"),
+                                       "--repeat", "1"])
+    assert result.exit_code == 2
+    assert "cannot run this chain: the data has no column `gate`" in result.stderr
+    assert "it needs columns distance, gate" in result.stderr
+

@@ -251,6 +251,21 @@ def test_gzip_csv_and_listing(tmp_path: Path) -> None:
     assert listing.exit_code == 0 and listing.output.startswith("zipped ")
     shown = _run("profiles", "--store", str(tmp_path / "store"), "show", "zipped")
     assert "b  (str)  nulls 0 (0.0%)  distinct 1" in shown.output and "'x' 100.0%" in shown.output
+    after = _run("profiles", "show", "zipped", "--store", str(tmp_path / "store"))   # options after the subcommand
+    assert after.exit_code == 0 and after.output == shown.output
+    checked = _run("profiles", "check", "--store", str(tmp_path / "store"))
+    assert checked.output.startswith("zipped: ")
+
+
+def test_an_estimated_distinct_count_is_never_shown_above_the_values(tmp_path: Path) -> None:
+    data = tmp_path / "unique.parquet"
+    pd.DataFrame({"k": np.arange(200_000, dtype="int64")}).to_parquet(data)   # its sketch estimates 201,898
+    assert _profile(tmp_path, data, "--distinct-cap", "100", name="u").exit_code == 0
+    document = load_profile(tmp_path / "store" / "profiles" / "u.json")
+    shown = _run("profiles", "show", "u", "--store", str(tmp_path / "store")).output
+    distinct = int(shown.split("distinct ")[1].split()[0].replace(",", ""))
+    assert distinct == 200_000
+    assert document["columns"]["k"]["distinct"]["exact"] is False
 
 
 def test_store_is_found_beside_the_project(tmp_path: Path) -> None:

@@ -25,6 +25,10 @@ class MeasureError(Exception):
     """The measurement cannot be made or its result is wrong; the message says which."""
 
 
+class DataMismatch(MeasureError):
+    """The chain cannot run on the data given (columns it reads are missing, or pandas raises)."""
+
+
 @dataclass(frozen=True)
 class OrderTiming:
     order: tuple[int, ...]
@@ -118,10 +122,13 @@ def measure_chain(
         raise MeasureError(reason)
     written = tuple(range(len(chain.steps)))
     orders = (written, planned)
+    missing = sorted({c for step in chain.steps for c in step.predicate.columns()} - set(frame.columns))
+    if missing:
+        raise DataMismatch(f"the data has no column {', '.join(f'`{c}`' for c in missing)}, which the chain reads")
     try:
         results = [_run(frame, chain, order)[0] for order in orders]  # warm-up, and the results
     except (KeyError, TypeError, ValueError) as error:
-        raise MeasureError(f"the chain does not run on this data: {type(error).__name__}: {error}") from None
+        raise DataMismatch(f"pandas raises on this data: {type(error).__name__}: {error}") from None
     same, same_index_type = compare_results(results[1], results[0])
     totals: dict[tuple[int, ...], list[float]] = {order: [] for order in orders}
     steps: dict[tuple[int, ...], list[list[float]]] = {order: [] for order in orders}

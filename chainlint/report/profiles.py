@@ -27,7 +27,8 @@ def profile_summary(document: dict[str, Any], top: int = 5) -> str:
         distinct = column.get("distinct")
         if distinct:
             mark = "" if distinct["exact"] else f" ~±{3 * distinct['standard_error']:.1%}"
-            head += f"  distinct {distinct['value']:,}{mark}"
+            # An estimate may pass the number of values there are: never show more than that.
+            head += f"  distinct {min(distinct['value'], max(column['rows'] - nulls, 0)):,}{mark}"
         if column.get("redacted"):
             head += "  [redacted]"
         lines.append(head)
