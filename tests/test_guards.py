@@ -102,3 +102,24 @@ def test_g_a_column_not_held_as_a_plain_column_stays(tmp_path: Path) -> None:
     steps = explained["chains"][0]["steps"]
     assert steps[0]["moves"] == "stays"
     assert steps[0]["limit"] == "reads `revenue`, which profile `sales` does not hold as a plain column"
+
+
+def test_a_live_frame_is_judged_by_its_own_dtypes() -> None:
+    # A kernel's object column of strings reads as Arrow strings; pandas (the reference) shows
+    # that `.str` of it, with None, cannot mask once the guard no longer runs first.
+    from chainlint.analysis.run import analyse_source
+    from chainlint.notebook.live import plan_on_frame
+    from chainlint.parse.source import text_source
+
+    rows = 3_000
+    frame = pd.DataFrame({
+        "o": pd.Series(["apple", None, "banana"] * (rows // 3), dtype=object),
+        "i": np.arange(rows) % 7,
+    })
+    source = 'out = df.loc[lambda d: d.o.notna()].loc[lambda d: d.o.str.contains("ap")].loc[lambda d: d.i == 1]\n'
+    (chain,) = analyse_source(text_source("<cell>", source)).chains
+    with pytest.raises(ValueError, match="non-boolean"):
+        frame.loc[lambda d: d.o.str.contains("ap")]
+    plan = plan_on_frame(chain, frame).plan
+    assert plan.limits[1] is not None and plan.limits[1].moves == "stays"
+    assert plan.order[:2] == (0, 1)

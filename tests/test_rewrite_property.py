@@ -70,7 +70,7 @@ def frames(draw):
             "qty": np.array([decimal.Decimal(int(v)) for v in rng.integers(0, 3, rows)], dtype=object),
             "amount": np.array([decimal.Decimal(int(v)) / 4 for v in rng.integers(0, 40, rows)], dtype=object),
             "mixed": _MIXED[rng.integers(0, len(_MIXED), rows)],
-            "o": objects,
+            "o": pd.Series(objects, dtype=object),
             "tzmix": _TZMIX[rng.integers(0, len(_TZMIX), rows)],
             "e": rng.integers(-2, 3, rows),
         }

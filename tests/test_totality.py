@@ -50,7 +50,7 @@ def _frame(rows: int, seed: int) -> pd.DataFrame:
         "oc": pd.Categorical(holes(words), categories=["x", "banana", "apple", "apricot", "a.b"], ordered=True),
         "t": times,
         "tz": times.tz_localize("UTC"),
-        "o": holes(words),
+        "o": pd.Series(holes(words), dtype=object),
         "mixed": mixed_pool[rng.integers(0, len(mixed_pool), rows)],
         "dec": np.array([decimal.Decimal(int(v)) for v in rng.integers(0, 3, rows)], dtype=object),
         "n": pd.array(holes(rng.integers(-2, 3, rows)), dtype="Int64"),

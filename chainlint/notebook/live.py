@@ -54,7 +54,10 @@ def plan_on_frame(chain: Chain, frame: Any) -> LivePlan:
         document = profile_dataset(dataset, name, Settings(min_count=1), joint=joint)
     except DataError as error:
         raise MagicError(str(error)) from None
-    plan = plan_chain(chain, Binding(name, "the kernel's frame"), Estimator(document), len(frame))
+    # The frame's own dtypes judge how far steps may move: an object column of strings reads
+    # as Arrow strings (`str` in a profile), but `.str` of it gives missing values that cannot mask.
+    dtypes = {str(column): str(dtype) for column, dtype in frame.dtypes.items()}
+    plan = plan_chain(chain, Binding(name, "the kernel's frame"), Estimator(document), len(frame), dtypes=dtypes)
     shown = replace(chain, path="cell")
     text = explain_text([PlannedChain(shown, plan.binding, replace(plan, chain=shown))])
     for predicate, reason in sorted(joint.skipped.items()):

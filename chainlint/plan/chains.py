@@ -67,9 +67,11 @@ class ChainPlan:
 
 
 def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int | None = None,
-               model: CostModel = DEFAULT_MODEL, rows_from: str = "profile") -> ChainPlan:
+               model: CostModel = DEFAULT_MODEL, rows_from: str = "profile",
+               dtypes: dict[str, str] | None = None) -> ChainPlan:
     """Plan a bound chain with the estimator of its profile; `rows` scales the estimates and
-    `rows_from` says where that count came from (`profile`, `option`, `configuration`)."""
+    `rows_from` says where that count came from (`profile`, `option`, `configuration`);
+    `dtypes` (a live frame's own) replace the profile's for the totality judgement."""
     profile = estimator.profile
     shape = estimator.shape
     total_rows = rows or profile["rows"]
@@ -94,7 +96,7 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
         return cache[mask]
 
     clustered = [estimator.clustering(step.predicate) for step in chain.steps]
-    dtypes = dtypes_of(profile)
+    dtypes = dtypes if dtypes is not None else dtypes_of(profile)
     limits = tuple(judge(step.predicate, dtypes, binding.profile or "") if step.movable else None for step in chain.steps)
 
     def cost(step: int, rows_in: float, kept: float) -> float:
