@@ -239,6 +239,13 @@ def test_the_sealed_sketch_still_merges_and_names_a_wrong_key(tmp_path: Path) ->
     refused = CliRunner().invoke(main, ["profiles", "--store", str(store), "merge", "ab", "a", "b"])
     assert refused.exit_code == 2
     assert "profile 'a', column 'mail': its sketch was sealed with another key" in refused.output
+    # A part written by the format that stored readable sketches is refused too.
+    old = json.loads((store / "profiles" / "b.json").read_text())
+    old["format_version"] = 1
+    (store / "profiles" / "b.json").write_text(json.dumps(old))
+    (store / "private" / "sketch-key").write_text(SKETCH_KEY + "\n")
+    refused = CliRunner().invoke(main, ["profiles", "--store", str(store), "merge", "ab", "a", "b"])
+    assert refused.exit_code == 2 and "profile 'b', column 'mail': format version 1" in refused.output
 
 
 def test_the_sketch_key_stays_out_of_the_repository(tmp_path: Path) -> None:

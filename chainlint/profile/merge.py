@@ -119,6 +119,8 @@ def _open_sketch(part: dict[str, Any], name: str, column: dict[str, Any], key: b
     where = f"profile {part['name']!r}, column {name!r}"
     if "sketch" not in column:
         raise ProfileError(f"{where}: no distinct-count sketch to merge")
+    if part.get("format_version", 1) < 2:
+        raise ProfileError(f"{where}: format version 1 stored sketches anyone could read, which do not merge with sealed ones; profile the part again")
     if not key:
         raise ProfileError(f"{where}: merging needs the sketch key that profiled the parts ({SKETCH_KEY} in the store); this store has none")
     try:
