@@ -33,6 +33,7 @@ from chainlint.ir import (
     Opaque,
     Or,
     Range,
+    RowNulls,
     StrTest,
 )
 
@@ -108,6 +109,9 @@ def predicate_cost(node: Node, shape: FrameShape, model: CostModel = DEFAULT_MOD
         return model.null_test
     if isinstance(node, StrTest):
         return model.string_test
+    if isinstance(node, RowNulls):
+        columns = max(len(shape.kinds), 1)
+        return model.null_test * columns + model.combine * (columns - 1)
     return 0.0
 
 

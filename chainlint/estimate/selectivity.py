@@ -34,6 +34,7 @@ from chainlint.ir import (
     NullTest,
     Or,
     Range,
+    RowNulls,
     StrTest,
 )
 from chainlint.profile.columns import redact_value
@@ -211,7 +212,20 @@ class Estimator:
             return self._range(node, stats)
         if isinstance(node, StrTest):
             return self._string(node, stats)
+        if isinstance(node, RowNulls):
+            return self._row_nulls(node)
         return Estimate(DEFAULT_INEQ, "default")
+
+    def _row_nulls(self, node: RowNulls) -> Estimate:
+        """Rows with at least `need` values present, columns taken as independent."""
+        present = [1.0 - stats.null_share for stats in self.columns.values()]
+        need = node.thresh if node.thresh is not None else (len(present) if node.how == "any" else 1)
+        # Distribution of the number of present values (a Poisson binomial), by dynamic programming.
+        counts = [1.0]
+        for share in present:
+            counts = [(counts[k] if k < len(counts) else 0.0) * (1 - share) + (counts[k - 1] * share if k > 0 else 0.0)
+                      for k in range(len(counts) + 1)]
+        return Estimate(_clip(sum(counts[max(need, 0):])), "exact" if len(present) <= 1 else "most-common")
 
     def _stats(self, node: Node) -> ColumnStats | None:
         operand = getattr(node, "operand", None) or getattr(node, "left", None)

@@ -26,6 +26,7 @@ from chainlint.ir import (
     Node,
     Not,
     NullTest,
+    RowNulls,
     Or,
     Range,
     StrTest,
@@ -111,6 +112,15 @@ def arrow_mask(batch: pa.RecordBatch, node: Node) -> pa.Array:
         return pc.invert(missing) if node.negated else missing
     if isinstance(node, StrTest):
         return _string(batch, node)
+    if isinstance(node, RowNulls):
+        present = None
+        for column in batch.columns:
+            valid = pc.cast(pc.invert(pc.is_null(column, nan_is_null=True)), pa.int64())
+            present = valid if present is None else pc.add(present, valid)
+        if present is None:
+            raise NotEvaluable("a frame without columns")
+        need = node.thresh if node.thresh is not None else (batch.num_columns if node.how == "any" else 1)
+        return pc.greater_equal(present, need)
     if isinstance(node, Not):
         return pc.invert(arrow_mask(batch, node.operand))
     if isinstance(node, (And, Or)):

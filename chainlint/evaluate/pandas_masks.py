@@ -23,6 +23,7 @@ from chainlint.ir import (
     Node,
     Not,
     NullTest,
+    RowNulls,
     Or,
     Range,
     StrTest,
@@ -52,6 +53,10 @@ def mask(frame: pd.DataFrame, node: Node) -> Any:
     if isinstance(node, NullTest):
         column = mask(frame, node.operand)
         return column.notna() if node.negated else column.isna()
+    if isinstance(node, RowNulls):
+        present = frame.notna().sum(axis=1)
+        need = node.thresh if node.thresh is not None else (frame.shape[1] if node.how == "any" else 1)
+        return present >= need
     if isinstance(node, StrTest):
         options = {key: mask(frame, value) for key, value in node.options}
         return getattr(mask(frame, node.operand).str, node.method)(mask(frame, node.pattern), **options)

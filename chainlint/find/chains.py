@@ -8,14 +8,27 @@ meet a seam of the textual screen are walked; the screen proves the others hold 
 from __future__ import annotations
 
 import ast
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
-from chainlint.analysis.model import Chain, Span, Step
+from chainlint.analysis.model import Barrier, Chain, Span, Step
 from chainlint.find.bindings import ModuleBindings, Resolved
 from chainlint.find.origins import Origins, keep_comment, profile_comment
 from chainlint.find.predicates import dotted_name
+from chainlint.find.runs import bound, inplace_dropna, mentioned, read_elsewhere, steps_over
 from chainlint.find.screen import Seams
-from chainlint.find.steps import Names, Shape, StepContext, build_step, peel
+from chainlint.find.steps import (
+    Masks,
+    Names,
+    Shape,
+    StepContext,
+    build_step,
+    is_mask_top,
+    mask_frames,
+    peel,
+    selected_columns,
+)
+
+_MASK_VALUES = (ast.Compare, ast.BinOp, ast.UnaryOp, ast.Call)
 from chainlint.parse.source import SourceText
 
 
@@ -57,12 +70,28 @@ class _Decomposed:
     shapes: tuple[Shape, ...]
 
 
+@dataclass(frozen=True)
+class _Member:
+    """One statement of a run: the name it leaves the frame in, and its filter steps."""
+
+    statement: ast.stmt
+    target: str
+    decomposed: _Decomposed
+    #: A name bound between this statement and the one before that some filter reads.
+    fence: str | None = None
+
+
 class _Finder:
     def __init__(self, source: SourceText, seams: Seams, names: Names, bindings: ModuleBindings) -> None:
         self.source = source
         self.bindings = bindings
         #: The scope (function, lambda or class node; None for the module) of the code walked.
         self.scope: ast.AST | None = None
+        #: Columns the last `.loc[mask, cols]` of the chain being built kept (None: all, or unknown).
+        self.selected: tuple[str, ...] | None = None
+        #: Masks bound to names before the statement being walked, and per statement of the block.
+        self.masks: Masks = {}
+        self.block_masks: list[Masks] = []
         self.seams = seams
         self.names = names
         self.chains: list[Chain] = []
@@ -108,8 +137,11 @@ class _Finder:
     # -- walking --------------------------------------------------------------------------
     def block(self, statements: list[ast.stmt]) -> None:
         """Walk a block in order, so that a chain sees the assignments made before it."""
+        saved = self.masks, self.block_masks
+        self.block_masks = self.mask_table(statements)
         runs = self.runs(statements)
         for index, statement in enumerate(statements):
+            self.masks = self.block_masks[index]
             if index in runs:
                 self.chains.append(self.statement_run(runs[index]))
             if isinstance(statement, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)):
@@ -117,6 +149,28 @@ class _Finder:
             elif self.seams.meets(statement.lineno, statement.end_lineno or statement.lineno):
                 self.node(statement)
             self.origins.record(statement)
+        self.masks, self.block_masks = saved
+
+    def mask_table(self, statements: list[ast.stmt]) -> list[Masks]:
+        """Per statement of a block, the masks bound to a name before it (`m = df.a > 1`, bound
+        once in the scope, its frame not rebound or changed since)."""
+        inherited = self.masks  # a nested block (a loop's body) sees the masks bound before it
+        if not any(isinstance(s, ast.Assign) and isinstance(s.value, _MASK_VALUES) for s in statements):
+            return [inherited] * len(statements)
+        table: list[Masks] = []
+        current = inherited
+        scope = self.bindings.scope(self.scope)
+        for statement in statements:
+            table.append(current)
+            changed = bound(statement)
+            if current and changed:
+                current = {k: v for k, v in current.items() if k not in changed and v[1].split(".")[0] not in changed}
+            if isinstance(statement, ast.Assign) and len(statement.targets) == 1 and isinstance(statement.targets[0], ast.Name):
+                name, value = statement.targets[0].id, statement.value
+                frames = mask_frames(value, self.names) if isinstance(value, _MASK_VALUES) and is_mask_top(value) else set()
+                if len(frames) == 1 and len(scope.bindings.get(name, [])) == 1 and name not in scope.parameters:
+                    current = {**current, name: (value, next(iter(frames)))}
+        return table
 
     def scoped(self, definition: ast.FunctionDef | ast.AsyncFunctionDef | ast.ClassDef) -> None:
         first = min([definition.lineno] + [d.lineno for d in definition.decorator_list])
@@ -132,8 +186,9 @@ class _Finder:
                 self.expression(default)
         self.origins.enter(definition if not isinstance(definition, ast.ClassDef) else None)
         outer, self.scope = self.scope, definition
+        masks, self.masks = self.masks, {}
         self.block(definition.body)
-        self.scope = outer
+        self.scope, self.masks = outer, masks
         self.origins.leave()
 
     def node(self, node: ast.AST) -> None:
@@ -176,7 +231,7 @@ class _Finder:
     def decompose(self, node: ast.AST) -> _Decomposed | None:
         shapes = []
         current = node
-        while (shape := peel(current, self.names)) is not None:
+        while (shape := peel(current, self.names, self.masks)) is not None:
             shapes.append(shape)
             current = shape.inner
         if not shapes:
@@ -224,6 +279,8 @@ class _Finder:
     ) -> tuple[Step, ...]:
         built = []
         resolve = self.resolver()
+        if statement == 0:
+            self.selected = None
         for index, shape in enumerate(decomposed.shapes):
             context = StepContext(
                 own=own if index == 0 else None,
@@ -235,46 +292,92 @@ class _Finder:
                 statement=statement,
                 resolve=resolve,
                 assigned=assigned,
+                selected=self.selected,
             )
             built.append(build_step(shape, context))
+            if shape.selection is not None:
+                self.selected = selected_columns(shape)
         return tuple(built)
 
-    def runs(self, statements: list[ast.stmt]) -> dict[int, list[tuple[ast.stmt, _Decomposed]]]:
-        """Statement runs of a block, by the index of their first statement."""
-        found: dict[int, list[tuple[ast.stmt, _Decomposed]]] = {}
+    def runs(self, statements: list[ast.stmt]) -> dict[int, list[_Member]]:
+        """Statement runs of a block, by the index of their first statement: each statement
+        filters the frame the one before produced (under the same name or a new one), with
+        statements that touch neither the run's frames nor the names its filters read between."""
+        found: dict[int, list[_Member]] = {}
         index = 0
         while index < len(statements):
-            first = self.assignment(statements[index])
+            self.masks = self.block_masks[index]
+            first = self.assignment(statements[index]) or self.inplace(statements[index])
             if first is None:
                 index += 1
                 continue
-            target = first[0]
-            members = [(statements[index], first[1])]
-            following = index + 1
+            members = [_Member(statements[index], first[0], first[1])]
+            frames = {first[0]}
+            read = mentioned(first[1].shapes[-1].node)
+            # Names bound by the statements stepped over, by the member that follows them.
+            between: list[tuple[int, set[str]]] = []
+            fences: dict[int, str] = {}
+            following = last = index + 1
             while following < len(statements):
-                later = self.assignment(statements[following])
-                if later is None or later[0] != target or dotted_name(later[1].base) != target:
+                statement = statements[following]
+                self.masks = self.block_masks[following]
+                later = self.assignment(statement) or self.inplace(statement)
+                if later is not None and dotted_name(later[1].base) == members[-1].target:
+                    value = mentioned(later[1].shapes[-1].node)
+                    for number, names in between:
+                        if names & value:
+                            fences.setdefault(number, sorted(names & value)[0])
+                    members.append(_Member(statement, later[0], later[1]))
+                    frames.add(later[0])
+                    read |= value
+                    following = last = following + 1
+                    continue
+                if not steps_over(statement, frames):
                     break
-                members.append((statements[following], later[1]))
+                names = bound(statement)
+                between.append((len(members), names))
+                if names & read:
+                    fences.setdefault(len(members), sorted(names & read)[0])
                 following += 1
-            if len(members) >= 2 and self.seams.meets(members[0][0].lineno, members[-1][0].end_lineno or 0):
+            if len(members) >= 2:
+                members = [replace(m, fence=fences.get(n)) for n, m in enumerate(members)]
+            if len(members) >= 2 and self.seams.meets(members[0].statement.lineno, members[-1].statement.end_lineno or 0):
                 found[index] = members
-                for statement, _ in members:
-                    self.absorbed.add(id(statement.value))  # type: ignore[attr-defined]
-            index = following if len(members) >= 2 else index + 1
+                for member in members:
+                    self.absorbed.add(id(member.decomposed.shapes[-1].node))
+            index = last if len(members) >= 2 else index + 1
         return found
 
-    def statement_run(self, members: list[tuple[ast.stmt, _Decomposed]]) -> Chain:
-        first_base = members[0][1].base
+    def inplace(self, statement: ast.stmt) -> tuple[str, _Decomposed] | None:
+        """`(x, steps)` for a statement `x.dropna(..., inplace=True)`."""
+        call = inplace_dropna(statement)
+        if call is None or call.args or any(k.arg is None for k in call.keywords):
+            return None
+        assert isinstance(call.func, ast.Attribute) and isinstance(call.func.value, ast.Name)
+        shape = Shape("dropna", call, call.func.value, None, inplace=True)
+        return call.func.value.id, _Decomposed(call.func.value, (shape,))
+
+    def statement_run(self, members: list[_Member]) -> Chain:
+        first_base = members[0].decomposed.base
         root = dotted_name(first_base)
         steps: list[Step] = []
-        assigned = frozenset(statement.targets[0].id for statement, _ in members)  # type: ignore[attr-defined]
-        for number, (_, decomposed) in enumerate(members):
-            own = dotted_name(decomposed.base)
+        assigned = frozenset(member.target for member in members)
+        scope = self.scope if self.scope is not None else self.bindings.tree
+        statements = [member.statement for member in members]
+        for number, member in enumerate(members):
+            own = dotted_name(member.decomposed.base)
             outer = frozenset(name for name in (root, own) if name)
-            steps.extend(self.steps(decomposed, own, outer, statement=number, assigned=assigned))
-        start = self.node_span(members[0][0])
-        end = self.node_span(members[-1][0])
+            built = list(self.steps(member.decomposed, own, outer, statement=number, assigned=assigned))
+            before = members[number - 1].target if number else None
+            if before is not None and before != member.target and read_elsewhere(scope, before, statements):
+                reason = f"`{before}`, the frame this step receives, is read elsewhere: no step moves across its statement"
+                built[0] = replace(built[0], barrier=Barrier("frame", reason))
+            elif member.fence is not None:
+                reason = f"`{member.fence}` is assigned between this filter and the one before: no step moves across that statement"
+                built[0] = replace(built[0], barrier=Barrier("frame", reason))
+            steps.extend(built)
+        start = self.node_span(members[0].statement)
+        end = self.node_span(members[-1].statement)
         span = Span(start.line, start.column, end.end_line, end.end_column)
         origin = self.origins.lookup(root, first_base)
         return Chain(

@@ -13,6 +13,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from chainlint.analysis.model import Barrier
+from chainlint.find.bindings import Resolved
 from chainlint.find.barriers import (
     FRAME_ATTRIBUTES,
     NOT_COLUMNS,
@@ -78,6 +79,8 @@ class Dialect:
     locals: dict[str, str] = field(default_factory=dict)
     pandas: frozenset[str] = frozenset()
     pandas_functions: dict[str, str] = field(default_factory=dict)
+    #: What a name of the code holds (for column names held in constants), when known.
+    resolve: Callable[[str], Resolved] | None = None
 
 
 @dataclass
@@ -220,6 +223,12 @@ class _Converter:
         key = expr.slice
         if self.is_frame(expr.value) and isinstance(key, ast.Constant) and isinstance(key.value, str):
             return Column(key.value)
+        named = dotted_name(key)
+        if self.is_frame(expr.value) and named is not None and self.dialect.resolve is not None:
+            found = self.dialect.resolve(named)
+            if found.kind == "value" and isinstance(found.value, str):
+                return Column(found.value)
+            return self.unknown(expr, f"the column is named by `{named}`, known only when the code runs")
         inner = self.expr(expr.value)
         if inner is FRAME:
             return self.unknown(expr, f"`{_clip(self.text_of(expr))}` is not a single column")

@@ -4,7 +4,10 @@ A chain has two adjacent steps, so its text shows one of two seams:
 - in a method chain, the `]` or `)` that ends a step, then only blanks, comments, backslash
   continuations or closing parentheses, then `[` or `.loc` / `.query` / `.dropna`;
 - in a statement run, the `]` or `)` that ends a statement, then a statement `x = x[...]` /
-  `x = x.loc` / `.query` / `.dropna` (only blanks, comments, `;` and `)` between).
+  `x = x.loc` / `.query` / `.dropna` (only blanks, comments, `;` and `)` between);
+- a run under new names or with other statements between shows no seam: in a file with two or
+  more statements `y = x[...]` / `y = x.loc` / `.query` / `.dropna` or `x.dropna(` at the start
+  of a line, each of them is a seam.
 The screen looks for these seams with possessive regular expressions (linear time). It is
 conservative by construction: it may pass a file without a chain, never the reverse, which a
 property test checks against the finder. A subscript whose whole content is a literal, a name,
@@ -33,6 +36,13 @@ _METHOD_SEAM = re.compile(r"[\])]" + _GAP + r"(?:\[(?!" + _NEVER_A_STEP + r")|" 
 _RUN_SEAM = re.compile(
     r"[\])]" + _GAP_STATEMENT + r"([A-Za-z_]\w*+)" + _BLANK + r"=(?!=)" + _GAP_OPEN + r"\1(?!\w)"
     + _GAP + r"(?:\[|" + _METHOD + r")"
+)
+#: A statement that filters a named frame into a name (`late = north[...]`, `t = t.dropna(...)`)
+#: or drops rows in place: two of them in a file may be a run under new names or with other
+#: statements between.
+_FILTER_STATEMENT = re.compile(
+    r"(?m)^[ \t]*+(?:[A-Za-z_]\w*+[ \t]*+=(?!=)[ \t]*+[A-Za-z_]\w*+" + _GAP
+    + r"(?:\[(?!" + _NEVER_A_STEP + r")|" + _METHOD + r")|[A-Za-z_]\w*+\.dropna\()"
 )
 _NON_ASCII = re.compile(r"[^\x00-\x7f]")
 _NEWLINE = re.compile(r"\r\n|\r|\n")
@@ -75,6 +85,9 @@ def find_seams(text: str) -> Seams:
         text = _NON_ASCII.sub("x", unicodedata.normalize("NFKC", text))
     matches = [m.span() for m in _METHOD_SEAM.finditer(text)]
     matches += [m.span() for m in _RUN_SEAM.finditer(text)]
+    statements = [m.span() for m in _FILTER_STATEMENT.finditer(text)]
+    if len(statements) >= 2:
+        matches += statements
     if not matches:
         return Seams([])
     line_starts = [0] + [m.end() for m in _NEWLINE.finditer(text)]

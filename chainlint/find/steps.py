@@ -12,15 +12,16 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from chainlint.analysis.model import Barrier, Span, Step
-from chainlint.find.bindings import Resolved
+from chainlint.find.bindings import VALUE, VALUES, Resolved
 from chainlint.find.predicates import Converted, Dialect, convert, dotted_name
 from chainlint.find.query import convert_query
 from chainlint.find.values import settle
-from chainlint.ir import Column, NullTest, Opaque, make_and, make_or
+from chainlint.ir import Column, NullTest, Opaque, RowNulls, make_and, make_or
 
 _MASK_TOPS = (ast.Compare, ast.BinOp, ast.UnaryOp, ast.Call)
 #: `query` keywords that change where the names of the text resolve.
 _QUERY_SCOPES = ("local_dict", "global_dict", "resolvers", "level")
+_LABELS = frozenset({"columns", "index", "values", "dtypes", "axes", "keys"})
 _NOT_A_FRAME_ATTRIBUTE = frozenset({"iloc", "iat", "at", "ix", "str", "dt", "cat", "sparse", "plot"})
 
 
@@ -32,6 +33,12 @@ class Shape:
     node: ast.expr
     inner: ast.expr
     arg: ast.expr | None
+    #: `.loc[mask, cols]`: the column selection, which stays where it is written.
+    selection: ast.expr | None = None
+    #: A statement `frame.dropna(..., inplace=True)` of a run.
+    inplace: bool = False
+    #: For a mask bound to a name before the chain (`df[m]`): the key as written.
+    written: ast.expr | None = None
 
 
 @dataclass(frozen=True)
@@ -43,33 +50,82 @@ class Names:
     pandas_functions: tuple[tuple[str, str], ...] = ()
 
 
-def peel(node: ast.AST, names: Names) -> Shape | None:
+#: Masks bound to a name earlier in the block: name -> (the mask expression, its frame).
+Masks = dict[str, tuple[ast.expr, str]]
+
+
+def peel(node: ast.AST, names: Names, masks: Masks | None = None) -> Shape | None:
     """The step whose outermost node is `node`, or None when it is not a row filter."""
+    shape = None
     if isinstance(node, ast.Subscript):
-        return _peel_subscript(node, names)
-    if isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute):
+        shape = _peel_subscript(node, names, masks or {})
+    elif isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute):
         method = node.func.attr
         if method == "query":
-            return _peel_query(node)
-        if method == "dropna":
-            return _peel_dropna(node)
-    return None
+            shape = _peel_query(node)
+        elif method == "dropna":
+            shape = _peel_dropna(node)
+    if shape is not None and _not_a_frame(shape.inner):
+        return None
+    return shape
 
 
-def _peel_subscript(node: ast.Subscript, names: Names) -> Shape | None:
+def _not_a_frame(expr: ast.expr) -> bool:
+    """Whether an expression is derived from a frame's labels or values, not rows of a frame
+    (`df.columns.drop(["a"])`, `df.index`, `df.values`)."""
+    while True:
+        if isinstance(expr, ast.Attribute):
+            if expr.attr in _LABELS:
+                return True
+            expr = expr.value
+        elif isinstance(expr, ast.Call):
+            expr = expr.func
+        elif isinstance(expr, ast.Subscript):
+            expr = expr.value
+        else:
+            return False
+
+
+def _peel_subscript(node: ast.Subscript, names: Names, masks: Masks) -> Shape | None:
     value = node.value
     key = node.slice
     loc = isinstance(value, ast.Attribute) and value.attr == "loc"
     if isinstance(value, ast.Attribute) and value.attr in _NOT_A_FRAME_ATTRIBUTE:
         return None
     inner = value.value if loc and isinstance(value, ast.Attribute) else value
-    if loc and isinstance(key, ast.Tuple) and len(key.elts) == 2 and _is_full_slice(key.elts[1]):
+    selection = None
+    if loc and isinstance(key, ast.Tuple) and len(key.elts) == 2:
+        if not _is_full_slice(key.elts[1]):
+            if not isinstance(node.ctx, ast.Load):
+                return None
+            selection = key.elts[1]
         key = key.elts[0]
     prefix = "loc_" if loc else "getitem_"
     if isinstance(key, ast.Lambda):
-        return Shape(prefix + "lambda", node, inner, key)
-    if isinstance(key, _MASK_TOPS) and _is_mask_top(key) and mask_frames(key, names):
-        return Shape(prefix + "mask", node, inner, key)
+        return Shape(prefix + "lambda", node, inner, key, selection)
+    if isinstance(key, _MASK_TOPS) and is_mask_top(key) and mask_frames(key, names):
+        return Shape(prefix + "mask", node, inner, key, selection)
+    substituted = _substitute(key, masks) if masks else None
+    if substituted is not None:
+        return Shape(prefix + "mask", node, inner, substituted, selection, written=key)
+    return None
+
+
+def _substitute(key: ast.expr, masks: Masks) -> ast.expr | None:
+    """`key` with the mask names it combines (`m`, `~m`, `m1 & m2`) replaced by their masks."""
+    if isinstance(key, ast.Name):
+        return masks[key.id][0] if key.id in masks else None
+    parts: list[ast.expr | None]
+    if isinstance(key, ast.UnaryOp) and isinstance(key.op, ast.Invert):
+        parts = [_substitute(key.operand, masks)]
+        if parts[0] is None:
+            return None
+        return ast.copy_location(ast.UnaryOp(op=key.op, operand=parts[0]), key)
+    if isinstance(key, ast.BinOp) and isinstance(key.op, (ast.BitAnd, ast.BitOr)):
+        left, right = _substitute(key.left, masks), _substitute(key.right, masks)
+        if left is None and right is None:
+            return None
+        return ast.copy_location(ast.BinOp(left=left or key.left, op=key.op, right=right or key.right), key)
     return None
 
 
@@ -77,7 +133,7 @@ def _is_full_slice(expr: ast.expr) -> bool:
     return isinstance(expr, ast.Slice) and expr.lower is None and expr.upper is None and expr.step is None
 
 
-def _is_mask_top(expr: ast.expr) -> bool:
+def is_mask_top(expr: ast.expr) -> bool:
     if isinstance(expr, ast.BinOp):
         return isinstance(expr.op, (ast.BitAnd, ast.BitOr))
     if isinstance(expr, ast.UnaryOp):
@@ -110,7 +166,7 @@ def _peel_query(node: ast.Call) -> Shape | None:
 
 
 def _peel_dropna(node: ast.Call) -> Shape | None:
-    if node.args or any(k.arg is None for k in node.keywords) or _keyword(node, "subset") is None:
+    if node.args or any(k.arg is None for k in node.keywords):
         return None
     if _truthy_or_unknown(_keyword(node, "inplace")):
         return None
@@ -126,9 +182,11 @@ def mask_frames(expr: ast.expr, names: Names) -> set[str]:
     found: set[str] = set()
     called = {id(n.func) for n in ast.walk(expr) if isinstance(n, ast.Call)}
     for node in ast.walk(expr):
-        if isinstance(node, ast.Attribute) and id(node) not in called:
+        if isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute) and node.func.attr == "duplicated":
+            base = dotted_name(node.func.value)  # a mask of the frame itself
+        elif isinstance(node, ast.Attribute) and id(node) not in called:
             base = dotted_name(node.value)
-        elif isinstance(node, ast.Subscript) and isinstance(node.slice, ast.Constant) and isinstance(node.slice.value, str):
+        elif isinstance(node, ast.Subscript) and _column_key(node.slice):
             base = dotted_name(node.value)
         else:
             continue
@@ -152,6 +210,8 @@ class StepContext:
     statement: int
     resolve: Callable[[str], Resolved]
     assigned: frozenset[str] = frozenset()
+    #: The columns an earlier `.loc[mask, cols]` of the chain kept, when it names them.
+    selected: tuple[str, ...] | None = None
 
 
 def build_step(shape: Shape, context: StepContext) -> Step:
@@ -164,14 +224,22 @@ def build_step(shape: Shape, context: StepContext) -> Step:
         assert shape.arg is not None
         frame, mask_frame, extra = _choose_mask_frame(mask_frames(shape.arg, context.names), context)
         converted = convert(shape.arg, _dialect(frame, context), context.text_of)
-        mask_name, mask_span = frame, context.span_of(shape.arg)
+        mask_name, mask_span = frame, context.span_of(shape.written or shape.arg)
+        if shape.written is not None:
+            reason = f"the mask `{_clip(context.text_of(shape.written))}` was computed before the chain, on `{frame}` as it was then"
+            extra = [Barrier("foreign", reason), *extra]
     elif shape.kind == "query":
         converted = _convert_query_step(shape, context)
     else:
         converted = _convert_dropna(shape, context)
     predicate, named = settle(converted.node, context.resolve, context.assigned)
     barriers = extra + converted.barriers + named
-    if not barriers and not predicate.columns():
+    if shape.inplace:
+        barriers.append(Barrier("frame", "an in-place `dropna` stays the statement it is, where it is written"))
+    if shape.selection is not None:
+        text = context.text_of(shape.selection)
+        barriers.append(Barrier("frame", f"also selects columns (`{_clip(text)}`): the selection stays where it is written"))
+    if not barriers and not predicate.columns() and not isinstance(predicate, RowNulls):
         barriers.append(Barrier("opaque", "reads no column of the frame it filters"))
     barrier = Converted(predicate, barriers, converted.frame_wide).barrier
     return Step(
@@ -194,6 +262,7 @@ def _dialect(frame: str | None, context: StepContext) -> Dialect:
         foreign=others,
         pandas=context.names.pandas,
         pandas_functions=dict(context.names.pandas_functions),
+        resolve=context.resolve,
     )
 
 
@@ -247,24 +316,73 @@ def _convert_query_step(shape: Shape, context: StepContext) -> Converted:
 def _convert_dropna(shape: Shape, context: StepContext) -> Converted:
     assert isinstance(shape.node, ast.Call)
     node = shape.node
-    text = context.text_of(node)
+    text = "dropna(" + ", ".join(f"{k.arg}={context.text_of(k.value)}" for k in node.keywords) + ")"
     subset = _keyword(node, "subset")
-    if isinstance(subset, ast.Constant) and isinstance(subset.value, str):
-        columns = [subset.value]
-    elif isinstance(subset, (ast.List, ast.Tuple)) and all(
-        isinstance(e, ast.Constant) and isinstance(e.value, str) for e in subset.elts
-    ) and subset.elts:
-        columns = [e.value for e in subset.elts]  # type: ignore[attr-defined]
-    else:
-        return Converted(Opaque(text), [Barrier("opaque", "`subset=` is not a literal list of column names")], False)
     how = _keyword(node, "how")
     if how is not None and not (isinstance(how, ast.Constant) and how.value in ("any", "all")):
         return Converted(Opaque(text), [Barrier("opaque", "`how=` is not a literal 'any' or 'all'")], False)
-    tests = [NullTest(Column(c), True) for c in columns]
-    predicate = make_or(tests) if how is not None and how.value == "all" else make_and(tests)  # type: ignore[attr-defined]
-    barriers = []
-    if _keyword(node, "thresh") is not None:
-        return Converted(Opaque(text), [Barrier("opaque", "`thresh=` is not modelled")], False)
+    how_text = how.value if how is not None else "any"  # type: ignore[attr-defined]
+    thresh = _keyword(node, "thresh")
+    if thresh is not None and (how is not None or not (isinstance(thresh, ast.Constant) and type(thresh.value) is int)):
+        return Converted(Opaque(text), [Barrier("opaque", "`thresh=` is not a literal number given alone")], False)
+    barriers: list[Barrier] = []
     if _truthy_or_unknown(_keyword(node, "ignore_index")):
         barriers.append(Barrier("frame", "renumbers the index (`ignore_index=True`)"))
+    if subset is None:
+        count = thresh.value if thresh is not None else None  # type: ignore[attr-defined]
+        if context.selected is not None and count is None:
+            tests = [NullTest(Column(c), True) for c in context.selected]
+            return Converted(make_and(tests) if how_text == "any" else make_or(tests), barriers, False)
+        return Converted(RowNulls(how_text, count), barriers, False)
+    columns = _column_names(subset, context)
+    if columns is None:
+        return Converted(Opaque(text), [Barrier("opaque", "`subset=` is not a literal list of column names")], False)
+    if thresh is not None:
+        return Converted(Opaque(text), [Barrier("opaque", "`thresh=` with `subset=` is not modelled")], False)
+    tests = [NullTest(Column(c), True) for c in columns]
+    predicate = make_or(tests) if how_text == "all" else make_and(tests)
     return Converted(predicate, barriers, False)
+
+
+def selected_columns(shape: Shape) -> tuple[str, ...] | None:
+    """The columns a `.loc[mask, cols]` keeps when they are written as literals."""
+    selection = shape.selection
+    if isinstance(selection, ast.Constant) and isinstance(selection.value, str):
+        return (selection.value,)
+    if isinstance(selection, (ast.List, ast.Tuple)) and selection.elts and all(
+        isinstance(e, ast.Constant) and isinstance(e.value, str) for e in selection.elts
+    ):
+        return tuple(e.value for e in selection.elts)  # type: ignore[attr-defined]
+    return None
+
+
+def _clip(text: str, limit: int = 40) -> str:
+    text = " ".join(text.split())
+    return text if len(text) <= limit else text[: limit - 1] + "…"
+
+
+def _column_names(expr: ast.expr, context: StepContext) -> list[str] | None:
+    """Column names written as literals or names the code binds to them (`subset=[COL]`)."""
+    if isinstance(expr, (ast.List, ast.Tuple)):
+        names = [_column_names(e, context) for e in expr.elts]
+        if not expr.elts or any(n is None or len(n) != 1 for n in names):
+            return None
+        return [n[0] for n in names]  # type: ignore[index]
+    if isinstance(expr, ast.Constant):
+        return [expr.value] if isinstance(expr.value, str) else None
+    dotted = dotted_name(expr)
+    if dotted is None:
+        return None
+    found = context.resolve(dotted)
+    if found.kind == VALUE and isinstance(found.value, str):
+        return [found.value]
+    if found.kind == VALUES and found.value and all(isinstance(v, str) for v in found.value):  # type: ignore[union-attr]
+        return list(found.value)  # type: ignore[arg-type]
+    return None
+
+
+def _column_key(key: ast.expr) -> bool:
+    """A key that names one column: a string, or a name or f-string holding one."""
+    if isinstance(key, ast.Constant):
+        return isinstance(key.value, str)
+    return isinstance(key, (ast.Name, ast.JoinedStr)) or (isinstance(key, ast.Attribute) and dotted_name(key) is not None)

@@ -16,6 +16,7 @@ from chainlint.ir.nodes import (
     Opaque,
     Or,
     Range,
+    RowNulls,
     StrTest,
 )
 from chainlint.ir.text import PredicateSyntaxError, parse_predicate
@@ -36,6 +37,7 @@ __all__ = [
     "Or",
     "PredicateSyntaxError",
     "Range",
+    "RowNulls",
     "StrTest",
     "make_and",
     "make_compare",

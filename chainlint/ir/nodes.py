@@ -130,6 +130,15 @@ class StrTest(Node):
 
 
 @dataclass(frozen=True, slots=True)
+class RowNulls(Node):
+    """`dropna()` without `subset`: a row is kept by its missing values over every column
+    (`how="any"`: none missing; `"all"`: not all missing; `thresh`: at least that many present)."""
+
+    how: str = "any"
+    thresh: int | None = None
+
+
+@dataclass(frozen=True, slots=True)
 class Not(Node):
     operand: Node
 
@@ -152,7 +161,7 @@ class Opaque(Node):
 
 
 #: Node types whose value is a boolean mask (what a row filter needs at its top).
-PREDICATE_TYPES = (Compare, Member, Range, NullTest, StrTest, Not, And, Or)
+PREDICATE_TYPES = (Compare, Member, Range, NullTest, StrTest, RowNulls, Not, And, Or)
 
 
 def _same_value(a: LiteralValue, b: LiteralValue) -> bool:
@@ -243,6 +252,10 @@ def _print(node: Node) -> str:
     if isinstance(node, StrTest):
         args = [_print(node.pattern)] + [f"{key}={_print(value)}" for key, value in node.options]
         return f"{_operand(node.operand)}.str.{node.method}({', '.join(args)})"
+    if isinstance(node, RowNulls):
+        if node.thresh is not None:
+            return f"notnull(*, thresh={node.thresh})"
+        return "notnull(*)" if node.how == "any" else "notnull(*, how='all')"
     if isinstance(node, Not):
         inner = _print(node.operand)
         if isinstance(node.operand, (And, Or)):

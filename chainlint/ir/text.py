@@ -25,6 +25,7 @@ from chainlint.ir.nodes import (
     NullTest,
     Opaque,
     Range,
+    RowNulls,
     StrTest,
 )
 
@@ -142,6 +143,8 @@ class _Parser:
         if kind == "name":
             if text in ("True", "False", "None"):
                 return Literal({"True": True, "False": False, "None": None}[text])
+            if text == "notnull" and self.peek()[1] == "(":
+                return self.row_nulls()
             if text == "opaque" and self.peek()[1] == "(":
                 self.take()
                 source = self.take()
@@ -151,6 +154,25 @@ class _Parser:
                 return Opaque(ast.literal_eval(source[1]))
             return Column(text)
         raise PredicateSyntaxError(f"unexpected {text or 'end'!r} at offset {pos}")
+
+    def row_nulls(self) -> Node:
+        """`notnull(*)`, `notnull(*, how='all')` or `notnull(*, thresh=N)`."""
+        self.expect("(")
+        self.expect("*")
+        node = RowNulls()
+        if self.peek()[1] == ",":
+            self.take()
+            key = self.take()
+            self.expect("=")
+            value = self.take()
+            if key[1] == "how" and value[0] == "string" and ast.literal_eval(value[1]) == "all":
+                node = RowNulls("all")
+            elif key[1] == "thresh" and value[0] == "number" and value[1].isdigit():
+                node = RowNulls("any", int(value[1]))
+            else:
+                raise PredicateSyntaxError(f"unexpected {key[1]!r} at offset {key[2]}")
+        self.expect(")")
+        return node
 
     def word_predicate(self, left: Node) -> Node:
         _, word, pos = self.take()
