@@ -11,6 +11,9 @@ from pathlib import Path
 import pytest
 
 from chainlint.analysis.run import analyse_file
+from chainlint.find.chains import find_chains
+from chainlint.find.screen import Seams
+from chainlint.parse.source import parse_tree, read_source
 
 FIXTURES = Path(__file__).parent / "fixtures" / "finder"
 
@@ -90,3 +93,23 @@ def test_segments_split_at_barriers() -> None:
     result = analyse_file(str(FIXTURES / "forms.py"))
     chain = next(c for c in result.chains if len(c.steps) == 3 and not c.steps[1].movable)
     assert chain.segments() == ((0,), (2,))
+
+
+@pytest.mark.parametrize("name", sorted(p.name for p in FIXTURES.glob("*.py")))
+def test_the_screen_hides_no_chain_of_the_corpus(name: str) -> None:
+    # The corpus holds every form the finder knows: the screened finder must see what a finder
+    # walking every statement sees.
+    source = read_source(str(FIXTURES / name))
+    unscreened = find_chains(source, parse_tree(source), Seams(None))
+    assert list(analyse_file(str(FIXTURES / name)).chains) == unscreened
+
+
+def test_a_path_bound_to_a_local_constant_binds_the_frame(tmp_path: Path) -> None:
+    path = tmp_path / "m.py"
+    path.write_text(
+        'import pandas as pd\n\n\ndef load():\n    where = "data/scans.parquet"\n    frame = pd.read_parquet(where)\n'
+        '    return frame[frame.a > 1].query("b == 2")\n',
+        encoding="utf-8",
+    )
+    (chain,) = analyse_file(str(path)).chains
+    assert chain.origin is not None and (chain.origin.kind, chain.origin.path) == ("read", "data/scans.parquet")

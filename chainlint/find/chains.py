@@ -22,13 +22,14 @@ from chainlint.find.steps import (
     Shape,
     StepContext,
     build_step,
-    is_mask_top,
+    hidden_by_screen,
+    is_mask_value,
     mask_frames,
     peel,
+    rows_axis,
     selected_columns,
 )
 
-_MASK_VALUES = (ast.Compare, ast.BinOp, ast.UnaryOp, ast.Call)
 from chainlint.parse.source import SourceText
 
 
@@ -96,7 +97,7 @@ class _Finder:
         self.names = names
         self.chains: list[Chain] = []
         self.absorbed: set[int] = set()
-        self.origins = Origins(names.pandas, source.lines)
+        self.origins = Origins(names.pandas, source.lines, lambda name: bindings.resolve(name, self.scope))
 
     # -- positions ------------------------------------------------------------------------
     def text_of(self, node: ast.AST) -> str:
@@ -155,11 +156,11 @@ class _Finder:
         """Per statement of a block, the masks bound to a name before it (`m = df.a > 1`, bound
         once in the scope, its frame not rebound or changed since)."""
         inherited = self.masks  # a nested block (a loop's body) sees the masks bound before it
-        if not any(isinstance(s, ast.Assign) and isinstance(s.value, _MASK_VALUES) for s in statements):
+        if not any(isinstance(s, ast.Assign) and is_mask_value(s.value) for s in statements):
             return [inherited] * len(statements)
         table: list[Masks] = []
         current = inherited
-        scope = self.bindings.scope(self.scope)
+        scope = None
         for statement in statements:
             table.append(current)
             changed = bound(statement)
@@ -167,9 +168,11 @@ class _Finder:
                 current = {k: v for k, v in current.items() if k not in changed and v[1].split(".")[0] not in changed}
             if isinstance(statement, ast.Assign) and len(statement.targets) == 1 and isinstance(statement.targets[0], ast.Name):
                 name, value = statement.targets[0].id, statement.value
-                frames = mask_frames(value, self.names) if isinstance(value, _MASK_VALUES) and is_mask_top(value) else set()
-                if len(frames) == 1 and len(scope.bindings.get(name, [])) == 1 and name not in scope.parameters:
-                    current = {**current, name: (value, next(iter(frames)))}
+                frames = mask_frames(value, self.names) if is_mask_value(value) else set()
+                if len(frames) == 1:
+                    scope = scope or self.bindings.scope(self.scope)  # built only when a mask is bound
+                    if len(scope.bindings.get(name, [])) == 1 and name not in scope.parameters:
+                        current = {**current, name: (value, next(iter(frames)))}
         return table
 
     def scoped(self, definition: ast.FunctionDef | ast.AsyncFunctionDef | ast.ClassDef) -> None:
@@ -220,7 +223,7 @@ class _Finder:
             if decomposed is None:
                 stack.extend((child, inner) for child in ast.iter_child_nodes(node))
                 continue
-            if id(node) not in self.absorbed and len(decomposed.shapes) >= 2:
+            if id(node) not in self.absorbed and len(decomposed.shapes) >= 2 and not all(map(hidden_by_screen, decomposed.shapes[1:])):
                 self.chains.append(self.method_chain(node, decomposed))
             stack.append((decomposed.base, self.scope))
             for shape in decomposed.shapes:
@@ -351,7 +354,7 @@ class _Finder:
     def inplace(self, statement: ast.stmt) -> tuple[str, _Decomposed] | None:
         """`(x, steps)` for a statement `x.dropna(..., inplace=True)`."""
         call = inplace_dropna(statement)
-        if call is None or call.args or any(k.arg is None for k in call.keywords):
+        if call is None or call.args or any(k.arg is None for k in call.keywords) or not rows_axis(call):
             return None
         assert isinstance(call.func, ast.Attribute) and isinstance(call.func.value, ast.Name)
         shape = Shape("dropna", call, call.func.value, None, inplace=True)

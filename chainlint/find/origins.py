@@ -1,7 +1,7 @@
 """Where a chain's frame comes from, as far as the code says: what the binding stage needs.
 
 Recorded per scope while the finder walks statements in order: `x = pd.read_parquet("f")`
-(with a literal path or a module-level string constant), function parameters, and
+(with a literal path or a name the code binds to one string), function parameters, and
 `# chainlint: profile=NAME` comments on the assigning statement.
 """
 
@@ -9,9 +9,11 @@ from __future__ import annotations
 
 import ast
 import re
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from chainlint.analysis.model import FrameOrigin
+from chainlint.find.bindings import VALUE, Resolved
 
 PROFILE_COMMENT = re.compile(r"#\s*chainlint:\s*profile\s*=\s*([A-Za-z0-9][A-Za-z0-9_.\-]*)")
 READERS = frozenset({"read_csv", "read_parquet", "read_feather", "read_json"})
@@ -65,10 +67,11 @@ class Scope:
 class Origins:
     """Scopes from the module inward; lookups fall back outward as Python's closures do."""
 
-    def __init__(self, pandas: frozenset[str], lines: tuple[str, ...]) -> None:
+    def __init__(self, pandas: frozenset[str], lines: tuple[str, ...], resolve: Callable[[str], Resolved]) -> None:
         self.pandas = pandas
         self.lines = lines
-        self.constants: dict[str, str] = {}
+        #: What a name holds where the finder is (the one resolver of the module's constants).
+        self.resolve = resolve
         self.scopes: list[Scope] = [Scope()]
 
     def enter(self, function: ast.FunctionDef | ast.AsyncFunctionDef | None) -> None:
@@ -97,8 +100,6 @@ class Origins:
         if not isinstance(target, ast.Name):
             return
         value = statement.value
-        if len(self.scopes) == 1 and isinstance(value, ast.Constant) and isinstance(value.value, str):
-            self.constants[target.id] = value.value
         reader, path = self.reader_call(value)
         kind = "read" if reader else "assigned"
         options = read_options(value) if reader else ()
@@ -115,7 +116,8 @@ class Origins:
         if isinstance(argument, ast.Constant) and isinstance(argument.value, str):
             return func.attr, argument.value
         if isinstance(argument, ast.Name):
-            return func.attr, self.constants.get(argument.id)
+            found = self.resolve(argument.id)
+            return func.attr, found.value if found.kind == VALUE and isinstance(found.value, str) else None
         return func.attr, None
 
     def lookup(self, name: str | None, base: ast.expr) -> FrameOrigin | None:

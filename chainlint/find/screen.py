@@ -29,8 +29,12 @@ _GAP_STATEMENT = r"(?:[\s);\\]++|#[^\r\n]*+)*+"
 _GAP_OPEN = r"(?:[\s(\\]++|#[^\r\n]*+)*+"
 _BLANK = r"(?:[\s\\]++|#[^\r\n]*+)*+"
 _METHOD = r"\." + _BLANK + r"(?:loc|query|dropna)(?!\w)"
-_LITERAL = r"""(?:-?\d[\w.]*|\w+(?:\.\w+)*|'[^'\r\n\\]*'|"[^"\r\n\\]*")"""
-_NEVER_A_STEP = r"\s*+(?:" + _LITERAL + r"\s*+[\],:]|[:\[])"
+_LITERAL = r"""(?:-?\d[\w.]*|'[^'\r\n\\]*'|"[^"\r\n\\]*")"""
+_NAME = r"\w+(?:\.\w+)*"
+_NEVER_A_STEP = r"\s*+(?:(?:" + _LITERAL + "|" + _NAME + r")\s*+[\],:]|[:\[])"
+#: In a statement, a name (`t = df[m]`, `t = df[df.flag]`) may be a mask bound earlier or a
+#: boolean column; in a method chain such a step needs another step after the first to be found.
+_NEVER_A_STEP_STATEMENT = r"\s*+(?:" + _LITERAL + r"\s*+[\],:]|" + _NAME + r"\s*+[,:]|[:\[])"
 
 _METHOD_SEAM = re.compile(r"[\])]" + _GAP + r"(?:\[(?!" + _NEVER_A_STEP + r")|" + _METHOD + r")")
 _RUN_SEAM = re.compile(
@@ -42,7 +46,7 @@ _RUN_SEAM = re.compile(
 #: statements between.
 _FILTER_STATEMENT = re.compile(
     r"(?m)^[ \t]*+(?:[A-Za-z_]\w*+[ \t]*+=(?!=)[ \t]*+[A-Za-z_]\w*+" + _GAP
-    + r"(?:\[(?!" + _NEVER_A_STEP + r")|" + _METHOD + r")|[A-Za-z_]\w*+\.dropna\()"
+    + r"(?:\[(?!" + _NEVER_A_STEP_STATEMENT + r")|" + _METHOD + r")|[A-Za-z_]\w*+\.dropna\()"
 )
 _NON_ASCII = re.compile(r"[^\x00-\x7f]")
 _NEWLINE = re.compile(r"\r\n|\r|\n")
@@ -85,9 +89,7 @@ def find_seams(text: str) -> Seams:
         text = _NON_ASCII.sub("x", unicodedata.normalize("NFKC", text))
     matches = [m.span() for m in _METHOD_SEAM.finditer(text)]
     matches += [m.span() for m in _RUN_SEAM.finditer(text)]
-    statements = [m.span() for m in _FILTER_STATEMENT.finditer(text)]
-    if len(statements) >= 2:
-        matches += statements
+    matches += [m.span() for m in _FILTER_STATEMENT.finditer(text)]
     if not matches:
         return Seams([])
     line_starts = [0] + [m.end() for m in _NEWLINE.finditer(text)]

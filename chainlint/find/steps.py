@@ -13,10 +13,11 @@ from dataclasses import dataclass
 
 from chainlint.analysis.model import Barrier, Span, Step
 from chainlint.find.bindings import VALUE, VALUES, Resolved
+from chainlint.find.barriers import FRAME_ATTRIBUTES, NOT_COLUMNS
 from chainlint.find.predicates import Converted, Dialect, convert, dotted_name
 from chainlint.find.query import convert_query
 from chainlint.find.values import settle
-from chainlint.ir import Column, NullTest, Opaque, RowNulls, make_and, make_or
+from chainlint.ir import Column, Compare, Literal, Node, Not, NullTest, Opaque, RowNulls, make_and, make_or
 
 _MASK_TOPS = (ast.Compare, ast.BinOp, ast.UnaryOp, ast.Call)
 #: `query` keywords that change where the names of the text resolve.
@@ -39,6 +40,8 @@ class Shape:
     inplace: bool = False
     #: For a mask bound to a name before the chain (`df[m]`): the key as written.
     written: ast.expr | None = None
+    #: A column used as the mask (`df[df.flag]`, `df[~df.flag]`).
+    flag: bool = False
 
 
 @dataclass(frozen=True)
@@ -103,12 +106,34 @@ def _peel_subscript(node: ast.Subscript, names: Names, masks: Masks) -> Shape | 
     prefix = "loc_" if loc else "getitem_"
     if isinstance(key, ast.Lambda):
         return Shape(prefix + "lambda", node, inner, key, selection)
+    if _column_mask(key.operand if isinstance(key, ast.UnaryOp) and isinstance(key.op, ast.Invert) else key, inner):
+        return Shape(prefix + "mask", node, inner, key, selection, flag=True)
     if isinstance(key, _MASK_TOPS) and is_mask_top(key) and mask_frames(key, names):
         return Shape(prefix + "mask", node, inner, key, selection)
     substituted = _substitute(key, masks) if masks else None
     if substituted is not None:
         return Shape(prefix + "mask", node, inner, substituted, selection, written=key)
     return None
+
+
+def _column_mask(key: ast.expr, frame: ast.expr) -> bool:
+    """`df[df.flag]` or `df[df["flag"]]`: a column of the frame itself used as the mask (a
+    boolean column, if it is one)."""
+    name = dotted_name(frame)
+    if name is None or not isinstance(key, (ast.Attribute, ast.Subscript)) or dotted_name(key.value) != name:
+        return False
+    if isinstance(key, ast.Attribute):
+        return key.attr not in NOT_COLUMNS and key.attr not in FRAME_ATTRIBUTES and not key.attr.startswith("_")
+    return isinstance(key.slice, ast.Constant) and isinstance(key.slice.value, str)
+
+
+def hidden_by_screen(shape: Shape) -> bool:
+    """A `[name]` or `[a.b]` step, which the textual screen never takes for the second step of a
+    chain (it looks like `x[i]`): a method chain needs another step to be seen."""
+    if not shape.kind.startswith("getitem_"):
+        return False
+    key = shape.written if shape.written is not None else shape.arg
+    return isinstance(key, ast.Name) or (isinstance(key, ast.Attribute) and dotted_name(key) is not None)
 
 
 def _substitute(key: ast.expr, masks: Masks) -> ast.expr | None:
@@ -168,10 +193,7 @@ def _peel_query(node: ast.Call) -> Shape | None:
 def _peel_dropna(node: ast.Call) -> Shape | None:
     if node.args or any(k.arg is None for k in node.keywords):
         return None
-    if _truthy_or_unknown(_keyword(node, "inplace")):
-        return None
-    axis = _keyword(node, "axis")
-    if axis is not None and not (isinstance(axis, ast.Constant) and axis.value in (0, "index", "rows")):
+    if _truthy_or_unknown(_keyword(node, "inplace")) or not rows_axis(node):
         return None
     assert isinstance(node.func, ast.Attribute)
     return Shape("dropna", node, node.func.value, None)
@@ -228,6 +250,8 @@ def build_step(shape: Shape, context: StepContext) -> Step:
         if shape.written is not None:
             reason = f"the mask `{_clip(context.text_of(shape.written))}` was computed before the chain, on `{frame}` as it was then"
             extra = [Barrier("foreign", reason), *extra]
+        if shape.flag:
+            converted = _flag(shape.arg, converted, _dialect(frame, context), context)
     elif shape.kind == "query":
         converted = _convert_query_step(shape, context)
     else:
@@ -386,3 +410,43 @@ def _column_key(key: ast.expr) -> bool:
     if isinstance(key, ast.Constant):
         return isinstance(key.value, str)
     return isinstance(key, (ast.Name, ast.JoinedStr)) or (isinstance(key, ast.Attribute) and dotted_name(key) is not None)
+
+
+def _flag(key: ast.expr, converted: Converted, dialect: Dialect, context: StepContext) -> Converted:
+    """`df[df.flag]` as `flag == True` (`not flag == True` for `~`), estimated from the column's
+    values; it stays in place, since only its dtype makes it a row filter (a column of labels
+    would select columns)."""
+    negated = isinstance(key, ast.UnaryOp)
+    column = convert(key.operand if negated else key, dialect, context.text_of).node  # type: ignore[attr-defined]
+    if not isinstance(column, Column):
+        return converted
+    test: Node = Compare("==", column, Literal(True))
+    reason = f"the column `{column.name}` itself is the mask: the code does not show that it holds booleans"
+    return Converted(Not(test) if negated else test, [Barrier("opaque", reason)], False)
+
+
+def rows_axis(call: ast.Call) -> bool:
+    """Whether a `dropna` call drops rows (no `axis=`, or a literal 0 / 'index' / 'rows')."""
+    axis = _keyword(call, "axis")
+    return axis is None or (isinstance(axis, ast.Constant) and axis.value in (0, "index", "rows"))
+
+
+#: Methods whose result is a boolean mask of the rows.
+_MASK_METHODS = frozenset({
+    "isin", "isna", "isnull", "notna", "notnull", "between", "duplicated", "eq", "ne", "lt", "le",
+    "gt", "ge", "startswith", "endswith", "contains", "match", "fullmatch",
+})
+
+
+def is_mask_value(value: ast.expr) -> bool:
+    """Whether an assigned value is a row mask (`df.a > 1`, `~m`, `a & b`, `df.x.isin(...)`),
+    not merely computed from a frame (`df.columns.drop(...)`)."""
+    if isinstance(value, ast.Compare):
+        return len(value.ops) == 1
+    if isinstance(value, ast.UnaryOp):
+        return isinstance(value.op, ast.Invert) and is_mask_value(value.operand)
+    if isinstance(value, ast.BinOp):
+        return isinstance(value.op, (ast.BitAnd, ast.BitOr)) and is_mask_value(value.left) and is_mask_value(value.right)
+    if isinstance(value, ast.Call) and isinstance(value.func, ast.Attribute):
+        return value.func.attr in _MASK_METHODS and not _not_a_frame(value.func.value)
+    return False
