@@ -85,6 +85,10 @@ class ColumnStats:
         self.bounds = None
         if bounds and not self.temporal and all(isinstance(b, (int, float)) for b in bounds):
             self.bounds = np.array(bounds, dtype=np.float64)
+        elif bounds and self.temporal:
+            instants = [_instant(b) for b in bounds]
+            if all(i is not None for i in instants):
+                self.bounds = np.array(instants, dtype=np.float64)
         self.type = column.get("type", "")
 
     def lookup(self, value: Any) -> Any:
@@ -105,8 +109,9 @@ class ColumnStats:
         return Estimate(_clip(rest / others), "most-common")
 
     def below(self, value: float, inclusive: bool) -> Estimate:
-        """Share of all rows with a non-null value < value (or <=)."""
-        numeric = _number(value)
+        """Share of all rows with a non-null value < value (or <=); a date string against a
+        datetime column is read as pandas reads it, an instant."""
+        numeric = _instant(value) if self.temporal else _number(value)
         if numeric is None:
             return Estimate(DEFAULT_INEQ, "default")
         if self.complete and not self.suppressed_values and self.mcv and all(_number(v) is not None for v in self.mcv):
@@ -140,6 +145,16 @@ def _normal(value: Any) -> Any:
     if isinstance(value, float) and value.is_integer():
         return int(value)
     return value
+
+
+def _instant(value: Any) -> float | None:
+    """Nanoseconds since the epoch of an ISO date or timestamp string (naive), else None."""
+    if not isinstance(value, str):
+        return None
+    try:
+        return float(np.datetime64(value, "ns").astype(np.int64))
+    except ValueError:
+        return None
 
 
 def _number(value: Any) -> float | None:

@@ -17,7 +17,9 @@ from __future__ import annotations
 
 import ast
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
+
+from chainlint.find.scopes import Scope, ScopeTable
 
 #: Kinds of a resolution, from most to least known.
 VALUE = "value"  # a literal value (str, int, float, bool, None) or a tuple of them ("values")
@@ -70,54 +72,13 @@ def _unknown(reason: str) -> Resolved:
     return Resolved(UNKNOWN, None, reason)
 
 
-@dataclass
-class Scope:
-    """One scope: where each name is bound in it, its parameters, its declarations."""
-
-    node: ast.AST
-    kind: str  # module, function, class
-    parent: Scope | None
-    bindings: dict[str, list[tuple[str, ast.AST | None]]] = field(default_factory=dict)
-    parameters: dict[str, ast.arg] = field(default_factory=dict)
-    defaults: dict[str, ast.expr] = field(default_factory=dict)
-    declared_global: set[str] = field(default_factory=set)
-    declared_nonlocal: set[str] = field(default_factory=set)
-    star: bool = False
-
-    def bind(self, name: str, how: str, value: ast.AST | None = None) -> None:
-        self.bindings.setdefault(name, []).append((how, value))
-
-    def local(self, name: str) -> bool:
-        if name in self.declared_global or name in self.declared_nonlocal:
-            return False
-        return name in self.bindings or name in self.parameters
-
-
-class ModuleBindings:
+class ModuleBindings(ScopeTable):
     """The scopes of one module, for answering `resolve(name, scope_node)`."""
 
     def __init__(self, tree: ast.Module) -> None:
-        self.tree = tree
-        self._scopes: dict[int, Scope] | None = None
-        self._modules: dict[str, str] = {}
+        super().__init__(tree)
         self._cache: dict[tuple[int, str], Resolved] = {}
         self._active: set[tuple[int, str]] = set()
-        self._outside_writes: list[tuple[Scope, str]] = []
-
-    # -- building -------------------------------------------------------------------------
-    def scopes(self) -> dict[int, Scope]:
-        if self._scopes is None:
-            self._scopes = {}
-            module = Scope(self.tree, "module", None)
-            self._scopes[id(self.tree)] = module
-            _Collector(self, module).body(self.tree.body)
-            for inner, name in self._outside_writes:
-                _written_from_inside(self, inner, name)
-        return self._scopes
-
-    def scope(self, node: ast.AST | None) -> Scope:
-        scopes = self.scopes()
-        return scopes.get(id(node), scopes[id(self.tree)]) if node is not None else scopes[id(self.tree)]
 
     # -- resolving ------------------------------------------------------------------------
     def resolve(self, dotted: str, at: ast.AST | None) -> Resolved:
@@ -310,186 +271,6 @@ class ModuleBindings:
             return None
         module, _, name = origin.partition(":")
         return (module.split(".")[0], name + ("." + rest if rest else ""))
-
-
-def _written_from_inside(bindings: ModuleBindings, inner: Scope, name: str) -> None:
-    """A nested function's `global`/`nonlocal` write rebinds the name where it lives."""
-    if name in inner.declared_global:
-        target: Scope | None = bindings.scope(None)
-    else:
-        target = inner.parent
-        while target is not None and (target.kind == "class" or not target.local(name)):
-            target = target.parent
-    if target is not None:
-        target.bind(name, "a write from a nested function")
-
-
-class _Collector:
-    """Record every binding of one scope, and of the scopes inside it."""
-
-    def __init__(self, bindings: ModuleBindings, scope: Scope) -> None:
-        self.owner = bindings
-        self.scope = scope
-
-    def body(self, statements: list[ast.stmt]) -> None:
-        for statement in statements:
-            self.statement(statement)
-
-    def nested(self, node: ast.AST, kind: str) -> Scope:
-        scope = Scope(node, kind, self.scope)
-        self.owner.scopes()[id(node)] = scope
-        return scope
-
-    def statement(self, node: ast.stmt) -> None:
-        scope = self.scope
-        if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)):
-            for expr in [*node.decorator_list, *node.args.defaults, *(d for d in node.args.kw_defaults if d)]:
-                self.expression(expr)
-            scope.bind(node.name, "a definition")
-            self.function(node, node.args, node.body)
-            return
-        if isinstance(node, ast.ClassDef):
-            for expr in [*node.decorator_list, *node.bases, *(k.value for k in node.keywords)]:
-                self.expression(expr)
-            scope.bind(node.name, "a definition")
-            _Collector(self.owner, self.nested(node, "class")).body(node.body)
-            return
-        if isinstance(node, ast.Assign):
-            self.expression(node.value)
-            for target in node.targets:
-                if isinstance(target, ast.Name):
-                    scope.bind(target.id, "assign", node.value)
-                else:
-                    self.target(target, "unpacking")
-            return
-        if isinstance(node, ast.AnnAssign):
-            if node.value is not None:
-                self.expression(node.value)
-                if isinstance(node.target, ast.Name):
-                    scope.bind(node.target.id, "assign", node.value)
-                    return
-            if not isinstance(node.target, ast.Name):
-                self.target(node.target, "assignment")
-            return
-        if isinstance(node, ast.AugAssign):
-            self.expression(node.value)
-            self.target(node.target, "augmented assignment")
-            return
-        if isinstance(node, (ast.Import, ast.ImportFrom)):
-            for alias in node.names:
-                if alias.name == "*":
-                    scope.star = True
-                    continue
-                bound = alias.asname or alias.name.split(".")[0]
-                scope.bind(bound, "an import")
-                if isinstance(node, ast.Import):
-                    self.owner._modules[f"{id(scope.node)}:{bound}"] = alias.name if alias.asname else bound
-                elif node.module and not node.level:
-                    self.owner._modules[f"{id(scope.node)}:{bound}:from"] = f"{node.module}:{alias.name}"
-            return
-        if isinstance(node, ast.Global):
-            scope.declared_global.update(node.names)
-            return
-        if isinstance(node, ast.Nonlocal):
-            scope.declared_nonlocal.update(node.names)
-            return
-        if isinstance(node, (ast.For, ast.AsyncFor)):
-            self.target(node.target, "a loop")
-        elif isinstance(node, (ast.With, ast.AsyncWith)):
-            for item in node.items:
-                if item.optional_vars is not None:
-                    self.target(item.optional_vars, "`with`")
-        elif isinstance(node, ast.Delete):
-            for target in node.targets:
-                self.target(target, "`del`")
-        elif isinstance(node, ast.Try) or type(node).__name__ == "TryStar":
-            for handler in node.handlers:  # type: ignore[attr-defined]
-                if handler.name:
-                    scope.bind(handler.name, "`except`")
-        elif isinstance(node, ast.Match):
-            for case in node.cases:
-                for sub in ast.walk(case.pattern):
-                    for attribute in ("name", "rest"):
-                        bound = getattr(sub, attribute, None)
-                        if isinstance(bound, str):
-                            scope.bind(bound, "`match`")
-        for child in ast.iter_child_nodes(node):
-            if isinstance(child, ast.stmt):
-                self.statement(child)
-            elif isinstance(child, ast.expr):
-                self.expression(child)
-            elif isinstance(child, (ast.excepthandler, ast.match_case, ast.withitem)):
-                for inner in ast.iter_child_nodes(child):
-                    if isinstance(inner, ast.stmt):
-                        self.statement(inner)
-                    elif isinstance(inner, ast.expr):
-                        self.expression(inner)
-
-    def function(self, node: ast.AST, arguments: ast.arguments, body: list[ast.stmt] | ast.expr) -> None:
-        scope = self.nested(node, "function")
-        positional = arguments.posonlyargs + arguments.args
-        for argument in positional + arguments.kwonlyargs:
-            scope.parameters[argument.arg] = argument
-        for argument, default in zip(positional[len(positional) - len(arguments.defaults):], arguments.defaults):
-            scope.defaults[argument.arg] = default
-        for argument, default in zip(arguments.kwonlyargs, arguments.kw_defaults):
-            if default is not None:
-                scope.defaults[argument.arg] = default
-        for extra in (arguments.vararg, arguments.kwarg):
-            if extra is not None:
-                scope.bind(extra.arg, "`*` parameters")
-        collector = _Collector(self.owner, scope)
-        if isinstance(body, list):
-            collector.body(body)
-        else:
-            collector.expression(body)
-        for name in scope.declared_global | scope.declared_nonlocal:
-            if name in scope.bindings:
-                self.owner._outside_writes.append((scope, name))
-
-    def target(self, target: ast.expr, how: str) -> None:
-        """Bind the names a target assigns; an item or attribute assigned changes its owner."""
-        if isinstance(target, ast.Name):
-            self.scope.bind(target.id, how)
-        elif isinstance(target, (ast.Tuple, ast.List)):
-            for element in target.elts:
-                self.target(element, how)
-        elif isinstance(target, ast.Starred):
-            self.target(target.value, how)
-        elif isinstance(target, (ast.Subscript, ast.Attribute)):
-            root = target.value
-            while isinstance(root, (ast.Subscript, ast.Attribute)):
-                root = root.value
-            if isinstance(root, ast.Name):
-                self.scope.bind(root.id, "an item or attribute assignment")
-            self.expression(target)
-
-    def expression(self, expr: ast.expr) -> None:
-        stack: list[ast.AST] = [expr]
-        while stack:
-            node = stack.pop()
-            if isinstance(node, ast.Lambda):
-                for default in [*node.args.defaults, *(d for d in node.args.kw_defaults if d)]:
-                    stack.append(default)
-                self.function(node, node.args, node.body)
-                continue
-            if isinstance(node, ast.NamedExpr):
-                self.scope.bind(node.target.id, "`:=`")
-            elif isinstance(node, ast.comprehension):
-                # Comprehension variables are counted against the enclosing scope: conservative.
-                self.target(node.target, "a comprehension")
-            elif isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute):
-                receiver = node.func.value
-                if isinstance(receiver, ast.Name) and node.func.attr in _MUTATORS:
-                    self.scope.bind(receiver.id, f"`.{node.func.attr}()`")
-            stack.extend(ast.iter_child_nodes(node))
-
-
-#: Methods that change a list, set or dict in place.
-_MUTATORS = frozenset({
-    "append", "extend", "insert", "remove", "pop", "clear", "sort", "reverse", "add", "discard",
-    "update", "setdefault", "popitem", "__setitem__", "__delitem__", "__iadd__",
-})
 
 
 def _scalar_annotation(annotation: ast.expr) -> bool:
