@@ -113,3 +113,12 @@ def test_a_path_bound_to_a_local_constant_binds_the_frame(tmp_path: Path) -> Non
     )
     (chain,) = analyse_file(str(path)).chains
     assert chain.origin is not None and (chain.origin.kind, chain.origin.path) == ("read", "data/scans.parquet")
+
+
+def test_a_run_never_steps_over_into_the_next_cell(tmp_path: Path) -> None:
+    nbformat = pytest.importorskip("nbformat")
+    notebook = nbformat.v4.new_notebook()
+    notebook.cells = [nbformat.v4.new_code_cell("t = df[df.a > 1]\nnote = 'first cell'"),
+                      nbformat.v4.new_code_cell("t = t[t.b > 2]")]
+    nbformat.write(notebook, str(tmp_path / "two.ipynb"))
+    assert analyse_file(str(tmp_path / "two.ipynb")).chains == ()

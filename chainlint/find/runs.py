@@ -11,8 +11,9 @@ from __future__ import annotations
 
 import ast
 
-#: Statements a run may step over (never control flow: a `return` between filters is a branch).
-_SIMPLE = (ast.Expr, ast.Assign, ast.AnnAssign, ast.AugAssign, ast.Pass, ast.Import, ast.ImportFrom)
+#: Statements a run may step over (never control flow: a `return` between filters is a branch;
+#: never `pass`, which separates a notebook's cells, since a run never spans two cells).
+_SIMPLE = (ast.Expr, ast.Assign, ast.AnnAssign, ast.AugAssign, ast.Import, ast.ImportFrom)
 
 
 def mentioned(node: ast.AST) -> set[str]:
