@@ -79,11 +79,15 @@ class CheckResult:
     suppressed: tuple[Finding, ...] = ()
 
 
-def plan_results(results: Sequence[FileAnalysis], options: Options) -> tuple[list[PlannedChain], list[FileError]]:
-    """Bind and plan every chain; store and configuration problems become located errors."""
+def plan_results(results: Sequence[FileAnalysis], options: Options,
+                 estimators: dict[int, Estimator] | None = None) -> tuple[list[PlannedChain], list[FileError]]:
+    """Bind and plan every chain; store and configuration problems become located errors.
+
+    `estimators` (by profile document) may be kept by a caller that plans again with the same
+    loaded store (the editor, after each change)."""
     planned: list[PlannedChain] = []
     errors: dict[str, FileError] = {}
-    estimators: dict[int, Estimator] = {}
+    estimators = {} if estimators is None else estimators
     for result in results:
         if not result.chains:
             continue

@@ -35,12 +35,13 @@ from chainlint.parse.source import SourceText
 
 def find_chains(source: SourceText, tree: ast.Module, seams: Seams) -> list[Chain]:
     """All chains of the module, in source order."""
-    finder = _Finder(source, seams, _module_names(tree), ModuleBindings(tree))
+    finder = _Finder(source, seams, module_names(tree), ModuleBindings(tree))
     finder.block(tree.body)
     return sorted(finder.chains, key=lambda c: (c.span.line, c.span.column))
 
 
-def _module_names(tree: ast.Module) -> Names:
+def module_names(tree: ast.Module) -> Names:
+    """The imports of a module that the finder reads names by (pandas and other modules)."""
     modules: set[str] = set()
     pandas: set[str] = set()
     functions: dict[str, str] = {}

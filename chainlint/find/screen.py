@@ -75,6 +75,18 @@ class Seams:
     def empty(self) -> bool:
         return self._starts is not None and not self._starts
 
+    def within(self, ranges: list[tuple[int, int]]) -> Seams:
+        """These seams cut to the given line ranges (1-based, inclusive): to walk only those lines."""
+        if self._starts is None:
+            return Seams(list(ranges))
+        spans = []
+        for first, last in ranges:
+            index = bisect.bisect_left(self._ends, first)
+            while index < len(self._starts) and self._starts[index] <= last:
+                spans.append((max(self._starts[index], first), min(self._ends[index], last)))
+                index += 1
+        return Seams(spans)
+
     def meets(self, first_line: int, last_line: int) -> bool:
         """Whether any seam lies within lines first_line..last_line."""
         if self._starts is None:

@@ -82,11 +82,16 @@ def read_source(path: str, max_bytes: int = DEFAULT_MAX_BYTES) -> SourceText:
         raise SourceError(f"cannot read file: {error.strerror or error}") from None
     if len(data) > max_bytes:
         size = os.path.getsize(path) if os.path.exists(path) else len(data)
-        raise SourceError(
-            f"file is {size / 1e6:.1f} MB, over the {max_bytes / 1e6:.1f} MB limit "
-            "(likely generated; raise the limit with --max-file-size)"
-        )
+        raise SourceError(size_error(size, max_bytes) or "")
     return decode_source(path, data)
+
+
+def size_error(size: int, max_bytes: int) -> str | None:
+    """Why a text of `size` bytes is not analysed, or None when it is within the limit."""
+    if size <= max_bytes:
+        return None
+    return (f"file is {size / 1e6:.1f} MB, over the {max_bytes / 1e6:.1f} MB limit "
+            "(likely generated; raise the limit with --max-file-size)")
 
 
 def decode_source(path: str, data: bytes) -> SourceText:

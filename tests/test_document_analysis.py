@@ -1,0 +1,91 @@
+"""The editor's incremental analysis equals a whole analysis of the same text, edit after edit."""
+
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from chainlint.analysis.check import RULES, Options
+from chainlint.analysis.document import DocumentAnalyser, analyse_text
+
+DEMO = Path(__file__).parent.parent / "examples"
+CHAIN = 'scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]'
+PIECES = [
+    "import pandas as pd\n",
+    "import pandas\n",
+    "\n",
+    'SCANS = "data/parcel_scans.parquet"\n',
+    'SCANS = "elsewhere.parquet"\n',
+    "scans = pd.read_parquet(SCANS)\n",
+    "scans = load()\n",
+    "scans = load()  # chainlint: profile=parcel_scans\n",
+    "if ready:\n    scans = pd.read_parquet(SCANS)\n",
+    "# chainlint: keep\n",
+    "# chainlint: keep reorder\n",
+    "# chainlint: profile=parcel_scans\n",
+    f"out = {CHAIN}\n",
+    f"def f(scans):\n    return {CHAIN}\n",
+    f"@cache\ndef g():\n    return {CHAIN}\n",
+    f"def h():\n    scans = pd.read_parquet(SCANS)\n    return {CHAIN}\n",
+    'bad = scans.query("parcel_size == \'XXL\'").query("attempts >= 3")\n',
+    "review = scans[scans.weight_kg > 1]\n",
+    'review = review[review.status == "lost"]\n',
+    'review = review.query("depot == \'WEST\'")\n',
+    'a = 1; two = scans[scans.attempts > 2][scans.status == "lost"]\n',
+    "z = frame[frame.a == 1][frame.b == 2]\n",
+    "class K:\n    x = scans[scans.attempts > 2][scans.depot == 'WEST']\n",
+    "def broken(:\n",
+    'text = """\n',
+]
+
+#: What typing adds inside a line: brackets and strings left open, continuations, comments.
+TYPED = [")", "(", "[", '"""', "'", "#", "\\\n", "\n", "    ", "x", ";", ":", "@d\n", "\n\n", "from __future__ import annotations\n"]
+
+edits = st.lists(st.one_of(
+    st.tuples(st.sampled_from(["insert", "delete", "replace"]), st.integers(0, 40), st.sampled_from(PIECES)),
+    st.tuples(st.just("type"), st.integers(0, 10_000), st.sampled_from(TYPED)),
+), min_size=1, max_size=10)
+
+
+@pytest.fixture(scope="module")
+def project(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    root = tmp_path_factory.mktemp("document")
+    shutil.copytree(DEMO / ".chainlint", root / ".chainlint")
+    return root
+
+
+@settings(max_examples=250)
+@given(start=st.lists(st.sampled_from(PIECES), max_size=14), steps=edits)
+def test_incremental_analysis_equals_a_whole_analysis(project: Path, start: list[str], steps) -> None:
+    options = Options(rules=frozenset(RULES))
+    path = str(project / "m.py")
+    analyser = DocumentAnalyser(path)
+    pieces = list(start)
+    for operation, where, piece in [("insert", 0, "")] + list(steps):
+        index = where % (len(pieces) + 1)
+        if operation == "type" and pieces:
+            index = where % len(pieces)
+            at = where % (len(pieces[index]) + 1)
+            pieces[index] = pieces[index][:at] + piece + pieces[index][at:]
+        elif operation == "insert":
+            pieces.insert(index, piece)
+        elif pieces and index < len(pieces):
+            if operation == "delete":
+                del pieces[index]
+            else:
+                pieces[index] = piece
+        text = "".join(pieces)
+        got, want = analyser.analyse(text, options), analyse_text(path, text, options)
+        assert got.planned == want.planned, text
+        assert got.findings == want.findings, text
+        assert [e.message for e in got.errors] == [e.message for e in want.errors]
+
+
+def test_a_document_over_the_limit_is_not_analysed(project: Path) -> None:
+    analysis = DocumentAnalyser(str(project / "m.py"), max_bytes=100).analyse(f"out = {CHAIN}\n" * 3, Options())
+    (error,) = analysis.errors
+    assert not analysis.planned and "over the 0.0 MB limit" in error.message and "--max-file-size" in error.message
