@@ -529,10 +529,12 @@ def config_command(path: str | None) -> None:
 
 
 @main.command()
-def lsp() -> None:
+@click.option("--max-file-size", type=click.FloatRange(min=0.001), default=4.0, show_default=True, metavar="MB",
+              help="Leave documents larger than this unanalysed (one diagnostic says so).")
+def lsp(max_file_size: float) -> None:
     """Run the language server over stdio (needs the `lsp` extra: pip install 'chainlint[lsp]')."""
     try:
         from chainlint.lsp.server import main as serve
     except ImportError as error:
         _fail(f"the language server needs pygls and lsprotocol: pip install 'chainlint[lsp]' ({error})")
-    serve()
+    serve(int(max_file_size * 1024 * 1024))

@@ -83,9 +83,9 @@ def test_incremental_analysis_equals_a_whole_analysis(project: Path, start: list
         assert got.planned == want.planned, text
         assert got.findings == want.findings, text
         assert [e.message for e in got.errors] == [e.message for e in want.errors]
+        assert got.refusal == want.refusal
 
 
 def test_a_document_over_the_limit_is_not_analysed(project: Path) -> None:
     analysis = DocumentAnalyser(str(project / "m.py"), max_bytes=100).analyse(f"out = {CHAIN}\n" * 3, Options())
-    (error,) = analysis.errors
-    assert not analysis.planned and "over the 0.0 MB limit" in error.message and "--max-file-size" in error.message
+    assert not analysis.planned and "over the 0.0 MB limit" in analysis.refusal and "--max-file-size" in analysis.refusal

@@ -14,6 +14,7 @@ to their lines), and only their chains are planned and checked. The result equal
 from __future__ import annotations
 
 import ast
+import bisect
 import hashlib
 import threading
 from dataclasses import dataclass
@@ -37,8 +38,9 @@ from chainlint.rules import Finding
 
 @dataclass(frozen=True)
 class DocumentAnalysis:
-    """Chains with their plans, findings in position order, and why the text was not analysed
-    (a syntax error, a size over the limit), if it was not.
+    """Chains with their plans, findings in position order, errors (a syntax error), `refusal`:
+    why the text was not analysed at all (its size over the limit), and `statements`: the lines
+    of each top-level unit, when known (a fix is checked within its statement).
 
     Held as parts, each with the lines its results must still move by: reused results move
     only when they are read (findings at once for diagnostics, plans only for a hover or fix).
@@ -47,6 +49,8 @@ class DocumentAnalysis:
     source: SourceText
     parts: tuple[tuple[int, tuple[PlannedChain, ...], tuple[Finding, ...]], ...] = ()
     errors: tuple[FileError, ...] = ()
+    statements: tuple[tuple[int, int], ...] = ()
+    refusal: str | None = None
 
     @cached_property
     def planned(self) -> tuple[PlannedChain, ...]:
@@ -130,27 +134,29 @@ class DocumentAnalyser:
                 return DocumentAnalysis(source, errors=(FileError(self.path, 1, 1, "nesting too deep to analyse"),))
             planned, _ = plan_results([FileAnalysis(self.path, chains=tuple(chains))], options, self._estimators)
             findings, _ = apply_rules(planned, options)
+            firsts = [first for first, _, _, _ in stale]
+            chains_of: dict[int, list[PlannedChain]] = {first: [] for first in firsts}
+            findings_of: dict[int, list[Finding]] = {first: [] for first in firsts}
+            for item in planned:
+                chains_of[firsts[bisect.bisect_right(firsts, item.chain.span.line) - 1]].append(item)
+            for finding in findings:
+                findings_of[firsts[bisect.bisect_right(firsts, finding.span.line) - 1]].append(finding)
             for first, last, statements, (names, compound) in stale:
-                read = sorted({node.id for statement in statements for node in ast.walk(statement) if isinstance(node, ast.Name)})
-                fresh[first] = _Unit(
-                    first,
-                    tuple(p for p in planned if first <= p.chain.span.line <= last),
-                    tuple(f for f in findings if first <= f.span.line <= last),
-                    tuple((name, names.get(name)) for name in read),
-                    compound,
-                )
+                read = _names_read(source, first, last, statements, chains_of[first])
+                depends = tuple((name, names.get(name)) for name in read)
+                fresh[first] = _Unit(first, tuple(chains_of[first]), tuple(findings_of[first]), depends, compound)
         parts = []
         kept: dict[Key, _Unit] = {}
-        for first, key, reused in units:
+        for first, _, key, reused in units:
             unit = fresh[first] if reused is None else reused
             kept[key] = unit  # as analysed: each later analysis moves it from there
             if unit.planned or unit.findings:
                 parts.append((first - unit.first, unit.planned, unit.findings))
         self._units = kept
-        return DocumentAnalysis(source, tuple(parts))
+        return DocumentAnalysis(source, tuple(parts), statements=tuple((first, last) for first, last, _, _ in units))
 
     def _reusable(self, source: SourceText, tree: ast.Module, seams: Seams):  # type: ignore[no-untyped-def]
-        """Every unit as (first line, key, reusable result or None), and the units to analyse
+        """Every unit as (first line, last line, key, reusable result or None), and the units to analyse
         as (first line, last line, statements, what the module said before them).
 
         The module's word on a name is a digest of the assignments to it so far (what the finder
@@ -176,7 +182,7 @@ class DocumentAnalyser:
             if always or unit is None or unit.compound != compound or any(names.get(n) != d for n, d in unit.depends):
                 unit = None
                 stale.append((first, last, statements, (dict(names), compound)))
-            units.append((first, key, unit))
+            units.append((first, last, key, unit))
             for statement in statements:
                 if isinstance(statement, _COMPOUND):
                     if walks:
@@ -191,7 +197,7 @@ class DocumentAnalyser:
 def _size_refusal(source: SourceText, max_bytes: int) -> DocumentAnalysis | None:
     size = len(source.text) if len(source.text) * 4 <= max_bytes else len(source.text.encode("utf-8", "surrogatepass"))
     message = size_error(size, max_bytes)
-    return None if message is None else DocumentAnalysis(source, errors=(FileError(source.path, 1, 1, message),))
+    return None if message is None else DocumentAnalysis(source, refusal=message)
 
 
 def _groups(tree: ast.Module) -> list[tuple[int, int, list[ast.stmt]]]:
@@ -206,6 +212,19 @@ def _groups(tree: ast.Module) -> list[tuple[int, int, list[ast.stmt]]]:
         else:
             groups.append((first, last, [statement]))
     return groups
+
+
+def _names_read(source: SourceText, first: int, last: int, statements: list[ast.stmt],
+                planned: list[PlannedChain]) -> list[str]:
+    """The module-level names a unit's results may depend on: the frames its chains start
+    from, and, when it calls a reader, every name it reads (a path constant)."""
+    if not planned:
+        return []  # no chain: nothing before it can give it one
+    names = {p.chain.origin.name for p in planned if p.chain.origin is not None}
+    text = "".join(source.lines[first - 1 : last])
+    if any(reader in text for reader in READERS):
+        names.update(node.id for statement in statements for node in ast.walk(statement) if isinstance(node, ast.Name))
+    return sorted(names)
 
 
 def _digest(before: bytes, text: str) -> bytes:

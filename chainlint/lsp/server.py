@@ -1,209 +1,190 @@
 """`chainlint lsp`: the same analysis as `check`, over LSP (stdio), from the editor's text.
 
-Diagnostics follow open, change (debounced while typing) and save, computed from the
-in-memory text, so unsaved edits count. A `reorder` diagnostic offers a quick fix that applies
-the verified rewrite as a WorkspaceEdit; hovering a chain shows its plan. Positions go through
-pygls' codec in the encoding negotiated with the client (UTF-16 unless it offers another).
-Profiles and configuration are read again when they change. Nothing a client sends stops the
-server: failures are logged and the document simply gets no diagnostics.
+One thin handler per feature; the work is elsewhere: `documents.py` (analyses of each
+document's latest text, in worker threads, re-analysing only what an edit changed),
+`fixes.py` (quick fixes as edits of the analysed text), `protocol.py` (an error response to
+requests whose parameters do not read). Diagnostics follow open, change (debounced while
+typing) and save, each carrying the document version it was computed for, and are never
+published for a text the editor has since changed. Quick fixes are computed on the latest text
+and carry its version (`documentChanges`). Positions go through pygls' codec in the encoding
+negotiated with the client (UTF-16 unless it offers another). Severities are the SARIF levels
+of the rules. Nothing a client sends stops the server.
 """
 
 from __future__ import annotations
 
-import asyncio
 import logging
-from dataclasses import dataclass
-from pathlib import Path
-from urllib.parse import unquote, urlparse
+from collections.abc import Sequence
 
 from lsprotocol import types
 from pygls.lsp.server import LanguageServer
 
 from chainlint import __version__
-from chainlint.analysis.check import (
-    RULES,
-    Options,
-    PlannedChain,
-    apply_rules,
-    options_from,
-    plan_results,
-)
+from chainlint.analysis.check import PlannedChain
 from chainlint.analysis.model import Span
-from chainlint.analysis.run import analyse_source
-from chainlint.config import ConfigError, load_config
 from chainlint.lsp import notebooks
-from chainlint.parse.source import SourceText, text_source
-from chainlint.rewrite.fixes import fix_in_text
-from chainlint.rewrite.permute import RewriteError
-from chainlint.rules import CATALOG, Finding
+from chainlint.lsp.documents import Documents, DocumentState, options_for
+from chainlint.lsp.fixes import Fix, fixes_for
+from chainlint.lsp.protocol import ChainlintProtocol
+from chainlint.parse.source import DEFAULT_MAX_BYTES
+from chainlint.rules import LEVELS
 
 DEBOUNCE_SECONDS = 0.025
 logger = logging.getLogger("chainlint.lsp")
 
-
-@dataclass(frozen=True)
-class DocumentState:
-    """What the last analysis of one document found: for code actions and hovers."""
-
-    source: SourceText
-    planned: tuple[PlannedChain, ...]
-    findings: tuple[Finding, ...]
+#: SARIF 2.1.0 levels as LSP 3.17 severities: the rules' one severity table, read both ways.
+SEVERITY = {
+    "error": types.DiagnosticSeverity.Error,
+    "warning": types.DiagnosticSeverity.Warning,
+    "note": types.DiagnosticSeverity.Information,
+}
 
 
 class ChainlintServer(LanguageServer):
     def __init__(self) -> None:
-        super().__init__("chainlint", __version__, notebook_document_sync=notebooks.SYNC)
-        self.states: dict[str, DocumentState] = {}
-        self.pending: dict[str, asyncio.Task[None]] = {}
+        super().__init__("chainlint", __version__, protocol_cls=ChainlintProtocol, notebook_document_sync=notebooks.SYNC)
+        self.documents = Documents(DEFAULT_MAX_BYTES)
+        self.published: dict[str, dict[tuple[object, ...], types.Diagnostic]] = {}
 
 
 server = ChainlintServer()
+notebooks.register(server, options_for)
 
 
-def _path(uri: str) -> str:
-    parsed = urlparse(uri)
-    return unquote(parsed.path) if parsed.scheme == "file" else uri
+# -- positions ------------------------------------------------------------------------------
 
-
-def _options(path: str) -> Options:
-    try:
-        config = load_config(Path(path).parent if Path(path).parent.exists() else Path("."), set(RULES))
-    except ConfigError as error:
-        logger.warning("%s", error)
-        return Options()
-    return options_from(config)
-
-
-notebooks.register(server, _options)
-
-
-def analyse_document(uri: str, text: str) -> DocumentState:
-    source = text_source(_path(uri), text)
-    result = analyse_source(source)
-    options = _options(source.path)
-    planned, _ = plan_results([result], options)
-    findings, _ = apply_rules(planned, options)
-    return DocumentState(source, tuple(planned), tuple(findings))
-
-
-def _range(ls: LanguageServer, source: SourceText, span: Span) -> types.Range:
+def _range(ls: LanguageServer, lines: list[str], span: Span) -> types.Range:
     internal = types.Range(
         start=types.Position(line=span.line - 1, character=span.column - 1),
         end=types.Position(line=span.end_line - 1, character=span.end_column - 1),
     )
-    return ls.workspace.position_codec.range_to_client_units(list(source.lines), internal)
+    return ls.workspace.position_codec.range_to_client_units(lines, internal)
 
 
-def diagnostics(ls: LanguageServer, state: DocumentState) -> list[types.Diagnostic]:
-    # The same level as the SARIF log: each rule's LEVEL.
-    levels = {"note": types.DiagnosticSeverity.Information, "warning": types.DiagnosticSeverity.Warning,
-              "error": types.DiagnosticSeverity.Error}
-    severity = {module.NAME: levels[module.LEVEL] for module in CATALOG}
+def _internal(ls: LanguageServer, lines: list[str], position: types.Position) -> tuple[int, int]:
+    """1-based line and character column of a client position."""
+    internal = ls.workspace.position_codec.position_from_client_units(lines, position)
+    return internal.line + 1, internal.character + 1
+
+
+def _touches(span: Span, start: tuple[int, int], end: tuple[int, int]) -> bool:
+    """Whether a cursor (start == end) is on the span, or a selection overlaps it."""
+    first, after = (span.line, span.column), (span.end_line, span.end_column)
+    if start == end:
+        return first <= start <= after
+    return first < end and start < after
+
+
+# -- diagnostics ----------------------------------------------------------------------------
+
+def diagnostics(ls: LanguageServer, state: DocumentState, made: dict[tuple[object, ...], types.Diagnostic]) -> list[types.Diagnostic]:
+    """The diagnostics of an analysis; `made` holds those of the last publication, by what they
+    are made of (finding and the text of its lines), and is refilled with these."""
+    analysis = state.analysis
+    if analysis.refusal is not None:
+        start = types.Range(start=types.Position(line=0, character=0), end=types.Position(line=0, character=0))
+        return [types.Diagnostic(range=start, message=analysis.refusal, severity=types.DiagnosticSeverity.Information,
+                                 source="chainlint")]
+    lines = analysis.source.lines
+    listed: list[str] | None = None
+    before = dict(made)
+    made.clear()
     out = []
-    for finding in state.findings:
-        out.append(types.Diagnostic(
-            range=_range(ls, state.source, finding.span),
-            message=finding.message,
-            severity=severity.get(finding.rule, types.DiagnosticSeverity.Warning),
-            code=finding.rule,
-            source="chainlint",
-        ))
+    for finding in analysis.findings:
+        key = (finding.rule, finding.message, finding.span, lines[finding.span.line - 1], lines[finding.span.end_line - 1])
+        diagnostic = before.get(key)
+        if diagnostic is None:
+            listed = list(lines) if listed is None else listed
+            diagnostic = types.Diagnostic(range=_range(ls, listed, finding.span), message=finding.message,
+                                          severity=SEVERITY[LEVELS[finding.rule]], code=finding.rule, source="chainlint")
+        made[key] = diagnostic
+        out.append(diagnostic)
     return out
 
 
-async def refresh(ls: ChainlintServer, uri: str, delay: float) -> None:
-    if delay:
-        await asyncio.sleep(delay)
-    try:
-        document = ls.workspace.get_text_document(uri)
-        state = analyse_document(uri, document.source)
-    except Exception:  # noqa: BLE001 - one bad document must not stop the server
-        logger.exception("analysis of %s failed", uri)
-        return
-    ls.states[uri] = state
-    ls.text_document_publish_diagnostics(types.PublishDiagnosticsParams(uri=uri, diagnostics=diagnostics(ls, state)))
+def publish(ls: ChainlintServer, state: DocumentState) -> None:
+    made = ls.published.setdefault(state.uri, {})
+    ls.text_document_publish_diagnostics(types.PublishDiagnosticsParams(
+        uri=state.uri, version=state.version, diagnostics=diagnostics(ls, state, made)))
 
 
-def schedule(ls: ChainlintServer, uri: str, delay: float) -> None:
-    previous = ls.pending.pop(uri, None)
-    if previous is not None and not previous.done():
-        previous.cancel()
-    ls.pending[uri] = asyncio.get_event_loop().create_task(refresh(ls, uri, delay))
+def _refresh(ls: ChainlintServer, uri: str, delay: float) -> None:
+    ls.documents.schedule(uri, delay, lambda state: publish(ls, state), ls.workspace)
 
 
 @server.feature(types.TEXT_DOCUMENT_DID_OPEN)
 def did_open(ls: ChainlintServer, params: types.DidOpenTextDocumentParams) -> None:
-    schedule(ls, params.text_document.uri, 0.0)
+    _refresh(ls, params.text_document.uri, 0.0)
 
 
 @server.feature(types.TEXT_DOCUMENT_DID_CHANGE)
 def did_change(ls: ChainlintServer, params: types.DidChangeTextDocumentParams) -> None:
-    schedule(ls, params.text_document.uri, DEBOUNCE_SECONDS)
+    _refresh(ls, params.text_document.uri, DEBOUNCE_SECONDS)
 
 
 @server.feature(types.TEXT_DOCUMENT_DID_SAVE)
 def did_save(ls: ChainlintServer, params: types.DidSaveTextDocumentParams) -> None:
-    schedule(ls, params.text_document.uri, 0.0)
+    _refresh(ls, params.text_document.uri, 0.0)
 
 
 @server.feature(types.TEXT_DOCUMENT_DID_CLOSE)
 def did_close(ls: ChainlintServer, params: types.DidCloseTextDocumentParams) -> None:
-    ls.states.pop(params.text_document.uri, None)
+    ls.documents.close(params.text_document.uri)
+    ls.published.pop(params.text_document.uri, None)
     ls.text_document_publish_diagnostics(types.PublishDiagnosticsParams(uri=params.text_document.uri, diagnostics=[]))
 
 
-def _contains(ls: LanguageServer, source: SourceText, span: Span, position: types.Position) -> bool:
-    internal = ls.workspace.position_codec.position_from_client_units(list(source.lines), position)
-    line, column = internal.line + 1, internal.character + 1
-    after_start = (line, column) >= (span.line, span.column)
-    before_end = (line, column) <= (span.end_line, span.end_column)
-    return after_start and before_end
+# -- quick fixes ----------------------------------------------------------------------------
+
+def _fixes_in(state: DocumentState, start: tuple[int, int], end: tuple[int, int]) -> list[Fix]:
+    found = []
+    for finding in state.analysis.findings:
+        if _touches(finding.span, start, end):
+            found.extend(fixes_for(state.analysis, finding))
+    return found
 
 
 @server.feature(types.TEXT_DOCUMENT_CODE_ACTION, types.CodeActionOptions(code_action_kinds=[types.CodeActionKind.QuickFix]))
-def code_action(ls: ChainlintServer, params: types.CodeActionParams) -> list[types.CodeAction]:
+async def code_action(ls: ChainlintServer, params: types.CodeActionParams) -> list[types.CodeAction]:
     if params.text_document.uri in ls.notebooks.cells:
         return notebooks.code_actions(ls, params)
-    state = ls.states.get(params.text_document.uri)
+    state = await ls.documents.current(ls.workspace, params.text_document.uri)
     if state is None:
         return []
-    actions = []
-    for finding in state.findings:
-        if finding.rule != "reorder" or finding.order is None:
-            continue
-        wanted = params.range
-        span = finding.span
-        if not (_contains(ls, state.source, span, wanted.start) or _contains(ls, state.source, span, wanted.end)):
-            continue
-        chain = next((p.chain for p in state.planned if p.chain.span == span), None)
-        if chain is None:
-            continue
-        try:
-            edit = fix_in_text(state.source, chain, finding.order)
-        except RewriteError as error:
-            logger.info("no quick fix at %s:%s: %s", params.text_document.uri, span.line, error)
-            continue
-        text_edit = types.TextEdit(range=_range(ls, state.source, edit.span), new_text=edit.text)
-        actions.append(types.CodeAction(
-            title="chainlint: put the filters in the planned order",
+    lines = list(state.analysis.source.lines)
+    start, end = (_internal(ls, lines, params.range.start), _internal(ls, lines, params.range.end))
+    fixes: Sequence[Fix] = await ls.documents.run(_fixes_in, state, min(start, end), max(start, end))  # type: ignore[assignment]
+    if not ls.documents.is_current(ls.workspace, state):
+        return []  # the text changed while the fixes were made: the editor asks again
+    document = types.OptionalVersionedTextDocumentIdentifier(uri=state.uri, version=state.version)
+    return [
+        types.CodeAction(
+            title=fix.title,
             kind=types.CodeActionKind.QuickFix,
-            diagnostics=[d for d in params.context.diagnostics if d.code == "reorder"],
-            edit=types.WorkspaceEdit(changes={params.text_document.uri: [text_edit]}),
-            is_preferred=True,
-        ))
-    return actions
+            diagnostics=[d for d in params.context.diagnostics if d.code == fix.rule] or None,
+            edit=types.WorkspaceEdit(document_changes=[types.TextDocumentEdit(
+                text_document=document,
+                edits=[types.TextEdit(range=_range(ls, lines, edit.span), new_text=edit.text) for edit in fix.edits],
+            )]),
+            is_preferred=fix.preferred or None,
+        )
+        for fix in fixes
+    ]
 
+
+# -- hover ----------------------------------------------------------------------------------
 
 @server.feature(types.TEXT_DOCUMENT_HOVER)
-def hover(ls: ChainlintServer, params: types.HoverParams) -> types.Hover | None:
+async def hover(ls: ChainlintServer, params: types.HoverParams) -> types.Hover | None:
     if params.text_document.uri in ls.notebooks.cells:
         item = notebooks.hovered(ls, params)
         return None if item is None else types.Hover(contents=types.MarkupContent(kind=types.MarkupKind.Markdown, value=plan_markdown(item)))
-    state = ls.states.get(params.text_document.uri)
+    state = await ls.documents.current(ls.workspace, params.text_document.uri)
     if state is None:
         return None
-    for item in state.planned:
-        if _contains(ls, state.source, item.chain.span, params.position):
+    at = _internal(ls, list(state.analysis.source.lines), params.position)
+    for item in state.analysis.planned:
+        if _touches(item.chain.span, at, at):
             return types.Hover(contents=types.MarkupContent(kind=types.MarkupKind.Markdown, value=plan_markdown(item)))
     return None
 
@@ -231,8 +212,9 @@ def plan_markdown(item: PlannedChain) -> str:
     return "\n".join(lines)
 
 
-def main() -> None:
+def main(max_bytes: int = DEFAULT_MAX_BYTES) -> None:
     # stderr is the editor's log: chainlint's own notes, and only pygls' warnings.
     logging.basicConfig(level=logging.WARNING, format="chainlint lsp: %(message)s")
     logger.setLevel(logging.INFO)
+    server.documents.max_bytes = max_bytes
     server.start_io()

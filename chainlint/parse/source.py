@@ -9,6 +9,7 @@ from __future__ import annotations
 import ast
 import bisect
 import io
+import itertools
 import os
 import re
 import stat
@@ -20,6 +21,7 @@ from functools import cached_property
 DEFAULT_MAX_BYTES = 4 * 1024 * 1024
 
 _NEWLINE = re.compile(r"\r\n|\r|\n")
+_OTHER_BREAKS = re.compile("[\v\f\x1c\x1d\x1e\x85\u2028\u2029]")
 
 
 class SourceError(Exception):
@@ -59,10 +61,7 @@ class SourceText:
 
     @cached_property
     def line_starts(self) -> list[int]:
-        starts = [0]
-        for line in self.lines[:-1]:
-            starts.append(starts[-1] + len(line))
-        return starts
+        return list(itertools.accumulate(map(len, self.lines[:-1]), initial=0))
 
     def segment(self, start: tuple[int, int], end: tuple[int, int]) -> str:
         """The source text between two `ast` positions (line, byte offset)."""
@@ -123,7 +122,13 @@ def text_source(path: str, text: str, encoding: str = "utf-8") -> SourceText:
 
 
 def _split_lines(text: str) -> list[str]:
-    """Lines with their terminators, split where Python's tokenizer splits them."""
+    """Lines with their terminators, split where Python's tokenizer splits them (at \\r\\n, \\r
+    and \\n only: `str.splitlines` also splits at form feeds and Unicode separators)."""
+    if _OTHER_BREAKS.search(text) is None:
+        lines = text.splitlines(keepends=True)
+        if not lines or lines[-1].endswith(("\n", "\r")):
+            lines.append("")
+        return lines
     lines = []
     start = 0
     for match in _NEWLINE.finditer(text):

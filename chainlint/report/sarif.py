@@ -23,7 +23,7 @@ from chainlint import __version__
 from chainlint.analysis.check import CheckResult
 from chainlint.analysis.model import Cell, Span
 from chainlint.report.escape import encodable
-from chainlint.rules import CATALOG, Finding
+from chainlint.rules import CATALOG, LEVELS, Finding
 
 SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
 BASE = "SRCROOT"
@@ -79,7 +79,6 @@ def _result(finding: Finding, index: dict[str, int], levels: dict[str, str]) -> 
 def check_sarif(result: CheckResult, rules: Sequence[str]) -> str:
     modules = [module for module in CATALOG if module.NAME in rules or any(f.rule == module.NAME for f in result.findings)]
     index = {module.NAME: number for number, module in enumerate(modules)}
-    levels = {module.NAME: module.LEVEL for module in modules}
     driver = {
         "name": "chainlint",
         "version": __version__,
@@ -90,7 +89,7 @@ def check_sarif(result: CheckResult, rules: Sequence[str]) -> str:
                 "shortDescription": {"text": module.SUMMARY},
                 "fullDescription": {"text": module.DESCRIPTION},
                 "help": {"text": module.HELP},
-                "defaultConfiguration": {"level": module.LEVEL},
+                "defaultConfiguration": {"level": LEVELS[module.NAME]},
             }
             for module in modules
         ],
@@ -103,7 +102,7 @@ def check_sarif(result: CheckResult, rules: Sequence[str]) -> str:
         "tool": {"driver": driver},
         "originalUriBaseIds": {BASE: {"uri": Path.cwd().resolve().as_uri() + "/"}},
         "columnKind": "unicodeCodePoints",
-        "results": [_result(f, index, levels) for f in result.findings],
+        "results": [_result(f, index, LEVELS) for f in result.findings],
         "invocations": [{"executionSuccessful": not result.errors, "toolExecutionNotifications": notifications}],
     }
     return json.dumps(encodable({"$schema": SCHEMA, "version": "2.1.0", "runs": [run]}), indent=2, ensure_ascii=False) + "\n"

@@ -6,4 +6,8 @@ from chainlint.rules.base import Finding, RuleContext
 #: Every rule module, in the order rules are listed to users (and in SARIF `tool.driver.rules`).
 CATALOG = (reorder, never_matches, unknown_column, stale_joint, joint_uncounted, unbound)
 
-__all__ = ["CATALOG", "Finding", "RuleContext", "joint_uncounted", "never_matches", "reorder", "stale_joint", "unbound", "unknown_column"]
+#: Each rule's severity as a SARIF level (`error`, `warning`, `note`): the one table that SARIF
+#: output and the language server's diagnostics both read.
+LEVELS = {module.NAME: module.LEVEL for module in CATALOG}
+
+__all__ = ["CATALOG", "LEVELS", "Finding", "RuleContext", "joint_uncounted", "never_matches", "reorder", "stale_joint", "unbound", "unknown_column"]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
 
 from chainlint.analysis.model import Cell, Span
 from chainlint.rewrite.permute import Edit
@@ -10,6 +11,9 @@ from chainlint.rewrite.permute import Edit
 
 @dataclass(frozen=True)
 class Finding:
+    """One finding; `literal` and `suggestions` (closest first) name the value a
+    `never-matches` finding is about and the known values that could replace it."""
+
     rule: str
     path: str
     span: Span
@@ -21,6 +25,8 @@ class Finding:
     fix: Edit | None = None
     fix_error: str | None = None
     cell: Cell | None = None
+    literal: Any = None
+    suggestions: tuple[Any, ...] = ()
 
 
 @dataclass(frozen=True)

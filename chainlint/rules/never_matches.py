@@ -54,5 +54,7 @@ def check(plan: ChainPlan, estimator: Estimator) -> list[Finding]:
                 seen = f"never holds {value!r} in profile `{plan.binding.profile}`"
             message = (f"`{column}` {seen} ({len(known)} known values){hint or '.'} "
                        f"The chain's order will be planned once this literal is fixed.")
-            findings.append(Finding(NAME, plan.chain.path, step.span, message))
+            values = {str(v): v for v in stats.mcv}
+            findings.append(Finding(NAME, plan.chain.path, step.span, message, literal=value,
+                                    suggestions=tuple(values[c] for c in close)))
     return findings
