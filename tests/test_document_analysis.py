@@ -38,6 +38,16 @@ PIECES = [
     'a = 1; two = scans[scans.attempts > 2][scans.status == "lost"]\n',
     "z = frame[frame.a == 1][frame.b == 2]\n",
     "class K:\n    x = scans[scans.attempts > 2][scans.depot == 'WEST']\n",
+    "LIMIT = 3\n",
+    "LIMIT = LOW + 1\n",
+    "LOW = 2\n",
+    "LIMIT = compute()\n",
+    "def bump():\n    global LIMIT\n    LIMIT = 4\n",
+    "def free(scans):\n    return scans[scans.attempts > LIMIT][scans.status == 'lost']\n",
+    "def local(scans):\n    limit = LIMIT * 2\n    return scans[scans.attempts > limit].query('depot == @LIMIT')\n",
+    "import numpy as np\n",
+    "import math as np\n",
+    "def circle(scans):\n    return scans[scans.weight_kg > np.pi][scans.status == 'lost']\n",
     "def broken(:\n",
     'text = """\n',
 ]
@@ -89,3 +99,37 @@ def test_incremental_analysis_equals_a_whole_analysis(project: Path, start: list
 def test_a_document_over_the_limit_is_not_analysed(project: Path) -> None:
     analysis = DocumentAnalyser(str(project / "m.py"), max_bytes=100).analyse(f"out = {CHAIN}\n" * 3, Options())
     assert not analysis.planned and "over the 0.0 MB limit" in analysis.refusal and "--max-file-size" in analysis.refusal
+
+
+FAR = "\n\ndef unrelated():\n    return 1\n\n\n"
+#: (text before, text after): the edit changes what a chain far below it means.
+CONTEXT_EDITS = [
+    ('SCANS = "data/parcel_scans.parquet"\nscans = pd.read_parquet(SCANS)\n' + FAR + f"def f():\n    return {CHAIN}\n",
+     'SCANS = "elsewhere.parquet"\nscans = pd.read_parquet(SCANS)\n' + FAR + f"def f():\n    return {CHAIN}\n"),
+    ("scans = load()  # chainlint: profile=parcel_scans\n" + FAR + f"out = {CHAIN}\n",
+     "scans = load()\n" + FAR + f"out = {CHAIN}\n"),
+    ("LIMIT = 3\n" + FAR + "def free(scans):\n    return scans[scans.attempts > LIMIT][scans.status == 'lost']\n",
+     "LIMIT = 300\n" + FAR + "def free(scans):\n    return scans[scans.attempts > LIMIT][scans.status == 'lost']\n"),
+    ("LIMIT = 3\n" + FAR + "def free(scans):\n    return scans[scans.attempts > LIMIT][scans.status == 'lost']\n",
+     "LIMIT = 3\ndef bump():\n    global LIMIT\n    LIMIT = 4\n" + FAR + "def free(scans):\n    return scans[scans.attempts > LIMIT][scans.status == 'lost']\n"),
+    ("LOW = 2\nLIMIT = LOW + 1\n" + FAR + "def local(scans):\n    limit = LIMIT * 2\n    return scans[scans.attempts > limit][scans.status == 'lost']\n",
+     "LOW = 200\nLIMIT = LOW + 1\n" + FAR + "def local(scans):\n    limit = LIMIT * 2\n    return scans[scans.attempts > limit][scans.status == 'lost']\n"),
+    ("import numpy as np\n" + FAR + "def circle(scans):\n    return scans[scans.weight_kg > np.pi][scans.status == 'lost']\n",
+     "import os as np\n" + FAR + "def circle(scans):\n    return scans[scans.weight_kg > np.pi][scans.status == 'lost']\n"),
+    ('SCANS = "data/parcel_scans.parquet"\nif ready:\n    scans = pd.read_parquet(SCANS)\n' + FAR + f"out = {CHAIN}\n",
+     # A seam from the block's last line into the next statement: the finder now walks the block.
+     'SCANS = "data/parcel_scans.parquet"\nif ready:\n    scans = pd.read_parquet(SCANS)\nx = x[x.a > 1]\n' + FAR + f"out = {CHAIN}\n"),
+]
+
+
+@pytest.mark.parametrize("before, after", CONTEXT_EDITS)
+def test_an_edit_far_above_a_chain_reaches_it(project: Path, before: str, after: str) -> None:
+    options = Options(rules=frozenset(RULES))
+    path = str(project / "m.py")
+    analyser = DocumentAnalyser(path)
+    header = "import pandas as pd\n"
+    first = analyser.analyse(header + before, options)
+    assert first.planned == analyse_text(path, header + before, options).planned
+    got, want = analyser.analyse(header + after, options), analyse_text(path, header + after, options)
+    assert got.planned == want.planned and got.findings == want.findings
+    assert want.planned[-1] != analyse_text(path, header + before, options).planned[-1]  # the edit matters

@@ -16,8 +16,9 @@ from __future__ import annotations
 import ast
 import bisect
 import hashlib
+import re
 import threading
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import cached_property
 from pathlib import Path
 from typing import Any
@@ -27,6 +28,7 @@ from chainlint.analysis.model import FileAnalysis, FileError, Span
 from chainlint.analysis.run import analyse_source
 from chainlint.bind.profiles import load_store
 from chainlint.estimate.selectivity import Estimator
+from chainlint.find.bindings import ModuleBindings, Resolved
 from chainlint.find.chains import find_chains, module_names
 from chainlint.find.origins import READERS, profile_comment
 from chainlint.find.screen import Seams, find_seams
@@ -84,6 +86,25 @@ class _Unit:
     findings: tuple[Finding, ...]
     depends: tuple[tuple[str, bytes | None], ...]
     compound: bytes
+    identifiers: frozenset[str] | None = None
+    resolved: tuple[tuple[str, Resolved], ...] = ()
+
+
+class _Asking(ModuleBindings):
+    """The module's bindings, noting whether the finder asked what a name holds."""
+
+    asked = False
+
+    def resolve(self, dotted: str, at: ast.AST | None) -> Resolved:
+        self.asked = True
+        return super().resolve(dotted, at)
+
+
+def _resolved(bindings: ModuleBindings, identifiers: frozenset[str]) -> tuple[tuple[str, Resolved], ...]:
+    """What each module-level name among `identifiers` holds (a free name in a filter may be
+    one of them, or be defined in terms of them)."""
+    module = bindings.scope(None).bindings.keys()
+    return tuple((name, bindings.resolve(name, None)) for name in sorted(identifiers & module))
 
 
 Key = tuple[str, int]
@@ -118,7 +139,7 @@ class DocumentAnalyser:
         except SourceError as error:
             return DocumentAnalysis(source, errors=(FileError(self.path, error.line, error.column, error.message),))
         store = (options.store or find_store(Path(self.path))).resolve()
-        setting = (options, store, load_store(store), module_names(tree))
+        setting = (options, store, load_store(store), module_names(tree), _imports(source, tree))
         if self._setting is None or any(a is not b and a != b for a, b in zip(setting, self._setting)):
             self._units, self._estimators = {}, {}
             self._setting = setting
@@ -126,8 +147,9 @@ class DocumentAnalyser:
         fresh: dict[int, _Unit] = {}
         if stale:
             self._parser.settle([statement for _, _, statements, _ in stale for statement in statements])
+            asking = _Asking(tree)
             try:
-                chains = find_chains(source, tree, seams.within([(first, last) for first, last, _, _ in stale]))
+                chains = find_chains(source, tree, seams.within([(first, last) for first, last, _, _ in stale]), asking)
             except SourceError as error:
                 return DocumentAnalysis(source, errors=(FileError(self.path, error.line, error.column, error.message),))
             except RecursionError:
@@ -144,7 +166,11 @@ class DocumentAnalyser:
             for first, last, statements, (names, compound) in stale:
                 read = _names_read(source, first, last, statements, chains_of[first])
                 depends = tuple((name, names.get(name)) for name in read)
-                fresh[first] = _Unit(first, tuple(chains_of[first]), tuple(findings_of[first]), depends, compound)
+                unit = _Unit(first, tuple(chains_of[first]), tuple(findings_of[first]), depends, compound)
+                if asking.asked and chains_of[first]:
+                    identifiers = frozenset(_IDENTIFIER.findall("".join(source.lines[first - 1 : last])))
+                    unit = replace(unit, identifiers=identifiers, resolved=_resolved(asking, identifiers))
+                fresh[first] = unit
         parts = []
         kept: dict[Key, _Unit] = {}
         for first, _, key, reused in units:
@@ -170,6 +196,7 @@ class DocumentAnalyser:
         compound = b""
         seen: dict[str, int] = {}
         starts, text = source.line_starts, source.text
+        bindings: ModuleBindings | None = None
         for first, last, statements in _groups(tree):
             begin = starts[first - 2] if first > 1 else 0
             end = starts[last] if last < len(starts) else len(text)
@@ -179,6 +206,10 @@ class DocumentAnalyser:
             walks = seams.meets(first, last)
             always = walks and any(isinstance(s, _COMPOUND) for s in statements)
             unit = self._units.get(key)
+            if unit is not None and unit.identifiers is not None:
+                bindings = bindings or ModuleBindings(tree)
+                if _resolved(bindings, unit.identifiers) != unit.resolved:
+                    unit = None
             if always or unit is None or unit.compound != compound or any(names.get(n) != d for n, d in unit.depends):
                 unit = None
                 stale.append((first, last, statements, (dict(names), compound)))
@@ -188,7 +219,7 @@ class DocumentAnalyser:
                     if walks:
                         compound = _digest(compound, _text(source, statement))
                     continue
-                told = _assigns(source, statement)
+                told = _assigns(source, statement, names)
                 if told is not None:
                     names[told[0]] = _digest(names.get(told[0], b""), told[1])
         return units, stale
@@ -227,6 +258,15 @@ def _names_read(source: SourceText, first: int, last: int, statements: list[ast.
     return sorted(names)
 
 
+def _imports(source: SourceText, tree: ast.Module) -> tuple[str, ...]:
+    """The module-level imports (within top-level blocks too): which module a name stands for."""
+    found = []
+    for statement in tree.body:
+        nodes = ast.walk(statement) if isinstance(statement, _COMPOUND) else (statement,)
+        found.extend(_text(source, node) for node in nodes if isinstance(node, (ast.Import, ast.ImportFrom)))
+    return tuple(found)
+
+
 def _digest(before: bytes, text: str) -> bytes:
     return hashlib.blake2b(before + text.encode("utf-8", "surrogatepass"), digest_size=16).digest()
 
@@ -244,20 +284,23 @@ def _same_target(before: ast.stmt, statement: ast.stmt) -> bool:
     return target(before) is not None and target(before) == target(statement)
 
 
-def _assigns(source: SourceText, statement: ast.stmt) -> tuple[str, str] | None:
+def _assigns(source: SourceText, statement: ast.stmt, names: dict[str, bytes]) -> tuple[str, str] | None:
     """(name, what the finder learns) for a top-level `name = ...`: from a string or a reader
-    call, the statement's text (a path); otherwise only the `# chainlint: profile=` comments
-    on its lines (the finder records an assigned frame and such a comment, nothing else)."""
+    call, the statement's text and what the names it reads stood for (a path constant);
+    otherwise only the `# chainlint: profile=` comments on its lines (the finder records an
+    assigned frame and such a comment, nothing else)."""
     if not (isinstance(statement, ast.Assign) and len(statement.targets) == 1 and isinstance(statement.targets[0], ast.Name)):
         return None
     value = statement.value
     read = isinstance(value, ast.Call) and isinstance(value.func, ast.Attribute) and value.func.attr in READERS
     if read or (isinstance(value, ast.Constant) and isinstance(value.value, str)):
-        return statement.targets[0].id, "text:" + _text(source, statement)
+        read = sorted({n.id for n in ast.walk(value) if isinstance(n, ast.Name)})
+        return statement.targets[0].id, "text:" + _text(source, statement) + repr([names.get(n) for n in read])
     lines = source.lines[statement.lineno - 1 : statement.end_lineno]
     return statement.targets[0].id, repr([profile_comment(line) for line in lines])
 
 
+_IDENTIFIER = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 _COMPOUND = (ast.If, ast.For, ast.AsyncFor, ast.While, ast.With, ast.AsyncWith, ast.Try, ast.TryStar, ast.Match)
 def _span(span: Span | None, delta: int) -> Span | None:
     return None if span is None else Span(span.line + delta, span.column, span.end_line + delta, span.end_column)

@@ -33,9 +33,10 @@ from chainlint.find.steps import (
 from chainlint.parse.source import SourceText
 
 
-def find_chains(source: SourceText, tree: ast.Module, seams: Seams) -> list[Chain]:
-    """All chains of the module, in source order."""
-    finder = _Finder(source, seams, module_names(tree), ModuleBindings(tree))
+def find_chains(source: SourceText, tree: ast.Module, seams: Seams, bindings: ModuleBindings | None = None) -> list[Chain]:
+    """All chains of the module, in source order (`bindings`: the module's, when the caller
+    wants to see what the finder asks of them)."""
+    finder = _Finder(source, seams, module_names(tree), bindings or ModuleBindings(tree))
     finder.block(tree.body)
     return sorted(finder.chains, key=lambda c: (c.span.line, c.span.column))
 
