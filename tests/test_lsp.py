@@ -49,18 +49,26 @@ async def client(lsp_client: LanguageClient, project: Path):
 
 async def _open(client: LanguageClient, path: Path, text: str, version: int = 1) -> list[types.Diagnostic]:
     uri = path.as_uri()
+    start = len(PUBLISHED)
     client.text_document_did_open(types.DidOpenTextDocumentParams(
         text_document=types.TextDocumentItem(uri=uri, language_id="python", version=version, text=text)))
-    await asyncio.wait_for(client.wait_for_notification(types.TEXT_DOCUMENT_PUBLISH_DIAGNOSTICS), TIMEOUT)
+    await _published(client, uri, start)
     return list(client.diagnostics[uri])  # lsprotocol gives tuples
+
+
+async def _published(client: LanguageClient, uri: str, start: int) -> None:
+    """Wait for diagnostics of this document (another's may arrive first)."""
+    while not any(p.uri == uri for p in PUBLISHED[start:]):
+        await asyncio.wait_for(client.wait_for_notification(types.TEXT_DOCUMENT_PUBLISH_DIAGNOSTICS), TIMEOUT)
 
 
 async def _change(client: LanguageClient, path: Path, text: str, version: int) -> list[types.Diagnostic]:
     uri = path.as_uri()
+    start = len(PUBLISHED)
     client.text_document_did_change(types.DidChangeTextDocumentParams(
         text_document=types.VersionedTextDocumentIdentifier(uri=uri, version=version),
         content_changes=[types.TextDocumentContentChangeWholeDocument(text=text)]))
-    await asyncio.wait_for(client.wait_for_notification(types.TEXT_DOCUMENT_PUBLISH_DIAGNOSTICS), TIMEOUT)
+    await _published(client, uri, start)
     return list(client.diagnostics[uri])
 
 
