@@ -170,6 +170,10 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
         findings, fixes = attach_fixes(result.findings, results)
         result = replace(result, findings=tuple(findings))
     result = replace(result, errors=tuple(discovery_errors) + result.errors)
+    if write:
+        # Temporaries a killed run left beside any analysed file go, fixed or not this time.
+        for folder in sorted({os.path.dirname(os.path.realpath(r.path)) for r in results}):
+            remove_stale_temporaries(folder)
     written = _write_fixes(fixes) if write else set()
     result = locate_result(result, results)
     remaining = [f for f in result.findings if not _fixed(f, written)]
@@ -207,8 +211,6 @@ def _write_fixes(fixes: dict) -> set[str]:  # type: ignore[type-arg]
     """Write every file that has a verified rewrite; the paths written."""
     from chainlint.rewrite.fixes import write_fix
 
-    for folder in sorted({os.path.dirname(os.path.realpath(path)) for path in fixes}):
-        remove_stale_temporaries(folder)
     written: set[str] = set()
     done: dict[str, str] = {}  # the real file -> the new text already written to it
     for path in sorted(fixes):
@@ -453,6 +455,8 @@ def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, col
     path, _, line_text = target.partition(":")
     if line_text and not line_text.isdigit():
         path, line_text = target, ""
+    if plot and _same_file(plot, path):
+        _fail(f"--plot {plot} is the file measured; give a picture file that is not a source")
     result = analyse_files([path], jobs=1)[0]
     if result.errors:
         error = result.errors[0]

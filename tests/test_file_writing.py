@@ -208,3 +208,18 @@ def test_the_store_writes_through_a_symlinked_profile(project: Path, tmp_path: P
     document["rows"] += 1
     save_profile(store, document)
     assert profile.is_symlink() and load_profile(shared)["rows"] == document["rows"]
+
+
+def test_stale_temporaries_go_on_the_next_fix_even_with_nothing_to_fix(project: Path) -> None:
+    assert "fixed: reorder" in _check("--fix", ".").output
+    stale = project / f".pipeline.py.{_dead_pid()}-5f2c91d0.chainlint"
+    stale.write_text("left by a killed run")
+    assert "fixed" not in _check("--fix", ".").output
+    assert not stale.exists()
+
+
+def test_measure_refuses_a_picture_path_that_is_the_source(project: Path) -> None:
+    before = (project / "pipeline.py").read_bytes()
+    result = CliRunner().invoke(main, ["measure", "pipeline.py", "--data", "none.parquet", "--plot", "pipeline.py"])
+    assert result.exit_code == 2 and "--plot" in result.output
+    assert (project / "pipeline.py").read_bytes() == before
