@@ -139,7 +139,7 @@ def _copy_metadata(shown: str, target: str, handle: int, status: os.stat_result 
         return
     mode = stat.S_IMODE(status.st_mode)
     mine = os.fstat(handle)
-    if (mine.st_uid, mine.st_gid) != (status.st_uid, status.st_gid):
+    if hasattr(os, "fchown") and (mine.st_uid, mine.st_gid) != (status.st_uid, status.st_gid):
         try:
             os.fchown(handle, status.st_uid, status.st_gid)
         except PermissionError:
