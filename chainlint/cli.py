@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import functools
-
+import math
 import os
 import sys
 import time
@@ -22,7 +22,7 @@ from chainlint.analysis.run import analyse_files
 from chainlint.analysis.profiled import chains_for, code_read_options, project_chains
 from chainlint.cli_csv import csv_from, csv_options
 from chainlint.config import Config, ConfigError, as_toml, load_config, override
-from chainlint.discover import discover
+from chainlint.discover import discover, pattern_problem
 from chainlint.notebook.locate import locate_planned, locate_result
 from chainlint.estimate.calibrate import COST_MODEL_FILE, model_to_json
 from chainlint.estimate.calibrate import calibrate as measure_model
@@ -62,6 +62,16 @@ from chainlint.writer import WriteError, remove_stale_temporaries, write_file
 EXIT_OK, EXIT_FINDINGS, EXIT_ERROR = 0, 1, 2
 
 
+class _Number(click.FloatRange):
+    """A finite number in range: click's FloatRange lets NaN through (every comparison with it is false)."""
+
+    def convert(self, value, param, ctx):  # type: ignore[no-untyped-def]
+        number = super().convert(value, param, ctx)
+        if not math.isfinite(number):
+            self.fail(f"{value!r} is not a finite number", param, ctx)
+        return number
+
+
 def _jobs_option(function):  # type: ignore[no-untyped-def]
     return click.option(
         "--jobs", "-j", type=click.IntRange(min=1), default=None, help="Worker processes (default: CPU count)."
@@ -79,7 +89,7 @@ def _analysis_options(function):  # type: ignore[no-untyped-def]
     options = [
         click.argument("paths", nargs=-1, required=True, type=click.Path()),
         click.option("--exclude", multiple=True, metavar="GLOB", help="Skip paths matching GLOB (gitignore syntax); repeatable."),
-        click.option("--max-file-size", type=click.FloatRange(min=0.001), default=4.0, show_default=True, metavar="MB",
+        click.option("--max-file-size", type=_Number(min=0.001, max=1024.0), default=4.0, show_default=True, metavar="MB",
                      help="Report files larger than this instead of parsing them."),
         click.option("--store", type=click.Path(file_okay=False), help="Profile store (default: the nearest .chainlint/ of each file)."),
         click.option("--rows", type=click.IntRange(min=1), help="Production row count: scale estimates to it (default: the profile's rows)."),
@@ -96,7 +106,19 @@ def _config(paths: Sequence[str], **given) -> Config:  # type: ignore[no-untyped
         config = load_config(Path(paths[0]) if paths else Path("."), set(RULES))
     except ConfigError as error:
         _fail(str(error))
-    return override(config, **given)
+    config = override(config, **given)
+    problem = pattern_problem(config.exclude)
+    if problem:
+        _fail(f"--exclude: {problem}")
+    return config
+
+
+def _read_store(config: Config) -> None:
+    """A store named on the command line or in the configuration must exist: a typo must not
+    pass as a store without profiles (no findings, exit 0)."""
+    if config.store is not None and not Path(config.store).is_dir():
+        where = config.origins.get("store", "command line")
+        _fail(f"the profile store {config.store} is not a folder ({'given on the command line' if where == 'command line' else 'set in ' + where})")
 
 
 def _analyse(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, jobs: int | None):  # type: ignore[no-untyped-def]
@@ -112,6 +134,7 @@ def explain(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, 
             jobs: int | None, output_format: str) -> None:
     """List every chain of row filters in PATHS: steps, predicates, which steps may move, and the plan."""
     config = _config(paths, store=store, exclude=tuple(exclude) or None)
+    _read_store(config)
     results, discovery_errors = _analyse(paths, config.exclude, max_file_size, jobs)
     planned, store_errors = plan_results(results, replace(options_from(config), rows=rows))
     planned = locate_planned(planned, results)
@@ -131,9 +154,9 @@ def explain(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, 
 @main.command("check")
 @_analysis_options
 @click.option("--format", "output_format", type=click.Choice(["text", "json", "sarif"]), default="text", show_default=True)
-@click.option("--min-gain", type=click.FloatRange(min=1.0),
+@click.option("--min-gain", type=_Number(min=1.0),
               help="Report a reorder only when the planned order is estimated at least this many times faster [default: 1.25].")
-@click.option("--min-saving-ms", type=click.FloatRange(min=0.0),
+@click.option("--min-saving-ms", type=_Number(min=0.0),
               help="... and saves at least this many milliseconds at the estimated row count [default: 5].")
 @click.option("--rule", "rules", multiple=True, type=click.Choice(sorted(RULES)),
               help="Run only these rules (default: all but `unbound`); repeatable.")
@@ -156,6 +179,7 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
         paths, store=store, exclude=tuple(exclude) or None, min_gain=min_gain, min_saving_ms=min_saving_ms,
         rules=tuple(rules) or None, fail_rules=tuple(fail_rules) or None,
     )
+    _read_store(config)
     results, discovery_errors = _analyse(paths, config.exclude, max_file_size, jobs)
     if output and any(_same_file(output, r.path) for r in results):
         _fail(f"--output {output} is one of the files analysed; give a report file that is not a source")
@@ -261,7 +285,11 @@ class _Progress:
             click.echo("\r" + " " * 60 + "\r", nl=False, err=True)
 
 
-def _store(store: str | None) -> Path:
+def _store(store: str | None, must_exist: bool = False) -> Path:
+    """The store given, or the project's; one given to read from must exist (a typo must not
+    pass as an empty store)."""
+    if store and must_exist and not Path(store).is_dir():
+        _fail(f"the profile store {store} is not a folder")
     return Path(store) if store else find_store(".")
 
 
@@ -339,6 +367,8 @@ def _code_options(given: CsvOptions, chains: Sequence, data: Sequence[str]) -> C
 @click.pass_context
 def profiles(context: click.Context, store: str | None) -> None:
     """List the store's profiles; `show NAME` summarises one, `merge NAME PART...` combines parts."""
+    if store:
+        _store(store, must_exist=True)
     context.obj = store
     if context.invoked_subcommand is None:
         context.obj = _store(store)
@@ -387,7 +417,10 @@ def check_profiles(folder: Path, names: Sequence[str]) -> None:
 
     Exit status: 0 when all are current, 1 when one is out of date, 2 when a file is missing.
     """
-    paths = [profile_path(folder, n) for n in names] if names else list_profiles(folder)
+    try:
+        paths = [profile_path(folder, n) for n in names] if names else list_profiles(folder)
+    except StoreError as error:
+        _fail(str(error))
     worst = EXIT_OK
     for path in paths:
         try:
@@ -452,6 +485,8 @@ def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, col
     from chainlint.measure.run import DataMismatch, MeasureError, as_read_csv, load_table, measure_chain
     from chainlint.measure.svg import measurement_svg
 
+    if store:
+        _store(store, must_exist=True)
     path, _, line_text = target.partition(":")
     if line_text and not line_text.isdigit():
         path, line_text = target, ""

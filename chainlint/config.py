@@ -11,11 +11,14 @@ from __future__ import annotations
 import json
 
 import difflib
+import math
 import os
 import tomllib
 from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
 from typing import Any
+
+from chainlint.discover import pattern_problem
 
 
 class ConfigError(Exception):
@@ -54,7 +57,10 @@ def find_config(start: Path) -> tuple[Path, dict[str, Any]] | None:
             return dedicated, _read(dedicated)
         pyproject = candidate / "pyproject.toml"
         if pyproject.is_file():
-            table = _read(pyproject).get("tool", {}).get("chainlint")
+            tool = _read(pyproject).get("tool", {})
+            if not isinstance(tool, dict):
+                raise ConfigError(f"{pyproject}: `tool` must be a table")
+            table = tool.get("chainlint")
             if table is not None:
                 if not isinstance(table, dict):
                     raise ConfigError(f"{pyproject}: [tool.chainlint] must be a table")
@@ -78,8 +84,8 @@ def _strings(path: Path, key: str, value: Any) -> tuple[str, ...]:
 
 
 def _number(path: Path, key: str, value: Any, low: float) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or value < low:
-        raise ConfigError(f"{path}: `{key}` must be a number of at least {low:g}")
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not low <= value < math.inf:
+        raise ConfigError(f"{path}: `{key}` must be a finite number of at least {low:g}")
     return float(value)
 
 
@@ -99,14 +105,18 @@ def parse_config(path: Path, table: dict[str, Any], known_rules: set[str]) -> Co
             if not isinstance(value, dict):
                 raise ConfigError(f"{path}: `{key}` must be a table")
             kind = str if key == "bindings" else int
-            if not all(isinstance(v, kind) and not isinstance(v, bool) for v in value.values()):
-                what = "profile names" if key == "bindings" else "row counts"
+            if not all(isinstance(v, kind) and not isinstance(v, bool) and (kind is str or v >= 1) for v in value.values()):
+                what = "profile names" if key == "bindings" else "row counts of at least 1"
                 raise ConfigError(f"{path}: `{key}` must map names to {what}")
             values[key] = tuple(value.items())
         elif key in ("min_gain", "min_saving_ms"):
             values[key] = _number(path, key, value, 1.0 if key == "min_gain" else 0.0)
         else:
             items = _strings(path, key, value)
+            if key == "exclude":
+                problem = pattern_problem(items)
+                if problem:
+                    raise ConfigError(f"{path}: `exclude`: {problem}")
             if key in ("rules", "skip", "fail_rules"):
                 unknown = [r for r in items if r not in known_rules]
                 if unknown:

@@ -19,6 +19,7 @@ from chainlint.rules import (
     Finding,
     RuleContext,
     joint_uncounted,
+    missing_profile,
     never_matches,
     reorder,
     stale_joint,
@@ -130,6 +131,8 @@ def apply_rules(planned: Sequence[PlannedChain], options: Options) -> tuple[list
         found: list[Finding] = []
         if unbound.NAME in options.rules:
             found.extend(unbound.check(item.chain, item.binding))
+        if missing_profile.NAME in options.rules:
+            found.extend(missing_profile.check(item.chain, item.binding))
         keep = item.chain.keep
         if item.plan is not None and item.estimator is not None:
             typos = never_matches.check(item.plan, item.estimator) if never_matches.NAME in options.rules else []

@@ -75,8 +75,9 @@ def _analyse_job(job: tuple[str, int]) -> FileAnalysis:
 
 def analyse_files(paths: Sequence[str], jobs: int | None = None, max_bytes: int = DEFAULT_MAX_BYTES) -> list[FileAnalysis]:
     """Analyse files, in a process pool when there are enough of them; results in path order."""
-    workers = jobs or os.cpu_count() or 1
     work = [(path, max_bytes) for path in paths]
+    # More workers than files or cores only cost start-up time and memory.
+    workers = min(jobs or os.cpu_count() or 1, os.cpu_count() or 1, len(work))
     results: Iterable[FileAnalysis]
     if workers <= 1 or len(work) < _POOL_THRESHOLD:
         results = map(_analyse_job, work)

@@ -21,11 +21,13 @@ from chainlint.bind.profiles import ProfileSet
 
 @dataclass(frozen=True)
 class Binding:
-    """`profile` and `how` (`comment`, `source`, `config`, `columns`), or a `reason` it is unbound."""
+    """`profile` and `how` (`comment`, `source`, `config`, `columns`), or a `reason` it is unbound;
+    `missing` is the profile a comment or the configuration names when the store lacks it."""
 
     profile: str | None
     how: str | None = None
     reason: str | None = None
+    missing: str | None = None
 
 
 def _chain_columns(chain: Chain) -> set[str]:
@@ -46,7 +48,7 @@ def bind_chain(chain: Chain, profiles: ProfileSet, config: Sequence[tuple[str, s
     if named:
         if named in profiles.profiles:
             return Binding(named, "comment")
-        return Binding(None, reason=f"the comment names profile `{named}`, which {profiles.store} does not hold")
+        return Binding(None, reason=f"the comment names profile `{named}`, which {profiles.store} does not hold", missing=named)
     if origin and origin.kind == "read" and origin.path:
         wanted = os.path.basename(origin.path.replace("\\", "/").rstrip("/"))
         matches = sorted(name for name, document in profiles.profiles.items() if wanted in _source_names(document))
@@ -57,7 +59,8 @@ def bind_chain(chain: Chain, profiles: ProfileSet, config: Sequence[tuple[str, s
         if fnmatch.fnmatchcase(frame_name, pattern):
             if profile in profiles.profiles:
                 return Binding(profile, "config")
-            return Binding(None, reason=f"[tool.chainlint.bindings] maps `{pattern}` to `{profile}`, which the store does not hold")
+            return Binding(None, reason=f"[tool.chainlint.bindings] maps `{pattern}` to `{profile}`, which {profiles.store} does not hold",
+                           missing=profile)
     if not profiles.profiles:
         return Binding(None, reason=f"no profiles in {profiles.store}")
     columns = _chain_columns(chain)

@@ -91,6 +91,16 @@ class _IgnoreRules:
         return verdict
 
 
+def pattern_problem(patterns: Iterable[str]) -> str | None:
+    """Why an exclude pattern is not valid gitignore syntax (`!` alone, a trailing `\\`), or None."""
+    for pattern in patterns:
+        try:
+            pathspec.GitIgnoreSpec.from_lines([pattern])
+        except ValueError:  # pathspec's pattern error is a ValueError
+            return f"{pattern!r} is not a valid gitignore pattern"
+    return None
+
+
 def discover(paths: Sequence[str], exclude: Iterable[str] = ()) -> Discovered:
     """The Python files and notebooks under `paths`, sorted and without duplicates; unreadable paths as errors."""
     excluded = pathspec.GitIgnoreSpec.from_lines(list(exclude))

@@ -17,7 +17,7 @@ from chainlint.profile.format import ProfileError, dumps, loads
 from chainlint.writer import WriteError, write_file
 
 STORE_FOLDER = ".chainlint"
-_NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]*$")
+_NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,199}")
 
 
 class StoreError(Exception):
@@ -44,8 +44,8 @@ def project_root(start: str | os.PathLike[str] = ".") -> Path:
 
 
 def check_name(name: str) -> str:
-    if not _NAME.match(name):
-        raise StoreError(f"profile name {name!r} must be letters, digits, '_', '-' or '.', starting with a letter or digit")
+    if not _NAME.fullmatch(name):
+        raise StoreError(f"profile name {name!r} must be 1 to 200 letters, digits, '_', '-' or '.', starting with a letter or digit")
     return name
 
 
