@@ -48,7 +48,7 @@ def test_sarif_log_validates_and_carries_rules_results_and_fixes(project: Path) 
     (run,) = log["runs"]
     assert run["columnKind"] == "unicodeCodePoints"
     rules = [rule["id"] for rule in run["tool"]["driver"]["rules"]]
-    assert rules == ["reorder", "never-matches", "unknown-column", "stale-joint", "joint-uncounted"]
+    assert rules == ["reorder", "never-matches", "unknown-column", "missing-profile", "stale-joint", "joint-uncounted"]
     reorder = [r for r in run["results"] if r["ruleId"] == "reorder"]
     assert len(reorder) == 2
     location = reorder[0]["locations"][0]["physicalLocation"]
