@@ -7,6 +7,7 @@ import math
 import os
 import sys
 import time
+import zlib
 from collections.abc import Sequence
 from dataclasses import replace
 from pathlib import Path
@@ -426,7 +427,9 @@ def check_profiles(folder: Path, names: Sequence[str]) -> None:
         try:
             document = load_profile(path)
         except (ProfileError, StoreError) as error:
-            _fail(str(error))
+            click.echo(f"chainlint: error: {printable(str(error))}", err=True)
+            worst = EXIT_ERROR
+            continue
         state, detail = fingerprint_state(document, folder)
         click.echo(f"{document['name']}: {state}{': ' + detail if detail else ''}")
         worst = max(worst, {"up to date": EXIT_OK, "out of date": EXIT_FINDINGS}.get(state, EXIT_ERROR))
@@ -445,6 +448,8 @@ def merge(folder: Path, name: str, parts: Sequence[str]) -> None:
         path, changed = save_profile(folder, merge_profiles(documents, name, sketch_key(folder, create=False)))
     except (ProfileError, StoreError) as error:
         _fail(str(error))
+    except (ValueError, zlib.error) as error:  # a part's sketch that does not decode
+        _fail(f"cannot merge {', '.join(parts)}: {error}")
     click.echo(f"profile {name}: merged from {len(parts)} parts -> {path} ({'written' if changed else 'unchanged'})")
 
 

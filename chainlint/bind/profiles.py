@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
@@ -10,6 +9,7 @@ from typing import Any
 
 from chainlint.estimate.calibrate import COST_MODEL_FILE, model_from_json
 from chainlint.estimate.cost import DEFAULT_MODEL, CostModel
+from chainlint.profile.documents import SMALL_BYTES, check_cost_model, read_json
 from chainlint.profile.format import ProfileError
 from chainlint.profile.store import (
     StoreError,
@@ -65,7 +65,7 @@ def _load(store: Path, signature: tuple[tuple[str, int, int], ...]) -> ProfileSe
     model_path = store / COST_MODEL_FILE
     if model_path.exists():
         try:
-            model = model_from_json(json.loads(model_path.read_text(encoding="utf-8")))
-        except (OSError, ValueError, TypeError) as error:
-            errors.append(f"{model_path}: cannot use the calibrated cost model: {error}")
+            model = model_from_json(check_cost_model(read_json(model_path, SMALL_BYTES), model_path))
+        except (OSError, ValueError) as error:  # DocumentError is a ValueError
+            errors.append(f"{model_path}: cannot use the calibrated cost model: {str(error).removeprefix(f'{model_path}: ')}")
     return ProfileSet(store, profiles, tuple(errors), key, model)

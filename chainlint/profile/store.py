@@ -13,7 +13,15 @@ import secrets
 from pathlib import Path
 from typing import Any
 
-from chainlint.profile.format import ProfileError, dumps, loads
+from chainlint.profile.documents import (
+    PROFILE_BYTES,
+    SMALL_BYTES,
+    DocumentError,
+    check_profile,
+    check_store_config,
+    read_json,
+)
+from chainlint.profile.format import ProfileError, dumps
 from chainlint.writer import WriteError, write_file
 
 STORE_FOLDER = ".chainlint"
@@ -66,13 +74,13 @@ def write_atomic(path: Path, text: str) -> None:
 
 
 def load_profile(path: Path) -> dict[str, Any]:
+    """A profile checked against its documented format (`chainlint.profile.documents`)."""
     try:
-        text = path.read_text(encoding="utf-8")
+        return check_profile(read_json(path, PROFILE_BYTES), path)
     except FileNotFoundError:
         raise ProfileError(f"{path}: no such profile") from None
-    except (OSError, UnicodeDecodeError) as error:
-        raise ProfileError(f"{path}: cannot read: {getattr(error, 'strerror', None) or error}") from None
-    return loads(text, str(path))
+    except DocumentError as error:
+        raise ProfileError(str(error)) from None
 
 
 def save_profile(store: Path, document: dict[str, Any]) -> tuple[Path, bool]:
@@ -104,9 +112,10 @@ def redaction_key(store: Path, create: bool) -> bytes:
     config: dict[str, Any] = {}
     if config_path.exists():
         try:
-            config = json.loads(config_path.read_text(encoding="utf-8"))
-        except (OSError, json.JSONDecodeError) as error:
-            raise StoreError(f"{config_path}: cannot read the store configuration: {error}") from None
+            config = check_store_config(read_json(config_path, SMALL_BYTES), config_path)
+        except (OSError, DocumentError) as error:
+            detail = str(error).removeprefix(f"{config_path}: ")
+            raise StoreError(f"{config_path}: cannot read the store configuration: {detail}") from None
     key = config.get("redaction_key")
     if isinstance(key, str) and re.fullmatch(r"[0-9a-f]{64}", key):
         return bytes.fromhex(key)
