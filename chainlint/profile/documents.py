@@ -247,6 +247,7 @@ def _column(value: Any, field: str) -> None:
             "clustering": number(),
             "sketch": text(limit=1 << 16),
             "redacted": flag,
+            "unsummarised": text(limit=1000),
         },
     )(value, field)
     if value["nulls"] > value["rows"]:

@@ -258,10 +258,18 @@ def _open_parquet_dataset(paths: Sequence[str], batch_rows: int) -> tuple[pa.Sch
     try:
         parts = [pads.dataset(p, format="parquet", partitioning="hive") for p in paths]
         dataset = parts[0] if len(parts) == 1 else pads.dataset(parts)
-    except (pa.ArrowInvalid, OSError) as error:
+        rows = dataset.count_rows()  # reads every part's footer: a corrupt part fails here
+    except (pa.ArrowInvalid, OSError) as error:  # pyarrow's message names the part
         raise DataError(f"{paths[0]}: not a readable Parquet dataset ({str(error).splitlines()[0]})") from None
-    batches = (pa.Table.from_batches([b]) for b in dataset.to_batches(batch_size=batch_rows, use_threads=True))
-    return _plain_schema(dataset.schema), batches, dataset.count_rows()
+
+    def stream() -> Iterator[pa.Table]:
+        try:
+            for batch in dataset.to_batches(batch_size=batch_rows, use_threads=True):
+                yield pa.Table.from_batches([batch])
+        except (pa.ArrowInvalid, OSError) as error:
+            raise DataError(f"{paths[0]}: {str(error).splitlines()[0]}") from None
+
+    return _plain_schema(dataset.schema), stream(), rows
 
 
 def _open_arrow(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:

@@ -31,6 +31,8 @@ def profile_summary(document: dict[str, Any], top: int = 5) -> str:
             head += f"  distinct {min(distinct['value'], max(column['rows'] - nulls, 0)):,}{mark}"
         if column.get("redacted"):
             head += "  [redacted]"
+        if column.get("unsummarised"):
+            head += f"  not summarised ({column['unsummarised']})"
         lines.append(head)
         values = column.get("top", {}).get("values", [])[:top]
         if values:
