@@ -21,7 +21,7 @@ from chainlint.estimate.cost import (
     step_cost,
 )
 from chainlint.estimate.selectivity import Estimate, Estimator
-from chainlint.plan.planner import plan_segment
+from chainlint.plan.planner import EXACT_LIMIT, plan_segment
 from chainlint.plan.totality import ANY, LATER, STAYS, Limit, dtypes_of, judge
 
 
@@ -81,18 +81,31 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
     texts = [step.predicate.canonical() for step in chain.steps]
     joint_steps = _joint_steps(chain, estimator, texts)
     cache: dict[int, float] = {}
+    # Long chains: walks add one step at a time, so a mask is usually the one asked before plus
+    # one step; under independence its rows follow from that one's in O(1) (a run of thousands
+    # of statements would otherwise cost O(k) per mask, O(k^2) per walk).
+    incremental = len(estimates) > EXACT_LIMIT
+    joint_mask = sum(1 << i for i in joint_steps)
+    last = [0]
 
     def rows_after(mask: int) -> float:
         """Rows left after the steps in `mask`: exact joint counts for the steps a joint entry
         covers, independence for the rest."""
-        if mask not in cache:
-            chosen = [i for i in range(len(estimates)) if mask >> i & 1]
-            joined = frozenset(texts[i] for i in chosen if i in joint_steps)
-            share = estimator.joint_share(joined) if joined else None
-            if share is None:
-                share, joined = 1.0, frozenset()
-            rest = math.prod(estimates[i].selectivity for i in chosen if texts[i] not in joined)
-            cache[mask] = total_rows * share * rest
+        previous, last[0] = last[0], mask
+        if mask in cache:
+            return cache[mask]
+        added = mask ^ previous
+        if (incremental and previous in cache and mask & previous == previous and added & (added - 1) == 0
+                and not mask & joint_mask):
+            cache[mask] = cache[previous] * estimates[added.bit_length() - 1].selectivity
+            return cache[mask]
+        chosen = _bits(mask)
+        joined = frozenset(texts[i] for i in chosen if i in joint_steps)
+        share = estimator.joint_share(joined) if joined else None
+        if share is None:
+            share, joined = 1.0, frozenset()
+        rest = math.prod(estimates[i].selectivity for i in chosen if texts[i] not in joined)
+        cache[mask] = total_rows * share * rest
         return cache[mask]
 
     clustered = [estimator.clustering(step.predicate) for step in chain.steps]
@@ -142,6 +155,16 @@ def precedence(segment: list[int], limits: tuple[Limit | None, ...]) -> dict[int
 
 def _moves(limit: Limit | None) -> bool:
     return limit is not None and limit.moves != STAYS
+
+
+def _bits(mask: int) -> list[int]:
+    """The indices of the set bits, in ascending order, in O(set bits) big-integer steps."""
+    found = []
+    while mask:
+        low = mask & -mask
+        found.append(low.bit_length() - 1)
+        mask ^= low
+    return found
 
 
 def _joint_steps(chain: Chain, estimator: Estimator, texts: list[str]) -> set[int]:

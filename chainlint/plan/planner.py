@@ -4,10 +4,13 @@ Under independence, with a per-row cost a_i and a selectivity s_i that do not de
 order, ascending a_i / (1 - s_i) is optimal (rank ordering: Ibaraki & Kameda 1984;
 Krishnamurthy, Boral & Zaniolo 1986; Hellerstein 1998). chainlint's take cost depends on the
 share a step keeps, and joint selectivities may be known, so the planner runs an exact dynamic
-program over subsets (2^k * k) for up to 12 steps, and a greedy rank order beyond.
+program over subsets (2^k * k) for up to 12 steps, a greedy rank order (each step chosen at the
+rows it would receive) up to 64, and beyond that the rank order at the segment's input rows,
+sorted once, so that a run of thousands of statements plans in O(k log k).
 
 Both respect precedence limits: `before[step]`, a bit mask of the steps that must run before
-`step` (a step that may raise on rows an earlier step removes keeps those steps before it).
+`step` (a step that may raise on rows an earlier step removes keeps those steps before it);
+the sorted order is used only for segments without such limits.
 """
 
 from __future__ import annotations
@@ -21,6 +24,7 @@ StepCost = Callable[[int, float, float], float]
 RowsAfter = Callable[[int], float]
 
 EXACT_LIMIT = 12
+GREEDY_LIMIT = 64
 
 
 def order_cost(order: Sequence[int], rows_after: RowsAfter, cost: StepCost) -> float:
@@ -44,6 +48,8 @@ def plan_segment(steps: Sequence[int], rows_after: RowsAfter, cost: StepCost,
     before = before or {}
     if len(steps) <= 1:
         return tuple(steps), order_cost(steps, rows_after, cost)
+    if len(steps) > GREEDY_LIMIT and not any(before.values()):
+        return _sorted(steps, rows_after, cost)
     if len(steps) > EXACT_LIMIT:
         return _greedy(steps, rows_after, cost, before)
     full = 0
@@ -86,3 +92,18 @@ def _greedy(steps: list[int], rows_after: RowsAfter, cost: StepCost, before: Map
         remaining.remove(choice)
         mask |= 1 << choice
     return tuple(order), order_cost(order, rows_after, cost)
+
+
+def _sorted(steps: list[int], rows_after: RowsAfter, cost: StepCost) -> tuple[tuple[int, ...], float]:
+    """Rank order at the segment's input rows: what the greedy order becomes when the fixed cost
+    per step is small against the rows' cost, at O(k log k) instead of O(k^2) rank evaluations."""
+    rows_in = rows_after(0)
+
+    def rank(step: int) -> float:
+        kept = _share(rows_after(1 << step), rows_in)
+        return cost(step, rows_in, kept) / max(1.0 - kept, 1e-12)
+
+    ranks = {step: rank(step) for step in steps}
+    order = sorted(steps, key=lambda s: (ranks[s], s))
+    return tuple(order), order_cost(order, rows_after, cost)
+

@@ -199,6 +199,14 @@ class CsvFile:
         return DataError(f"{path}: {message}")
 
 
+def column_names(schema: pa.Schema, path: str) -> list[str]:
+    """The column names; a header that is not UTF-8 is an error, not a failure to show a name."""
+    try:
+        return schema.names
+    except UnicodeDecodeError as error:
+        raise DataError(f"{path}: a column name is not valid UTF-8 (byte 0x{error.object[error.start]:02x})") from None
+
+
 def open_csv(path: str, options: CsvOptions) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     """(schema, tables of the file's pieces, estimated row count)."""
     size = os.path.getsize(path)
@@ -211,6 +219,7 @@ def open_csv(path: str, options: CsvOptions) -> tuple[pa.Schema, Iterator[pa.Tab
     except StopIteration:
         raise DataError(f"{path}: empty file") from None
     table = reader.parse_first(first, quoted)
+    column_names(table.schema, path)
     binary = [f.name for f in table.schema if pa.types.is_binary(f.type) or pa.types.is_large_binary(f.type)]
     if binary:
         raise DataError(f"{path}: column {binary[0]!r} is not valid UTF-8 text")

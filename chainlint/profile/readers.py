@@ -22,7 +22,7 @@ import pyarrow.ipc as paipc
 import pyarrow.json as pajson
 import pyarrow.parquet as pq
 
-from chainlint.profile.csv_reader import open_csv
+from chainlint.profile.csv_reader import column_names, open_csv
 from chainlint.profile.read_options import CsvOptions
 from chainlint.profile.errors import DataError
 
@@ -212,7 +212,7 @@ def _chain_csv(files: list[str], schema: pa.Schema, first: Iterator[pa.Table], b
 def _check_columns(schema: pa.Schema, path: str) -> None:
     if len(schema) == 0:
         raise DataError(f"{path}: no columns")
-    names = schema.names
+    names = column_names(schema, path)
     duplicates = sorted({n for n in names if names.count(n) > 1})
     if duplicates:
         raise DataError(f"{path}: duplicate column names: {', '.join(repr(n) for n in duplicates)}")
