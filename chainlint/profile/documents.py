@@ -19,6 +19,8 @@ from dataclasses import asdict
 from pathlib import Path
 from typing import Any
 
+from chainlint.profile.format import FORMAT_VERSION
+
 #: Size caps. A profile of 2,000 columns with full sketches and top lists is about 20 MB.
 PROFILE_BYTES = 64 * 1024 * 1024
 SMALL_BYTES = 1024 * 1024
@@ -262,7 +264,7 @@ def _column(value: Any, field: str) -> None:
 _PROFILE = record(
     {
         "format": constant("chainlint-profile"),
-        "format_version": constant(1),
+        "format_version": integer(1),
         "name": text(_NAME),
         "rows": integer(),
         "columns": mapping(_column),
@@ -285,12 +287,13 @@ _PROFILE = record(
 
 
 def check_profile(document: Any, path: Path | str) -> dict[str, Any]:
-    """A parsed profile checked against docs/profile-format.md (version 1)."""
+    """A parsed profile checked against docs/profile-format.md (versions 1 to FORMAT_VERSION)."""
     if not isinstance(document, dict) or document.get("format") != "chainlint-profile":
         raise DocumentError(f"{path}: not a chainlint profile (field format must be \"chainlint-profile\")")
     version = document.get("format_version")
-    if isinstance(version, int) and not isinstance(version, bool) and version > 1:
-        raise DocumentError(f"{path}: profile format version {version} is newer than this chainlint understands (1); upgrade chainlint")
+    if isinstance(version, int) and not isinstance(version, bool) and version > FORMAT_VERSION:
+        raise DocumentError(f"{path}: profile format version {version} is newer than this chainlint understands "
+                            f"({FORMAT_VERSION}); upgrade chainlint")
     return validated(document, path, _PROFILE)
 
 
