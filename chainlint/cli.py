@@ -373,7 +373,10 @@ def profiles(context: click.Context, store: str | None) -> None:
     context.obj = store
     if context.invoked_subcommand is None:
         context.obj = _store(store)
-        found = list_profiles(context.obj)
+        try:
+            found = list_profiles(context.obj)
+        except StoreError as error:
+            _fail(str(error))
         if not found:
             click.echo(f"no profiles in {context.obj}")
         failed = False

@@ -49,14 +49,15 @@ def find_config(start: Path) -> tuple[Path, dict[str, Any]] | None:
         folder = start.resolve()
     except (OSError, RuntimeError):  # a symbolic link loop: look upward from where it lies
         folder = Path(os.path.abspath(start))
-    if not folder.is_dir():
+    # os.path's tests answer False where this user may not look; Path's raise PermissionError.
+    if not os.path.isdir(folder):
         folder = folder.parent
     for candidate in (folder, *folder.parents):
         dedicated = candidate / "chainlint.toml"
-        if dedicated.is_file():
+        if os.path.isfile(dedicated):
             return dedicated, _read(dedicated)
         pyproject = candidate / "pyproject.toml"
-        if pyproject.is_file():
+        if os.path.isfile(pyproject):
             tool = _read(pyproject).get("tool", {})
             if not isinstance(tool, dict):
                 raise ConfigError(f"{pyproject}: `tool` must be a table")

@@ -67,3 +67,11 @@ def test_corrupt_part_of_a_parquet_folder_is_named(tmp_path: Path) -> None:
     code, output = _profile(tmp_path, folder)
     assert code == 2 and output.startswith(f"chainlint: error: {folder}: ") and "p1.parquet" in output
     assert not (tmp_path / "store" / "profiles" / "p.json").exists()
+
+
+def test_column_names_with_line_breaks_cannot_forge_summary_lines(tmp_path: Path) -> None:
+    data = tmp_path / "d.parquet"
+    pq.write_table(pa.table({"a\nforged: line": [1, 2, 3] * 5}), data)
+    assert _profile(tmp_path, data)[0] == 0
+    shown = CliRunner().invoke(main, ["profiles", "--store", str(tmp_path / "store"), "show", "p"]).output
+    assert "a\\nforged: line  (int64)" in shown and not any(line.startswith("forged") for line in shown.splitlines())

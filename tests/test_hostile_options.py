@@ -22,7 +22,7 @@ def _run(*args: str, cwd: Path | None = None) -> tuple[int, str]:
         result = CliRunner().invoke(main, list(args))
     finally:
         os.chdir(previous)
-    assert result.exception is None or isinstance(result.exception, SystemExit), repr(result.exception)
+    assert result.exception is None or isinstance(result.exception, SystemExit), "".join(__import__("traceback").format_exception(result.exception))
     return result.exit_code, result.output
 
 
@@ -126,3 +126,29 @@ def test_workers_are_capped_at_files_and_cores(tmp_path: Path, monkeypatch: pyte
     monkeypatch.setattr(run.os, "cpu_count", lambda: 2)
     results = run.analyse_files(sorted(str(p) for p in tmp_path.iterdir()), jobs=64)
     assert len(results) == 20 and started == [2]
+
+
+def test_denied_store_or_path_is_reported_not_taken_as_empty(project: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """Tests run as root, whom file modes do not stop: the system's answer to another user is
+    stood in for. A store whose profiles cannot be listed must not pass as one without profiles."""
+    denied = {str(project / ".chainlint" / "profiles"), str(project / "secret")}
+    real_listdir, real_stat = os.listdir, os.stat
+
+    def listdir(path):  # type: ignore[no-untyped-def]
+        if str(path) in denied:
+            raise PermissionError(13, "Permission denied", str(path))
+        return real_listdir(path)
+
+    def stat(path, *args, **kwargs):  # type: ignore[no-untyped-def]
+        if str(path).startswith(str(project / "secret")):
+            raise PermissionError(13, "Permission denied", str(path))
+        return real_stat(path, *args, **kwargs)
+
+    monkeypatch.setattr(os, "listdir", listdir)
+    code, output = _run("check", str(project / "m.py"), "--store", str(project / ".chainlint"))
+    assert code == 2 and "cannot list the profiles: Permission denied" in output
+    code, output = _run("profiles", "--store", str(project / ".chainlint"))
+    assert code == 2 and "cannot list the profiles: Permission denied" in output
+    monkeypatch.setattr(os, "stat", stat)
+    code, output = _run("explain", str(project / "secret" / "x.py"))
+    assert code == 2 and "secret/x.py:1:1: error: cannot read this path: Permission denied" in output

@@ -34,7 +34,10 @@ def load_store(store: Path) -> ProfileSet:
     Loaded once per state of the store's files (names, sizes, modification times), so a
     long-running process sees a re-profiled or recalibrated store without restarting.
     """
-    files = [*list_profiles(store), store / "config.json", store / COST_MODEL_FILE]
+    try:
+        files = [*list_profiles(store), store / "config.json", store / COST_MODEL_FILE]
+    except StoreError as error:
+        return ProfileSet(store, errors=(str(error),))
     signature = []
     for path in files:
         try:

@@ -122,6 +122,12 @@ def discover(paths: Sequence[str], exclude: Iterable[str] = ()) -> Discovered:
             message = "no such file or folder" if not os.path.lexists(given) else "cannot read this path"
             if os.path.islink(given) and not os.path.exists(given):
                 message = "broken or looping symbolic link"
+            try:
+                os.stat(given)
+            except PermissionError as error:  # a folder on the way that this user may not enter
+                message = f"cannot read this path: {error.strerror}"
+            except OSError:
+                pass
             found.errors.append(DiscoveryError(given, message))
             continue
         root = _repository_root(given)

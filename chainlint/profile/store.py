@@ -42,11 +42,12 @@ def find_store(start: str | os.PathLike[str] = ".") -> Path:
 def project_root(start: str | os.PathLike[str] = ".") -> Path:
     """The folder of the store `find_store` finds: the project whose code and data go together."""
     start_path = Path(os.path.abspath(start))  # a linked module belongs to the project it is linked into
-    if start_path.is_file():
+    # os.path's tests answer False where this user may not look; Path's raise PermissionError.
+    if os.path.isfile(start_path):
         start_path = start_path.parent
     for marker in (STORE_FOLDER, "pyproject.toml", ".git"):
         for folder in (start_path, *start_path.parents):
-            if (folder / marker).is_dir() if marker == STORE_FOLDER else (folder / marker).exists():
+            if os.path.isdir(folder / marker) if marker == STORE_FOLDER else os.path.exists(folder / marker):
                 return folder
     return start_path
 
@@ -102,8 +103,16 @@ def save_profile(store: Path, document: dict[str, Any]) -> tuple[Path, bool]:
 
 
 def list_profiles(store: Path) -> list[Path]:
+    """The store's profile files; a folder that cannot be listed is an error, not an empty store
+    (`Path.glob` says nothing when it is denied)."""
     folder = store / "profiles"
-    return sorted(folder.glob("*.json")) if folder.is_dir() else []
+    if not os.path.isdir(folder):
+        return []
+    try:
+        names = os.listdir(folder)
+    except OSError as error:
+        raise StoreError(f"{folder}: cannot list the profiles: {error.strerror or error}") from None
+    return sorted(folder / name for name in names if name.endswith(".json") and not name.startswith("."))
 
 
 def redaction_key(store: Path, create: bool) -> bytes:

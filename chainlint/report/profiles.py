@@ -5,11 +5,13 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
+from chainlint.report.escape import printable
+
 
 def profile_line(path: Path, document: dict[str, Any]) -> str:
     files = document["source"]["files"]
     shown = files[0]["path"] + (f" and {len(files) - 1} more" if len(files) > 1 else "")
-    return f"{document['name']:<24} {document['rows']:>12,} rows  {len(document['columns']):>3} columns  from {shown}  ({document['created']})"
+    return printable(f"{document['name']:<24} {document['rows']:>12,} rows  {len(document['columns']):>3} columns  from {shown}  ({document['created']})")
 
 
 def profile_summary(document: dict[str, Any], top: int = 5) -> str:
@@ -40,4 +42,4 @@ def profile_summary(document: dict[str, Any], top: int = 5) -> str:
             lines.append(f"    top: {shares}")
         if "min" in column:
             lines.append(f"    range: {column['min']} .. {column['max']}")
-    return "\n".join(lines) + "\n"
+    return "".join(printable(line) + "\n" for line in lines)  # a column name may hold a line break
