@@ -17,7 +17,7 @@ from chainlint.analysis.check import CheckResult
 from chainlint.analysis.model import Cell, FileError
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import command_flags, options_from_code
-from chainlint.profile.store import list_profiles
+from chainlint.profile.store import StoreError, list_profiles
 from chainlint.report.escape import encodable, printable
 from chainlint.report.explain import cell_record, error_record
 from chainlint.rules import Finding
@@ -96,6 +96,14 @@ def check_summary(result: CheckResult, fixed: int = 0) -> str:
     return text + "".join("\n" + printable(line) for line in unplanned_lines(result))
 
 
+def _listed(store: Path) -> bool:
+    """Whether the store lists profiles; one that cannot be listed is already an error."""
+    try:
+        return bool(list_profiles(store))
+    except StoreError:
+        return True
+
+
 def unplanned_lines(result: CheckResult) -> list[str]:
     """Why chains were not planned, naming the store once, and the command that would make a
     profile for them: so that a repository without profiles does not read as all good."""
@@ -117,7 +125,7 @@ def unplanned_record(result: CheckResult) -> dict[str, Any] | None:
     stores = sorted({shown_path(c.store) for c in unbound if c.store is not None})
     where = stores[0] if len(stores) == 1 else f"{len(stores)} stores"
     count = f"{len(unbound)} chain{'s' if len(unbound) != 1 else ''}"
-    if all(c.store is not None and not list_profiles(c.store) for c in unbound):
+    if all(c.store is not None and not _listed(c.store) for c in unbound):
         summary = f"{count} not planned: no profile in {where}"
     else:
         summary = (f"{count} not planned: no profile in {where} describes {'them' if len(unbound) != 1 else 'it'} "
