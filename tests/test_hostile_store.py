@@ -65,7 +65,7 @@ MUTATIONS = [
     (("name",), "../x", "field name:"),
     (("columns",), [], "field columns: must be an object"),
     (("source",), _DELETE, "field source: is missing"),
-    (("source", "files"), [], "field source.files: must hold at least 1 item"),
+    (("source", "files"), {}, "field source.files: must be a list"),
     (("source", "files", 0, "path"), "a\x00b", "field source.files[0].path"),
     (("settings", "min_count"), 0, "field settings.min_count: must be at least 1"),
     (("created",), 5, "field created: must be a string"),

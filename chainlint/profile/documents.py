@@ -269,7 +269,7 @@ _PROFILE = record(
         "rows": integer(),
         "columns": mapping(_column),
         "source": record(
-            {"kind": text(limit=100), "files": listing(record({"path": text(_PATH)}, {"bytes": integer()}), least=1),
+            {"kind": text(limit=100), "files": listing(record({"path": text(_PATH)}, {"bytes": integer()})),
              "fingerprint": text(limit=200)},
             {"merged_from": listing(text(_NAME))},
         ),

@@ -10,7 +10,7 @@ from chainlint.report.escape import printable
 
 def profile_line(path: Path, document: dict[str, Any]) -> str:
     files = document["source"]["files"]
-    shown = files[0]["path"] + (f" and {len(files) - 1} more" if len(files) > 1 else "")
+    shown = (files[0]["path"] + (f" and {len(files) - 1} more" if len(files) > 1 else "")) if files else f"a {document['source']['kind']} frame"
     return printable(f"{document['name']:<24} {document['rows']:>12,} rows  {len(document['columns']):>3} columns  from {shown}  ({document['created']})")
 
 
