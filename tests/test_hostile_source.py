@@ -141,7 +141,7 @@ def test_long_segments_sort_by_rank_as_the_greedy_order_does_without_a_fixed_cos
     def cost(step: int, rows_in: float, kept: float) -> float:
         return rows_in * per_row[step]
 
-    assert _sorted(steps, rows_after, cost)[0] == _greedy(steps, rows_after, cost)[0]
+    assert _sorted(steps, rows_after, cost)[0] == _greedy(steps, rows_after, cost, {})[0]
 
 
 def test_a_run_of_thousands_of_statements_plans_in_near_linear_work(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
