@@ -28,6 +28,7 @@ from chainlint.lsp.fixes import Fix, fixes_for
 from chainlint.lsp.protocol import ChainlintProtocol
 from chainlint.parse.source import DEFAULT_MAX_BYTES
 from chainlint.rules import LEVELS
+from chainlint.units import duration
 
 DEBOUNCE_SECONDS = 0.025
 logger = logging.getLogger("chainlint.lsp")
@@ -196,7 +197,7 @@ def plan_markdown(item: PlannedChain) -> str:
     plan = item.plan
     lines = [
         f"**chainlint**: chain on `{chain.frame}`, profile `{plan.binding.profile}`, {plan.rows:,} rows: "
-        f"written {plan.written_seconds * 1e3:.1f} ms, planned {plan.planned_seconds * 1e3:.1f} ms ({plan.speedup:.2f}x)",
+        f"written {duration(plan.written_seconds)}, planned {duration(plan.planned_seconds)} ({plan.speedup:.2f}x)",
         "",
         "| order | step | predicate | rows in | rows out | keeps | basis | time |",
         "| --- | --- | --- | ---: | ---: | ---: | --- | ---: |",
@@ -207,7 +208,7 @@ def plan_markdown(item: PlannedChain) -> str:
             predicate = step.predicate.canonical().replace("|", "\\|")
             lines.append(
                 f"| {name} | {estimate.step + 1} | `{predicate}` | {estimate.rows_in:,.0f} | {estimate.rows_out:,.0f} | "
-                f"{estimate.selectivity:.1%} | {estimate.basis} | {estimate.seconds * 1e3:.1f} ms |"
+                f"{estimate.selectivity:.1%} | {estimate.basis} | {duration(estimate.seconds)} |"
             )
     return "\n".join(lines)
 

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import ast
 import json
+import re
 from collections.abc import Sequence
 from typing import Any
 
@@ -10,7 +12,9 @@ from chainlint.analysis.check import PlannedChain
 from chainlint.analysis.model import Cell, Chain, FileAnalysis, FileError, Step
 from chainlint.plan.chains import ChainPlan
 from chainlint.plan.totality import ANY, LATER, STAYS, Limit
+from chainlint.ir import Node
 from chainlint.report.escape import encodable, printable
+from chainlint.units import duration
 
 
 def step_record(step: Step) -> dict[str, Any]:
@@ -81,8 +85,8 @@ def planned_record(item: PlannedChain) -> dict[str, Any]:
             limit=limit.reason if limit else step["reason"],
             selectivity=round(estimate.selectivity, 6),
             basis=estimate.basis,
-            rows_in=round(estimate.rows_in, 1),
-            rows_out=round(estimate.rows_out, 1),
+            rows_in=round(estimate.rows_in),
+            rows_out=round(estimate.rows_out),
             seconds=round(estimate.seconds, 6),
         )
     return record
@@ -108,14 +112,19 @@ def _plan_text(item: PlannedChain) -> str:
     lines += _order_table("written", plan, plan.written)
     lines += _order_table("planned", plan, plan.planned)
     lines.append(
-        f"  written {_ms(plan.written_seconds)}, planned {_ms(plan.planned_seconds)} "
-        f"({plan.speedup:.2f}x), fused into one mask {_ms(plan.fused_seconds)}"
+        f"  written {duration(plan.written_seconds)}, planned {duration(plan.planned_seconds)} "
+        f"({plan.speedup:.2f}x), fused into one mask {duration(plan.fused_seconds)}"
     )
     return "\n".join(lines) + "\n"
 
 
-def _ms(seconds: float) -> str:
-    return f"{seconds * 1e3:.1f} ms"
+def readable(predicate: Node) -> str:
+    """The canonical text for people: code chainlint does not follow is shown as written, in
+    backticks, not as the `opaque('...')` of the canonical form (the step's reason says why)."""
+    return _OPAQUE.sub(lambda m: f"`{ast.literal_eval(m.group(1))}`", predicate.canonical())
+
+
+_OPAQUE = re.compile(r"opaque\(('(?:[^'\\]|\\.)*'|\"(?:[^\"\\]|\\.)*\")\)")
 
 
 def _order_table(title: str, plan: ChainPlan, estimates) -> list[str]:  # type: ignore[no-untyped-def]
@@ -127,7 +136,7 @@ def _order_table(title: str, plan: ChainPlan, estimates) -> list[str]:  # type: 
             f"{estimate.rows_out:,.0f}",
             f"{estimate.selectivity:.2%}",
             estimate.basis,
-            _ms(estimate.seconds),
+            duration(estimate.seconds),
         ))
     widths = [max(len(r[i]) for r in rows) for i in range(6)]
     aligned = []
@@ -159,7 +168,7 @@ def _chain_text(chain: Chain, limits: Sequence[Limit | None] = ()) -> str:
     rows = [("#", "at", "kind", "moves", "predicate")]
     notes: dict[int, str] = {}
     for number, step in enumerate(chain.steps, start=1):
-        rows.append((str(number), f"{step.span.line}:{step.span.column}", step.kind, moves[number - 1], printable(step.predicate.canonical())))
+        rows.append((str(number), f"{step.span.line}:{step.span.column}", step.kind, moves[number - 1], printable(readable(step.predicate))))
         if reasons[number - 1]:
             notes[number] = printable(reasons[number - 1])  # type: ignore[arg-type]
     widths = [max(len(row[i]) for row in rows) for i in range(4)]
