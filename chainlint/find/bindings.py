@@ -187,7 +187,7 @@ class ModuleBindings(ScopeTable):
         if isinstance(expr, ast.Name):
             return self._name(expr.id, scope)
         if isinstance(expr, ast.Attribute):
-            dotted = _dotted(expr)
+            dotted = dotted_name(expr)
             if dotted is not None:
                 head, _, attribute = dotted.partition(".")
                 return self._attribute(head, attribute, scope, dotted)
@@ -256,7 +256,7 @@ class ModuleBindings(ScopeTable):
 
     def _qualified(self, func: ast.expr, scope: Scope) -> tuple[str, str] | None:
         """`("pandas", "Timestamp")` for `pd.Timestamp` (or `Timestamp` imported from pandas)."""
-        dotted = _dotted(func)
+        dotted = dotted_name(func)
         if dotted is None:
             return None
         head, _, rest = dotted.partition(".")
@@ -335,7 +335,8 @@ def fold(op: ast.operator, left: object, right: object) -> object | None:
     return result
 
 
-def _dotted(expr: ast.expr) -> str | None:
+def dotted_name(expr: ast.expr) -> str | None:
+    """`a.b.c` for a chain of attributes on a name, else None."""
     parts = []
     while isinstance(expr, ast.Attribute):
         parts.append(expr.attr)

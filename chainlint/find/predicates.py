@@ -13,7 +13,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from chainlint.analysis.model import Barrier
-from chainlint.find.bindings import Resolved
+from chainlint.find.bindings import Resolved, dotted_name
 from chainlint.find.barriers import (
     FRAME_ATTRIBUTES,
     NOT_COLUMNS,
@@ -416,16 +416,6 @@ def _negate(node: Node) -> Node:
     return Not(node)
 
 
-def dotted_name(expr: ast.expr) -> str | None:
-    """`a.b.c` for a chain of attributes on a name, else None."""
-    parts = []
-    while isinstance(expr, ast.Attribute):
-        parts.append(expr.attr)
-        expr = expr.value
-    if not isinstance(expr, ast.Name):
-        return None
-    parts.append(expr.id)
-    return ".".join(reversed(parts))
 
 
 def _prefixes(dotted: str) -> list[str]:

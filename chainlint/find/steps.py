@@ -12,9 +12,9 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from chainlint.analysis.model import Barrier, Span, Step
-from chainlint.find.bindings import VALUE, VALUES, Resolved
 from chainlint.find.barriers import FRAME_ATTRIBUTES, NOT_COLUMNS
-from chainlint.find.predicates import Converted, Dialect, convert, dotted_name
+from chainlint.find.bindings import VALUE, VALUES, Resolved, dotted_name
+from chainlint.find.predicates import Converted, Dialect, convert
 from chainlint.find.query import convert_query
 from chainlint.find.values import settle
 from chainlint.ir import Column, Compare, Literal, Node, Not, NullTest, Opaque, RowNulls, make_and, make_or
