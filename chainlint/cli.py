@@ -18,7 +18,7 @@ import click
 from chainlint import __version__
 from chainlint.analysis.check import FAILING, RULES, Options, options_from, plan_results
 from chainlint.analysis.check import check as run_check
-from chainlint.analysis.model import FileError
+from chainlint.model import FileError, Finding
 from chainlint.analysis.run import analyse_files
 from chainlint.analysis.profiled import chains_for, code_read_options, project_chains
 from chainlint.cli_csv import csv_from, csv_options
@@ -57,7 +57,6 @@ from chainlint.report.escape import printable
 from chainlint.report.explain import all_errors, explain_json, explain_text, summary
 from chainlint.report.profiles import profile_line, profile_summary
 from chainlint.report.sarif import check_sarif
-from chainlint.rules import Finding
 from chainlint.writer import WriteError, remove_stale_temporaries, write_file
 
 EXIT_OK, EXIT_FINDINGS, EXIT_ERROR = 0, 1, 2

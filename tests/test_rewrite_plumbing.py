@@ -10,11 +10,11 @@ from pathlib import Path
 import pytest
 
 from chainlint.analysis.run import analyse_file, analyse_source
+from chainlint.model import Finding
 from chainlint.parse.source import text_source
 from chainlint.rewrite.fixes import attach_fixes
 from chainlint.rewrite.permute import RewriteError, apply_edits, chain_edit
 from chainlint.rewrite.verify import verify
-from chainlint.rules import Finding
 
 
 def _rewrite(before: str, order: tuple[int, ...], index: int = 0) -> str:

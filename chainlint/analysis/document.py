@@ -24,7 +24,7 @@ from pathlib import Path
 from typing import Any
 
 from chainlint.analysis.check import Options, PlannedChain, apply_rules, plan_results
-from chainlint.analysis.model import FileAnalysis, FileError, Span
+from chainlint.model import FileAnalysis, FileError, Finding, Span
 from chainlint.analysis.run import analyse_source
 from chainlint.bind.profiles import load_store
 from chainlint.estimate.selectivity import Estimator
@@ -35,7 +35,6 @@ from chainlint.find.screen import Seams, find_seams
 from chainlint.analysis.reparse import Reparser
 from chainlint.parse.source import DEFAULT_MAX_BYTES, SourceError, SourceText, size_error, text_source
 from chainlint.profile.store import find_store
-from chainlint.rules import Finding
 
 
 @dataclass(frozen=True)

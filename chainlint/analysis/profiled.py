@@ -7,10 +7,10 @@ import fnmatch
 from collections.abc import Sequence
 from pathlib import Path
 
-from chainlint.analysis.model import Chain
 from chainlint.analysis.run import analyse_files
 from chainlint.config import Config
 from chainlint.discover import discover
+from chainlint.model import Chain
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import CsvOptions, options_from_code
 

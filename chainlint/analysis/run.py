@@ -9,9 +9,9 @@ from collections.abc import Iterable, Sequence
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import replace
 
-from chainlint.analysis.model import Cell, CellLines, FileAnalysis, FileError
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import find_seams
+from chainlint.model import Cell, CellLines, FileAnalysis, FileError
 from chainlint.notebook.cells import Notebook, is_notebook, notebook_from_text
 from chainlint.parse.source import (
     DEFAULT_MAX_BYTES,

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from chainlint.analysis.model import Chain
+from chainlint.model import Chain
 
 
 def chain_site(chain: Chain, root: Path) -> str:

@@ -15,8 +15,8 @@ import os
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from chainlint.analysis.model import Chain
 from chainlint.bind.profiles import ProfileSet
+from chainlint.model import Chain
 
 
 @dataclass(frozen=True)

@@ -10,7 +10,7 @@ from __future__ import annotations
 import ast
 from dataclasses import dataclass, replace
 
-from chainlint.analysis.model import Barrier, Chain, Span, Step
+from chainlint.model import Barrier, Chain, Span, Step
 from chainlint.find.bindings import ModuleBindings, Resolved
 from chainlint.find.origins import Origins, keep_comment, profile_comment
 from chainlint.find.predicates import dotted_name

@@ -12,8 +12,8 @@ import re
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
-from chainlint.analysis.model import FrameOrigin
 from chainlint.find.bindings import VALUE, Resolved
+from chainlint.model import FrameOrigin
 
 PROFILE_COMMENT = re.compile(r"#\s*chainlint:\s*profile\s*=\s*([A-Za-z0-9][A-Za-z0-9_.\-]*)")
 READERS = frozenset({"read_csv", "read_parquet", "read_feather", "read_json"})

@@ -12,7 +12,7 @@ import ast
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
-from chainlint.analysis.model import Barrier
+from chainlint.model import Barrier
 from chainlint.find.bindings import Resolved, dotted_name
 from chainlint.find.barriers import (
     FRAME_ATTRIBUTES,

@@ -11,9 +11,9 @@ from __future__ import annotations
 import ast
 import bisect
 
-from chainlint.analysis.model import Barrier
 from chainlint.find.predicates import Converted, Dialect, convert
 from chainlint.ir import Opaque
+from chainlint.model import Barrier
 
 
 class _Rewritten:

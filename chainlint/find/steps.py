@@ -11,13 +11,13 @@ import ast
 from collections.abc import Callable
 from dataclasses import dataclass
 
-from chainlint.analysis.model import Barrier, Span, Step
 from chainlint.find.barriers import FRAME_ATTRIBUTES, NOT_COLUMNS
 from chainlint.find.bindings import VALUE, VALUES, Resolved, dotted_name
 from chainlint.find.predicates import Converted, Dialect, convert
 from chainlint.find.query import convert_query
 from chainlint.find.values import settle
 from chainlint.ir import Column, Compare, Literal, Node, Not, NullTest, Opaque, RowNulls, make_and, make_or
+from chainlint.model import Barrier, Span, Step
 
 _MASK_TOPS = (ast.Compare, ast.BinOp, ast.UnaryOp, ast.Call)
 #: `query` keywords that change where the names of the text resolve.

@@ -14,7 +14,6 @@ from __future__ import annotations
 import ast
 from collections.abc import Callable
 
-from chainlint.analysis.model import Barrier
 from chainlint.find.bindings import SCALAR, VALUE, VALUES, Resolved, fold
 from chainlint.ir import (
     And,
@@ -30,6 +29,7 @@ from chainlint.ir import (
     Range,
     StrTest,
 )
+from chainlint.model import Barrier
 
 Resolver = Callable[[str], Resolved]
 _OPS = {"+": ast.Add(), "-": ast.Sub(), "*": ast.Mult(), "/": ast.Div(), "//": ast.FloorDiv(), "%": ast.Mod(), "**": ast.Pow()}

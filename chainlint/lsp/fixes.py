@@ -19,12 +19,11 @@ from typing import Any
 
 from chainlint.analysis.check import PlannedChain
 from chainlint.analysis.document import DocumentAnalysis
-from chainlint.analysis.model import Chain, Span
 from chainlint.find.origins import KEEP_COMMENT, keep_comment
+from chainlint.model import Chain, Edit, Finding, Span
 from chainlint.parse.source import SourceText
 from chainlint.rewrite.fixes import fix_in_text
-from chainlint.rewrite.permute import Edit, RewriteError
-from chainlint.rules import Finding
+from chainlint.rewrite.permute import RewriteError
 
 
 @dataclass(frozen=True)

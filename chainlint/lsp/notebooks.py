@@ -17,13 +17,12 @@ from urllib.parse import unquote, urlparse
 from lsprotocol import types
 
 from chainlint.analysis.check import Options, PlannedChain, apply_rules, plan_results
-from chainlint.analysis.model import Span
 from chainlint.analysis.run import analyse_notebook
+from chainlint.model import Edit, Finding, Span
 from chainlint.notebook.cells import notebook_from_cells
 from chainlint.parse.source import SourceText
 from chainlint.rewrite.fixes import fix_in_text
-from chainlint.rewrite.permute import Edit, RewriteError
-from chainlint.rules import Finding
+from chainlint.rewrite.permute import RewriteError
 
 logger = logging.getLogger("chainlint.lsp")
 SEVERITY = {"unbound": types.DiagnosticSeverity.Information}

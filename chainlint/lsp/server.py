@@ -21,11 +21,11 @@ from pygls.lsp.server import LanguageServer
 
 from chainlint import __version__
 from chainlint.analysis.check import PlannedChain
-from chainlint.analysis.model import Span
 from chainlint.lsp import notebooks
 from chainlint.lsp.documents import Documents, DocumentState, options_for
 from chainlint.lsp.fixes import Fix, fixes_for
 from chainlint.lsp.protocol import ChainlintProtocol
+from chainlint.model import Span
 from chainlint.parse.source import DEFAULT_MAX_BYTES
 from chainlint.rules import LEVELS
 from chainlint.units import duration

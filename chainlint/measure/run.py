@@ -15,9 +15,9 @@ from dataclasses import dataclass
 import pandas as pd
 import pyarrow as pa
 
-from chainlint.analysis.model import Chain
 from chainlint.evaluate.pandas_masks import apply_step
 from chainlint.evaluate.support import unevaluable
+from chainlint.model import Chain
 from chainlint.profile.readers import CsvOptions, open_dataset
 
 

@@ -14,9 +14,9 @@ from typing import Any
 import pyarrow as pa
 
 from chainlint.analysis.check import PlannedChain
-from chainlint.analysis.model import Chain
 from chainlint.bind.binding import Binding
 from chainlint.estimate.selectivity import Estimator
+from chainlint.model import Chain
 from chainlint.plan.chains import ChainPlan, plan_chain
 from chainlint.profile.build import profile_dataset
 from chainlint.profile.columns import Settings

@@ -12,8 +12,7 @@ from collections.abc import Sequence
 from dataclasses import replace
 
 from chainlint.analysis.check import CheckResult, PlannedChain
-from chainlint.analysis.model import Cell, CellLines, Chain, FileAnalysis, Span
-from chainlint.rules import Finding
+from chainlint.model import Cell, CellLines, Chain, FileAnalysis, Finding, Span
 
 
 class _Map:

@@ -18,12 +18,11 @@ import shlex
 from pathlib import Path
 from typing import Any
 
-from chainlint.analysis.model import Chain
 from chainlint.analysis.run import analyse_source
+from chainlint.model import Chain, Edit
 from chainlint.notebook.cells import analysable
 from chainlint.notebook.live import MagicError, measure_text, plan_on_frame, profile_into_store
 from chainlint.parse.source import text_source
-from chainlint.rewrite.permute import Edit
 
 _PARSER = argparse.ArgumentParser(prog="%%chainlint", add_help=False, exit_on_error=False)
 _PARSER.add_argument("--time", action="store_true", help="also time both orders on the live frame")

@@ -13,8 +13,9 @@ import json
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+from chainlint.model import Edit
 from chainlint.notebook.cells import CodeCell, Notebook, cell_source
-from chainlint.rewrite.permute import Edit, RewriteError
+from chainlint.rewrite.permute import RewriteError
 
 _SPACE = " \t\r\n"
 _DECODER = json.JSONDecoder()

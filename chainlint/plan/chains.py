@@ -11,7 +11,6 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from chainlint.analysis.model import Chain
 from chainlint.bind.binding import Binding
 from chainlint.estimate.cost import (
     DEFAULT_MODEL,
@@ -21,6 +20,7 @@ from chainlint.estimate.cost import (
     step_cost,
 )
 from chainlint.estimate.selectivity import Estimate, Estimator
+from chainlint.model import Chain
 from chainlint.plan.planner import EXACT_LIMIT, plan_segment
 from chainlint.plan.totality import ANY, LATER, STAYS, Limit, dtypes_of, judge
 

@@ -21,11 +21,11 @@ from pathlib import Path
 import numpy as np
 import pyarrow as pa
 
-from chainlint.analysis.model import Chain
 from chainlint.analysis.sites import chain_site
 from chainlint.evaluate.arrow_masks import bit_mask
 from chainlint.evaluate.support import NotEvaluable, unevaluable
 from chainlint.ir import Node
+from chainlint.model import Chain
 from chainlint.profile.privacy import hide_small_cells
 
 MAX_STEPS = 12

@@ -14,13 +14,12 @@ from pathlib import Path
 from typing import Any
 
 from chainlint.analysis.check import CheckResult
-from chainlint.analysis.model import Cell, FileError
+from chainlint.model import Cell, FileError, Finding
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import command_flags, options_from_code
 from chainlint.profile.store import StoreError, list_profiles
 from chainlint.report.escape import encodable, printable
 from chainlint.report.explain import cell_record, error_record
-from chainlint.rules import Finding
 
 
 def cell_prefix(cell: Cell | None) -> str:

@@ -9,7 +9,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from chainlint.analysis.check import PlannedChain
-from chainlint.analysis.model import Cell, Chain, FileAnalysis, FileError, Step
+from chainlint.model import Cell, Chain, FileAnalysis, FileError, Step
 from chainlint.plan.chains import ChainPlan
 from chainlint.plan.totality import ANY, LATER, STAYS, Limit
 from chainlint.ir import Node

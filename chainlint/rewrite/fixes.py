@@ -15,15 +15,14 @@ from collections import defaultdict
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
 
-from chainlint.analysis.model import Chain, FileAnalysis
 from chainlint.analysis.run import text_digest
+from chainlint.model import Chain, Edit, FileAnalysis, Finding
 from chainlint.notebook.cells import is_notebook, notebook_from_text
 from chainlint.notebook.rewrite import rewrite_cells
 from chainlint.parse.source import SourceError, SourceText, decode_source, read_source, text_source
 from chainlint.report.escape import printable
-from chainlint.rewrite.permute import Edit, RewriteError, apply_edits, chain_edit
+from chainlint.rewrite.permute import RewriteError, apply_edits, chain_edit
 from chainlint.rewrite.verify import verify
-from chainlint.rules import Finding
 from chainlint.writer import WriteError, read_snapshot, write_file
 
 

@@ -19,7 +19,7 @@ import re
 from dataclasses import dataclass
 from functools import lru_cache
 
-from chainlint.analysis.model import Chain, Span, Step
+from chainlint.model import Chain, Edit, Span, Step
 from chainlint.parse.source import SourceText
 
 #: What may follow a step on its line for the line's comment to be the step's.
@@ -31,16 +31,6 @@ _RUN_PREFIX = re.compile(r"[ \t]*[\w.]+[ \t]*=[ \t]*[\w.]+[ \t]*")
 
 class RewriteError(Exception):
     """A chain that cannot be rewritten safely; the message says why."""
-
-
-@dataclass(frozen=True)
-class Edit:
-    """Replace characters `start`..`end` of the file's text (0-based offsets) with `text`."""
-
-    start: int
-    end: int
-    text: str
-    span: Span
 
 
 def _offset(source: SourceText, line: int, column: int) -> int:

@@ -19,9 +19,9 @@ from collections.abc import Sequence
 
 import libcst
 
-from chainlint.analysis.model import Chain, Span
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import find_seams
+from chainlint.model import Chain, Span
 from chainlint.parse.source import SourceError, SourceText, parse_tree, text_source
 from chainlint.rewrite.permute import RewriteError
 

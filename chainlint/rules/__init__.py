@@ -1,7 +1,7 @@
 """Rules: each looks at analysed and planned chains and returns findings. One rule a module."""
 
 from chainlint.rules import joint_uncounted, missing_profile, never_matches, reorder, stale_joint, unbound, unknown_column
-from chainlint.rules.base import Finding, RuleContext
+from chainlint.rules.base import RuleContext
 
 #: Every rule module, in the order rules are listed to users (and in SARIF `tool.driver.rules`).
 CATALOG = (reorder, never_matches, unknown_column, missing_profile, stale_joint, joint_uncounted, unbound)
@@ -10,5 +10,5 @@ CATALOG = (reorder, never_matches, unknown_column, missing_profile, stale_joint,
 #: output and the language server's diagnostics both read.
 LEVELS = {module.NAME: module.LEVEL for module in CATALOG}
 
-__all__ = ["CATALOG", "LEVELS", "Finding", "RuleContext", "joint_uncounted", "missing_profile", "never_matches", "reorder",
+__all__ = ["CATALOG", "LEVELS", "RuleContext", "joint_uncounted", "missing_profile", "never_matches", "reorder",
            "stale_joint", "unbound", "unknown_column"]

@@ -5,8 +5,8 @@ the code computes, a chain written after the profile)."""
 from __future__ import annotations
 
 from chainlint.estimate.selectivity import Estimator
+from chainlint.model import Finding
 from chainlint.plan.chains import ChainPlan
-from chainlint.rules.base import Finding
 from chainlint.rules.stale_joint import gap
 
 NAME = "joint-uncounted"

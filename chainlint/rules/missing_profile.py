@@ -4,9 +4,8 @@ nothing while the run looks clean."""
 
 from __future__ import annotations
 
-from chainlint.analysis.model import Chain
 from chainlint.bind.binding import Binding
-from chainlint.rules.base import Finding
+from chainlint.model import Chain, Finding
 
 NAME = "missing-profile"
 LEVEL = "error"

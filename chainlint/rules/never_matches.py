@@ -6,8 +6,8 @@ import difflib
 
 from chainlint.estimate.selectivity import Estimator
 from chainlint.ir import And, Column, Compare, Literal, Member, Node, Not, Or
+from chainlint.model import Finding
 from chainlint.plan.chains import ChainPlan
-from chainlint.rules.base import Finding
 
 NAME = "never-matches"
 LEVEL = "warning"

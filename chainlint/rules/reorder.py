@@ -2,8 +2,9 @@
 
 from __future__ import annotations
 
+from chainlint.model import Finding
 from chainlint.plan.chains import ChainPlan
-from chainlint.rules.base import Finding, RuleContext
+from chainlint.rules.base import RuleContext
 from chainlint.units import duration
 
 NAME = "reorder"

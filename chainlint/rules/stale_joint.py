@@ -8,8 +8,8 @@ from datetime import UTC, datetime
 
 from chainlint.estimate.selectivity import Estimator
 from chainlint.evaluate.support import unevaluable
+from chainlint.model import Finding
 from chainlint.plan.chains import ChainPlan
-from chainlint.rules.base import Finding
 
 NAME = "stale-joint"
 LEVEL = "warning"

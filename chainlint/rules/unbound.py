@@ -2,9 +2,8 @@
 
 from __future__ import annotations
 
-from chainlint.analysis.model import Chain
 from chainlint.bind.binding import Binding
-from chainlint.rules.base import Finding
+from chainlint.model import Chain, Finding
 
 NAME = "unbound"
 LEVEL = "note"

@@ -4,8 +4,8 @@ changed, or the binding is wrong)."""
 from __future__ import annotations
 
 from chainlint.estimate.selectivity import Estimator
+from chainlint.model import Finding
 from chainlint.plan.chains import ChainPlan
-from chainlint.rules.base import Finding
 
 NAME = "unknown-column"
 LEVEL = "warning"

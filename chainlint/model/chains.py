@@ -1,40 +1,14 @@
-"""The plain, immutable result of analysing files: what reporters and the rewriter consume.
-
-Positions are 1-based lines and 1-based character (code point) columns; an end column points
-one past the last character, as in LSP and SARIF regions.
-"""
+"""A chain of row filters as the finder found it: its steps, their barriers, its first frame."""
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-from chainlint.ir import Node
+from chainlint.model.spans import Cell, Span
 
-
-@dataclass(frozen=True)
-class Span:
-    line: int
-    column: int
-    end_line: int
-    end_column: int
-
-
-@dataclass(frozen=True)
-class Cell:
-    """A notebook's code cell: `number` is its 1-based place among all the notebook's cells (as
-    editors count them), `id` the notebook's own cell id (nbformat 4.5 on), when it has one."""
-
-    number: int
-    id: str | None = None
-
-
-@dataclass(frozen=True)
-class CellLines:
-    """Where a code cell's lines sit in the one text a notebook is analysed as."""
-
-    cell: Cell
-    first_line: int
-    line_count: int
+if TYPE_CHECKING:  # a step holds an IR node; the IR sits above the model (see DEVELOPERS.md)
+    from chainlint.ir import Node
 
 
 @dataclass(frozen=True)
@@ -131,29 +105,3 @@ class Chain:
         if current:
             groups.append(tuple(current))
         return tuple(groups)
-
-
-@dataclass(frozen=True)
-class FileError:
-    path: str
-    line: int
-    column: int
-    message: str
-    cell: Cell | None = None
-
-
-@dataclass(frozen=True)
-class FileAnalysis:
-    """One file's chains and errors; `digest` identifies the text analysed (to spot a file
-    that changed on disk before it is rewritten).
-
-    For a notebook, `cells` maps the analysed text's lines to code cells: the chains are
-    located in that text (the rewriter works on it) until `chainlint.notebook.locate` moves
-    them into their cells; the errors are already located in cells.
-    """
-
-    path: str
-    chains: tuple[Chain, ...] = ()
-    errors: tuple[FileError, ...] = ()
-    digest: str = ""
-    cells: tuple[CellLines, ...] = ()
