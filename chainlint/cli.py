@@ -29,17 +29,14 @@ from chainlint.estimate.calibrate import COST_MODEL_FILE, model_to_json
 from chainlint.estimate.calibrate import calibrate as measure_model
 from chainlint.plan.chains import plan_chain
 from chainlint.profile.build import profile_dataset
-from chainlint.profile.columns import Settings
 from chainlint.profile.format import ProfileError, dumps
 from chainlint.profile.joint import JointCounter
 from chainlint.profile.merge import merge_profiles
 from chainlint.profile.read_options import CsvOptions, command_flags
-from chainlint.profile.readers import (
-    BATCH_ROWS,
-    DataError,
-    fingerprint_state,
-    open_dataset,
-)
+from chainlint.profile.errors import DataError
+from chainlint.profile.files import fingerprint_state
+from chainlint.profile.readers import BATCH_ROWS, memory_dataset, open_dataset
+from chainlint.profile.settings import Settings
 from chainlint.profile.store import (
     StoreError,
     check_name,
@@ -561,10 +558,8 @@ def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, col
 def _profile_in_memory(table):  # type: ignore[no-untyped-def]
     """An estimator over statistics of the loaded data, for chains no stored profile describes."""
     from chainlint.estimate.selectivity import Estimator
-    from chainlint.profile.readers import Dataset, table_batches
 
-    dataset = Dataset(table.schema, [], "memory", table_batches(table, BATCH_ROWS), [], table.num_rows)
-    return Estimator(profile_dataset(dataset, "in-memory", Settings()))
+    return Estimator(profile_dataset(memory_dataset(table), "in-memory", Settings()))
 
 
 @main.command("config")

@@ -19,7 +19,7 @@ from chainlint.cli import main
 from chainlint.parse.source import text_source
 from chainlint.profile import joint
 from chainlint.profile.joint import JointCounter
-from chainlint.profile.readers import table_batches
+from chainlint.profile.formats import table_batches
 
 MASKS = [
     "d.a == 1", "d.a >= 2", "d.b < 3", "d.b != 4", "d.s == 'x'", "d.s.isin(['y', 'z'])", "d.f > 0.5",

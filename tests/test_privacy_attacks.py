@@ -22,7 +22,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from chainlint.cli import main
-from chainlint.profile.columns import redact_value
+from chainlint.redaction import redact_value
 from chainlint.profile.privacy import fold_rare, hide_small_cells
 from chainlint.profile.sketches import HLL_PRECISION, hash32, hash_strings
 from chainlint.profile.store import load_profile, redaction_key

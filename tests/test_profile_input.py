@@ -16,7 +16,10 @@ from click.testing import CliRunner
 
 from chainlint.cli import main
 from chainlint.profile import csv_reader
-from chainlint.profile.columns import ColumnProfiler, Settings, redact_value
+from chainlint.profile.columns import ColumnProfiler
+from chainlint.profile.entries import column_entry
+from chainlint.profile.settings import Settings
+from chainlint.redaction import redact_value
 from chainlint.profile.store import find_store, load_profile, redaction_key
 
 
@@ -318,6 +321,6 @@ def test_a_rare_value_is_not_listed_from_a_sample() -> None:
     values[[0, 3]] = 7  # rare: 2 rows, both at sampled positions
     values[6:36:3] = 8  # frequent: 10 rows, all sampled
     profiler.add(pa.array(values))
-    listed = dict(map(tuple, profiler.finish()["top"]["values"]))
+    listed = dict(map(tuple, column_entry(profiler)["top"]["values"]))
     assert profiler.sample is not None and profiler.sample.stride == 3
     assert 7 not in listed and listed[8] == 30

@@ -196,7 +196,7 @@ def test_the_cases_of_the_issue_are_not_total() -> None:
 
 
 def test_dtype_names_of_profiles_and_pandas() -> None:
-    # The profile's `type` is pandas' own dtype name (chainlint.profile.columns.pandas_type).
+    # The profile's `type` is pandas' own dtype name (chainlint.profile.dtypes.pandas_type).
     assert column_kind(str(pd.Series([1]).dtype)) == column_kind("int64")
     assert column_kind(str(pd.Series(["a"]).dtype)) == column_kind("str")
     assert column_kind(str(pd.Series(pd.to_datetime(["2026-01-01"]).tz_localize("UTC")).dtype)) == column_kind("datetime64[ms]")

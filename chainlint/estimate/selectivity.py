@@ -37,7 +37,7 @@ from chainlint.ir import (
     RowNulls,
     StrTest,
 )
-from chainlint.profile.columns import redact_value
+from chainlint.redaction import redact_value
 
 DEFAULT_EQ = 0.005
 DEFAULT_INEQ = 1.0 / 3.0

@@ -18,7 +18,8 @@ import pyarrow as pa
 from chainlint.evaluate.pandas_masks import apply_step
 from chainlint.evaluate.support import unevaluable
 from chainlint.model import Chain
-from chainlint.profile.readers import CsvOptions, open_dataset
+from chainlint.profile.read_options import CsvOptions
+from chainlint.profile.readers import open_dataset
 
 
 class MeasureError(Exception):

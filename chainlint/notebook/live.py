@@ -19,10 +19,11 @@ from chainlint.estimate.selectivity import Estimator
 from chainlint.model import Chain
 from chainlint.plan.chains import ChainPlan, plan_chain
 from chainlint.profile.build import profile_dataset
-from chainlint.profile.columns import Settings
+from chainlint.profile.errors import DataError
 from chainlint.profile.format import ProfileError
 from chainlint.profile.joint import JointCounter
-from chainlint.profile.readers import BATCH_ROWS, DataError, Dataset, table_batches
+from chainlint.profile.readers import Dataset, memory_dataset
+from chainlint.profile.settings import Settings
 from chainlint.profile.store import StoreError, check_name, find_store, save_profile
 from chainlint.report.explain import explain_text
 
@@ -42,7 +43,7 @@ def _dataset(frame: Any) -> Dataset:
         table = pa.Table.from_pandas(frame, preserve_index=False)
     except (pa.ArrowException, TypeError, ValueError) as error:
         raise MagicError(f"the frame cannot be read as columns of one type each: {error}") from None
-    return Dataset(table.schema, [], "memory", table_batches(table, BATCH_ROWS), expected_rows=table.num_rows)
+    return memory_dataset(table)
 
 
 def plan_on_frame(chain: Chain, frame: Any) -> LivePlan:

@@ -5,81 +5,22 @@ A column starts exact: counts of every value, per batch from dictionary indices 
 also gives the value changes), by `bincount` for integers of a narrow range, else by pyarrow's
 `value_counts`, then added into one table of values. When its distinct count passes the cap it
 switches to summaries: a HyperLogLog for the distinct count and a weighted sample for quantiles
-and frequent values. What is written obeys the privacy rule (see `finish`).
+and frequent values. What is written of it (and the privacy rule it obeys): `entries.py`.
 """
 
 from __future__ import annotations
 
-import hashlib
-import hmac
-import math
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from chainlint.arrays import filled_numpy, index_array, to_numpy
-from chainlint.profile.privacy import equi_depth_positions, fold_rare, safe_bounds
-from chainlint.profile.sketches import HyperLogLog, WeightedSample, hash32, hash_strings, seal
-
-
-@dataclass(frozen=True)
-class Settings:
-    min_count: int = 5
-    distinct_cap: int = 10_000
-    top: int = 100
-    buckets: int = 100
-    redact: frozenset[str] = frozenset()
-    redaction_key: bytes = b""
-    sketch_key: bytes = b""  # without one no sketch is written (it would be readable by all)
-
-
-def value_kind(arrow_type: pa.DataType) -> str:
-    if pa.types.is_dictionary(arrow_type):
-        arrow_type = arrow_type.value_type
-    if pa.types.is_string(arrow_type) or pa.types.is_large_string(arrow_type):
-        return "string"
-    if pa.types.is_boolean(arrow_type):
-        return "boolean"
-    if pa.types.is_integer(arrow_type):
-        return "integer"
-    if pa.types.is_floating(arrow_type):
-        return "float"
-    if pa.types.is_timestamp(arrow_type) or pa.types.is_date(arrow_type):
-        return "temporal"
-    return "other"
-
-
-def pandas_type(arrow_type: pa.DataType, has_nulls: bool) -> str:
-    """The dtype pandas 3 gives this column when it reads the file (default numpy backend)."""
-    if pa.types.is_dictionary(arrow_type):
-        return "category"
-    kind = value_kind(arrow_type)
-    if kind == "string":
-        return "str"
-    if kind == "integer":
-        return "float64" if has_nulls else str(arrow_type.to_pandas_dtype().__name__)
-    if kind == "boolean":
-        return "object" if has_nulls else "bool"
-    if kind == "float":
-        return str(arrow_type.to_pandas_dtype().__name__)
-    if pa.types.is_timestamp(arrow_type):
-        zone = f", {arrow_type.tz}" if arrow_type.tz else ""
-        return f"datetime64[{arrow_type.unit}{zone}]"
-    if pa.types.is_duration(arrow_type):
-        return f"timedelta64[{arrow_type.unit}]"
-    return "object"
-
-
-def redact_value(key: bytes, value: Any) -> str:
-    """The keyed hash under which a redacted value is stored and a literal is looked up."""
-    return "h:" + hmac.new(key, repr(value).encode("utf-8", "surrogatepass"), hashlib.sha256).hexdigest()[:16]
-
-
-_NUMERIC = frozenset({"integer", "float", "temporal", "boolean"})
-
+from chainlint.arrays import index_array, to_numpy
+from chainlint.profile.counter import ValueCounter
+from chainlint.profile.dtypes import NUMERIC, temporal_ints, value_kind
+from chainlint.profile.settings import Settings
+from chainlint.profile.sketches import HyperLogLog, WeightedSample, hash32, hash_strings
 
 def _narrow(values: np.ndarray) -> bool:
     """Whether the values are integers (within int64) spanning few enough values that
@@ -101,6 +42,9 @@ def _surely_past(valid: pa.Array | pa.ChunkedArray, cap: int) -> bool:
 
 
 class ColumnProfiler:
+    #: pyarrow's errors for a type it has no kernel for.
+    ARROW_ERRORS = (pa.ArrowNotImplementedError, pa.ArrowInvalid, pa.ArrowTypeError)
+
     def __init__(self, name: str, arrow_type: pa.DataType, settings: Settings, expected_rows: int = 0) -> None:
         self.name = name
         self.arrow_type = arrow_type.value_type if pa.types.is_dictionary(arrow_type) else arrow_type
@@ -110,7 +54,7 @@ class ColumnProfiler:
         self.rows = 0
         self.nulls = 0
         self.exact = self.kind != "other"
-        self.counter = _Counter(self.counted_type)
+        self.counter = ValueCounter(self.counted_type)
         self.hll = HyperLogLog()
         self.sample: WeightedSample | None = None
         self.expected_rows = expected_rows
@@ -118,6 +62,16 @@ class ColumnProfiler:
         # non-null rows (a sorted column changes rarely; kept rows then lie in runs).
         self.changes = 0
         self.last: Any = None
+        self.unsummarised: str | None = None  # why the column gets no statistics past rows and nulls
+
+    def add_batch(self, column: pa.Array | pa.ChunkedArray) -> None:
+        """Count a batch; a type pyarrow has no kernel for is counted from then on as one without
+        statistics (rows and nulls only) rather than failing the profile."""
+        try:
+            self.add(column)
+        except self.ARROW_ERRORS as error:
+            self.kind, self.exact = "other", False
+            self.unsummarised = f"pyarrow cannot count {self.arrow_type} values ({str(error).splitlines()[0]})"
 
     # -- accumulation ---------------------------------------------------------------------
     def add(self, column: pa.Array | pa.ChunkedArray) -> None:
@@ -134,7 +88,7 @@ class ColumnProfiler:
             self.nulls += column.null_count
             return
         if self.kind == "temporal":
-            column = _temporal_ints(column)
+            column = temporal_ints(column)
         nan = pc.is_nan(column) if self.kind == "float" else None
         nans = int(pc.sum(nan).as_py() or 0) if nan is not None else 0  # NaN is missing to pandas
         self.nulls += column.null_count + nans
@@ -143,7 +97,7 @@ class ColumnProfiler:
             return
         if self.exact and self.counter.empty() and _surely_past(valid, self.settings.distinct_cap):
             self.start_summaries()
-        if self.kind in _NUMERIC:
+        if self.kind in NUMERIC:
             values = to_numpy(valid)
             self.count_changes(values, values[0], values[-1])
         else:
@@ -203,7 +157,7 @@ class ColumnProfiler:
         """Leave exact counting: the values counted so far become weighted points."""
         counted, counts = self.counter.table()
         self.exact = False
-        self.counter = _Counter(self.counted_type)
+        self.counter = ValueCounter(self.counted_type)
         self.sample = WeightedSample(expected=self.expected_rows)
         if len(counted):
             values = to_numpy(counted)
@@ -234,100 +188,9 @@ class ColumnProfiler:
         if isinstance(values, pa.ChunkedArray):
             parts = [self.hash(chunk) for chunk in values.chunks]
             return np.concatenate(parts) if parts else np.zeros(0, np.uint32)
-        if self.kind in _NUMERIC:
+        if self.kind in NUMERIC:
             return hash32(to_numpy(values))
         return hash_strings(values)
-
-    # -- the written profile --------------------------------------------------------------
-    def finish(self) -> dict[str, Any]:
-        """The column's entry in the profile.
-
-        Privacy: a value with fewer than `min_count` rows is never listed, nor told by the
-        complement of the listed ones; bounds follow `privacy.safe_bounds`; strings get no
-        bounds at all.
-        """
-        settings = self.settings
-        has_nulls = self.nulls > 0
-        entry: dict[str, Any] = {
-            "type": pandas_type(self.arrow_type, has_nulls),
-            "arrow_type": str(self.arrow_type),
-            "rows": self.rows,
-            "nulls": self.nulls,
-        }
-        if self.kind == "other":
-            return entry
-        if self.exact:
-            counted, counts = self.counter.table()
-            self.hll.add_hashes(self.hash(counted))
-            values = to_numpy(counted)
-            counts = fold_rare(counts, settings.min_count)
-            values, counts = values[counts > 0], counts[counts > 0]
-            entry["distinct"] = {"value": int(len(values)), "exact": True}
-            frequent = counts >= settings.min_count
-            entry["top"] = self.top_exact(values, counts)
-            entry["suppressed"] = {"values": int((~frequent).sum()), "rows": int(counts[~frequent].sum())}
-            bounds = self.bounds(values, counts.astype(np.float64), counts, frequent)
-            rank_error = 0.0
-            entry["clustering"] = self.clustering(counts / max(counts.sum(), 1))
-        else:
-            assert self.sample is not None
-            points, weights = self.sample.points()
-            entry["distinct"] = {
-                "value": int(round(self.hll.estimate())),
-                "exact": False,
-                "standard_error": round(HyperLogLog.standard_error(), 6),
-            }
-            entry["top"] = self.top_sampled(points, weights)
-            bounds = None
-            if points.size:
-                starts = np.concatenate([[0], np.flatnonzero(points[1:] != points[:-1]) + 1])
-                sums = np.add.reduceat(weights, starts)
-                sizes = np.diff(np.append(starts, points.size))
-                frequent = (sizes >= self.sampled_rows_needed()) & (sums >= settings.min_count)
-                bounds = self.bounds(points[starts], sums, sizes, frequent)
-            rank_error = self.sample.rank_error
-            listed = np.array([c for _, c in entry["top"]["values"]], dtype=np.float64)
-            entry["clustering"] = self.clustering(listed / max(self.rows - self.nulls, 1))
-        if settings.sketch_key:
-            entry["sketch"] = seal(self.hll, settings.sketch_key, self.name)
-        redacted = self.name in settings.redact
-        entry["redacted"] = redacted
-        if redacted:
-            entry["top"]["values"] = sorted([redact_value(settings.redaction_key, v), c] for v, c in entry["top"]["values"])
-            return entry
-        entry["top"]["values"] = [[self.output(v), c] for v, c in entry["top"]["values"]]
-        if bounds is not None:
-            entry["histogram"] = {"bounds": bounds, "exact": self.exact, "rank_error": round(rank_error, 6)}
-            entry["min"], entry["max"] = bounds[0], bounds[-1]
-        return entry
-
-    def top_exact(self, values: np.ndarray, counts: np.ndarray) -> dict[str, Any]:
-        frequent = np.flatnonzero(counts >= self.settings.min_count)
-        # `values` is sorted; a stable sort by descending count breaks ties by value.
-        order = frequent[np.argsort(-counts[frequent], kind="stable")]
-        listed = order[: self.settings.top].tolist()
-        return {
-            "values": [[_plain(values[i]), int(counts[i])] for i in listed],
-            "exact": True,
-            "complete": len(listed) == len(frequent),
-            "error": 0,
-        }
-
-    def top_sampled(self, points: np.ndarray, weights: np.ndarray) -> dict[str, Any]:
-        if points.size == 0:
-            return {"values": [], "exact": False, "complete": False, "error": 0}
-        starts = np.concatenate([[0], np.flatnonzero(points[1:] != points[:-1]) + 1])
-        sums = np.add.reduceat(weights, starts)
-        sizes = np.diff(np.append(starts, points.size))
-        keep = np.flatnonzero((sizes >= self.sampled_rows_needed()) & (sums >= self.settings.min_count))
-        ranked = keep[np.argsort(-sums[keep], kind="stable")][: self.settings.top]  # ties stay in value order
-        heaviest = float(weights.max())
-        return {
-            "values": [[_plain(points[starts[i]]), int(round(sums[i]))] for i in ranked],
-            "exact": False,
-            "complete": False,
-            "error": int(math.ceil(2 * heaviest + self.sample.rank_error * (self.rows - self.nulls))),  # type: ignore[union-attr]
-        }
 
     def sampled_rows_needed(self) -> int:
         """Sampled points a value needs to be listed. Each strided point is a row of its own, so
@@ -335,113 +198,3 @@ class ColumnProfiler:
         rule holds for estimated columns too (a compaction picks a value k times only when its
         weight spans k - 1 of the new spacings, about 2(k - 1) of the old points)."""
         return max(2, self.settings.min_count)
-
-    def bounds(self, values: np.ndarray, weights: np.ndarray, held: np.ndarray, frequent: np.ndarray) -> list[Any] | None:
-        """Histogram bounds of sorted distinct values: `weights` rows each stands for, `held`
-        rows known to hold each (a sample's points are rows of their own)."""
-        if self.kind not in ("integer", "float", "temporal"):
-            return None
-        step = 86_400 * 10**9 // _unit_nanoseconds(self.arrow_type) if self.kind == "temporal" else 0
-        return safe_bounds(values, weights, held, frequent, self.settings.min_count, self.settings.buckets,
-                           step, self.kind != "float", self.output)
-
-    def output(self, value: Any) -> Any:
-        value = _plain(value)
-        if self.kind == "temporal":
-            return _iso(value, self.arrow_type)
-        return value
-
-
-class _Counter:
-    """Exact counts of values, keyed by a growing Arrow array (a few thousand values at most);
-    pyarrow's `index_in` looks a batch's values up in one vectorised pass."""
-
-    def __init__(self, value_type: pa.DataType) -> None:
-        self.value_type = value_type
-        self.values: pa.Array | None = None
-        self.counts = np.zeros(0, dtype=np.int64)
-        # Counts by index of the current Parquet dictionary, folded in when it changes: the
-        # batches of one row group share their dictionary, so most batches need no lookup.
-        self.dictionary: pa.Array | None = None
-        self.dictionary_counts: np.ndarray | None = None
-
-    def __len__(self) -> int:
-        self.fold()
-        return 0 if self.values is None else len(self.values)
-
-    def empty(self) -> bool:
-        return self.values is None and self.dictionary is None
-
-    def add_indices(self, dictionary: pa.Array, counts: np.ndarray) -> None:
-        if self.dictionary is not None and (self.dictionary is dictionary or self.dictionary.equals(dictionary)):
-            self.dictionary_counts += counts  # type: ignore[operator]
-            return
-        self.fold()
-        self.dictionary, self.dictionary_counts = dictionary, counts.astype(np.int64)
-
-    def fold(self) -> None:
-        if self.dictionary is None or self.dictionary_counts is None:
-            return
-        used = np.flatnonzero(self.dictionary_counts)
-        dictionary, counts = self.dictionary, self.dictionary_counts
-        self.dictionary = self.dictionary_counts = None
-        self.add(dictionary.take(index_array(used)), counts[used])
-
-    def add(self, values: pa.Array, counts: np.ndarray) -> None:
-        if len(values) == 0:
-            return
-        counts = counts.astype(np.int64)
-        if self.values is None:
-            self.values, self.counts = values, counts.copy()
-            return
-        positions = filled_numpy(pc.index_in(values, value_set=self.values), -1).astype(np.int64)
-        new = positions < 0
-        if new.any():
-            added = values.take(index_array(np.flatnonzero(new)))
-            positions[new] = np.arange(len(self.values), len(self.values) + len(added))
-            self.values = pa.concat_arrays([self.values, added.cast(self.values.type)])
-            self.counts = np.concatenate([self.counts, np.zeros(len(added), dtype=np.int64)])
-        np.add.at(self.counts, positions, counts)
-
-    def table(self) -> tuple[pa.Array, np.ndarray]:
-        """Values in ascending order with their counts."""
-        self.fold()
-        if self.values is None:
-            return pa.nulls(0, self.value_type), np.zeros(0, dtype=np.int64)
-        order = pc.sort_indices(self.values)
-        return self.values.take(order), self.counts[to_numpy(order)]
-
-
-def _equi_depth(values: np.ndarray, weights: np.ndarray, buckets: int) -> list[Any]:
-    """Bounds at quantiles i/buckets by the inverted CDF (numpy `method="inverted_cdf"`)."""
-    return [values[p] for p in equi_depth_positions(weights, buckets)]
-
-
-def _temporal_ints(array: pa.Array) -> pa.Array:
-    if pa.types.is_timestamp(array.type):
-        return array.cast(pa.timestamp(array.type.unit)).cast(pa.int64())
-    if pa.types.is_date32(array.type):
-        return array.cast(pa.int32()).cast(pa.int64())
-    return array.cast(pa.int64())
-
-
-def _unit_nanoseconds(arrow_type: pa.DataType) -> int:
-    if pa.types.is_timestamp(arrow_type):
-        return {"s": 10**9, "ms": 10**6, "us": 10**3, "ns": 1}[arrow_type.unit]
-    if pa.types.is_date32(arrow_type):
-        return 86_400 * 10**9
-    return 10**6
-
-
-def _iso(value: int, arrow_type: pa.DataType) -> str:
-    if pa.types.is_date32(arrow_type):
-        return str(np.datetime64(int(value), "D"))
-    if pa.types.is_date64(arrow_type):
-        return str(np.datetime64(int(value), "ms").astype("datetime64[D]"))
-    return str(np.datetime64(int(value), arrow_type.unit))
-
-
-def _plain(value: Any) -> Any:
-    """A numpy scalar as the Python value JSON writes."""
-    return value.item() if isinstance(value, np.generic) else value
-

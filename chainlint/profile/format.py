@@ -9,7 +9,10 @@ from __future__ import annotations
 
 import json
 import math
+from datetime import UTC, datetime
 from typing import Any
+
+from chainlint import __version__
 
 FORMAT_NAME = "chainlint-profile"
 FORMAT_VERSION = 2
@@ -17,6 +20,20 @@ FORMAT_VERSION = 2
 
 class ProfileError(Exception):
     """A profile file that cannot be used; the message names the file."""
+
+
+def header(name: str, rows: int, source: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
+    """The fields every profile document starts with, whether profiled or merged from parts."""
+    return {
+        "format": FORMAT_NAME,
+        "format_version": FORMAT_VERSION,
+        "chainlint_version": __version__,
+        "name": name,
+        "created": datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "rows": rows,
+        "source": source,
+        "settings": settings,
+    }
 
 
 def dumps(document: Any) -> str:

@@ -11,14 +11,12 @@ from __future__ import annotations
 
 import hashlib
 from collections import defaultdict
-from datetime import UTC, datetime
 from typing import Any
 
 import numpy as np
 
-from chainlint import __version__
-from chainlint.profile.columns import _equi_depth
-from chainlint.profile.format import FORMAT_NAME, FORMAT_VERSION, ProfileError
+from chainlint.profile.format import ProfileError, header
+from chainlint.profile.histograms import equi_depth
 from chainlint.profile.sketches import HyperLogLog, SketchKeyError, seal, unseal
 from chainlint.profile.store import SKETCH_KEY
 
@@ -35,23 +33,16 @@ def merge_profiles(parts: list[dict[str, Any]], name: str, key: bytes) -> dict[s
         if sorted(part["columns"]) != sorted(parts[0]["columns"]):
             raise ProfileError(f"profile {part['name']!r} has other columns than {parts[0]['name']!r}")
     fingerprint = hashlib.sha256("".join(p["source"]["fingerprint"] for p in parts).encode()).hexdigest()
-    return {
-        "format": FORMAT_NAME,
-        "format_version": FORMAT_VERSION,
-        "chainlint_version": __version__,
-        "name": name,
-        "created": datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ"),
-        "rows": sum(p["rows"] for p in parts),
-        "source": {
-            "kind": parts[0]["source"]["kind"],
-            "files": [f for p in parts for f in p["source"]["files"]],
-            "fingerprint": "sha256:" + fingerprint,
-            "merged_from": [p["name"] for p in parts],
-        },
-        "settings": settings,
-        "columns": {c: _merge_column(c, [p["columns"][c] for p in parts], settings, parts, key) for c in parts[0]["columns"]},
-        "column_order": parts[0].get("column_order", sorted(parts[0]["columns"])),
+    source = {
+        "kind": parts[0]["source"]["kind"],
+        "files": [f for p in parts for f in p["source"]["files"]],
+        "fingerprint": "sha256:" + fingerprint,
+        "merged_from": [p["name"] for p in parts],
     }
+    document = header(name, sum(p["rows"] for p in parts), source, settings)
+    document["columns"] = {c: _merge_column(c, [p["columns"][c] for p in parts], settings, parts, key) for c in parts[0]["columns"]}
+    document["column_order"] = parts[0].get("column_order", sorted(parts[0]["columns"]))
+    return document
 
 
 def _is_full(column: dict[str, Any]) -> bool:
@@ -147,7 +138,7 @@ def _merge_histograms(columns: list[dict[str, Any]], counts: dict[Any, int] | No
         values, temporal = _numeric([v for v, _ in pairs])
         order = np.argsort(values, kind="stable")
         weights = np.array([c for _, c in pairs], dtype=np.float64)[order]
-        bounds = _equi_depth(values[order], weights, buckets)
+        bounds = equi_depth(values[order], weights, buckets)
         rank_error = 0.0
         exact = True
         originals = {float(n) if not temporal else int(n): v for n, (v, _) in zip(values, pairs)}
@@ -162,7 +153,7 @@ def _merge_histograms(columns: list[dict[str, Any]], counts: dict[Any, int] | No
             weights.append(np.full(len(numeric), share))
         values = np.concatenate(points)
         order = np.argsort(values, kind="stable")
-        merged_bounds = _equi_depth(values[order], np.concatenate(weights)[order], buckets)
+        merged_bounds = equi_depth(values[order], np.concatenate(weights)[order], buckets)
         merged_bounds[0] = min(float(p[0]) for p in points)
         merged_bounds[-1] = max(float(p[-1]) for p in points)
         if temporal:

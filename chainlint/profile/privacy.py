@@ -1,7 +1,7 @@
 """What a profile may say about rows that few others share.
 
 The rule: nothing written lets a reader confirm a value held by fewer than `min_count` rows.
-Counted values are listed only from `min_count` rows (columns.py); this module makes the other
+Counted values are listed only from `min_count` rows (entries.py); this module makes the other
 fields keep to it:
 
 - `safe_bounds`: histogram bounds, `min` and `max`. Each is a value held by at least
@@ -28,6 +28,8 @@ from collections.abc import Callable
 from typing import Any
 
 import numpy as np
+
+from chainlint.profile.histograms import equi_depth_positions
 
 _MAX_STEPS = 40  # precision steps tried, a factor of ten each
 
@@ -141,14 +143,6 @@ def _round(value: Any, unit: float | int, direction: int, integral: bool) -> Any
     quotient = value / unit
     whole = math.ceil(quotient) if direction < 0 else math.floor(quotient) if direction > 0 else math.floor(quotient + 0.5)
     return float(f"{whole * unit:.12g}")
-
-
-def equi_depth_positions(weights: np.ndarray, buckets: int) -> list[int]:
-    """Positions of the values at quantiles i/buckets by the inverted CDF."""
-    cumulative = np.cumsum(weights)
-    total = cumulative[-1]
-    ranks = np.maximum(np.ceil(np.linspace(0.0, 1.0, buckets + 1) * total - 1e-9), 1.0)
-    return np.minimum(np.searchsorted(cumulative, ranks - 1e-9, side="left"), len(weights) - 1).tolist()
 
 
 def fold_rare(counts: np.ndarray, min_count: int) -> np.ndarray:
