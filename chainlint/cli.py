@@ -37,11 +37,13 @@ from chainlint.profile.errors import DataError
 from chainlint.profile.files import fingerprint_state
 from chainlint.profile.readers import BATCH_ROWS, memory_dataset, open_dataset
 from chainlint.profile.settings import Settings
+from chainlint.profile.view import Profile
 from chainlint.profile.store import (
     StoreError,
     check_name,
     find_store,
     list_profiles,
+    load_document,
     load_profile,
     profile_path,
     redaction_key,
@@ -403,10 +405,10 @@ def _store_here(function):  # type: ignore[no-untyped-def]
 def show(folder: Path, name: str, top: int) -> None:
     """Summarise profile NAME: per column type, nulls, distinct, top values with shares, range."""
     try:
-        document = load_profile(profile_path(folder, name))
+        profile = load_profile(profile_path(folder, name))
     except (ProfileError, StoreError) as error:
         _fail(str(error))
-    click.echo(profile_summary(document, top), nl=False)
+    click.echo(profile_summary(profile, top), nl=False)
 
 
 @profiles.command("check")
@@ -424,13 +426,13 @@ def check_profiles(folder: Path, names: Sequence[str]) -> None:
     worst = EXIT_OK
     for path in paths:
         try:
-            document = load_profile(path)
+            profile = load_profile(path)
         except (ProfileError, StoreError) as error:
             click.echo(f"chainlint: error: {printable(str(error))}", err=True)
             worst = EXIT_ERROR
             continue
-        state, detail = fingerprint_state(document, folder)
-        click.echo(f"{document['name']}: {state}{': ' + detail if detail else ''}")
+        state, detail = fingerprint_state(profile, folder)
+        click.echo(f"{profile.name}: {state}{': ' + detail if detail else ''}")
         worst = max(worst, {"up to date": EXIT_OK, "out of date": EXIT_FINDINGS}.get(state, EXIT_ERROR))
     sys.exit(worst)
 
@@ -443,7 +445,7 @@ def merge(folder: Path, name: str, parts: Sequence[str]) -> None:
     """Combine the profiles PARTS (names in the store) of one dataset into profile NAME."""
     try:
         check_name(name)
-        documents = [load_profile(profile_path(folder, part)) for part in parts]
+        documents = [load_document(profile_path(folder, part)) for part in parts]
         path, changed = save_profile(folder, merge_profiles(documents, name, sketch_key(folder, create=False)))
     except (ProfileError, StoreError) as error:
         _fail(str(error))
@@ -559,7 +561,7 @@ def _profile_in_memory(table):  # type: ignore[no-untyped-def]
     """An estimator over statistics of the loaded data, for chains no stored profile describes."""
     from chainlint.estimate.selectivity import Estimator
 
-    return Estimator(profile_dataset(memory_dataset(table), "in-memory", Settings()))
+    return Estimator(Profile.from_document(profile_dataset(memory_dataset(table), "in-memory", Settings())))
 
 
 @main.command("config")

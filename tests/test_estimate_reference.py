@@ -19,6 +19,7 @@ from chainlint.cli import main
 from chainlint.estimate.selectivity import Estimator
 from chainlint.find.query import convert_query
 from chainlint.profile.store import load_profile
+from chainlint.profile.view import Profile
 
 PREDICATES = [
     "carrier == 'UA'", "carrier == 'AA'", "carrier == 'DL'", "carrier == 'WN'", "carrier == 'OO'",
@@ -35,7 +36,7 @@ PREDICATES = [
 
 
 @pytest.fixture(scope="module")
-def profile(tmp_path_factory: pytest.TempPathFactory) -> dict:
+def profile(tmp_path_factory: pytest.TempPathFactory) -> Profile:
     folder = tmp_path_factory.mktemp("flights")
     data = folder / "flights.parquet"
     flights().to_parquet(data)
@@ -44,7 +45,7 @@ def profile(tmp_path_factory: pytest.TempPathFactory) -> dict:
     return load_profile(folder / "store" / "profiles" / "flights.json")
 
 
-def test_q_error_on_single_column_predicates(profile: dict) -> None:
+def test_q_error_on_single_column_predicates(profile: Profile) -> None:
     frame = flights()
     estimator = Estimator(profile)
     errors = {}
@@ -63,7 +64,7 @@ def test_q_error_on_single_column_predicates(profile: dict) -> None:
     assert errors[worst] <= 2.0, (worst, errors[worst])
 
 
-def test_defaults_are_postgresql_values(profile: dict) -> None:
+def test_defaults_are_postgresql_values(profile: Profile) -> None:
     # PostgreSQL selfuncs.h (from memory): DEFAULT_EQ_SEL 0.005, DEFAULT_INEQ_SEL 1/3.
     estimator = Estimator(profile)
     equal = estimator.estimate(convert_query("carrier == @wanted", frozenset(), {}).node)
@@ -72,15 +73,16 @@ def test_defaults_are_postgresql_values(profile: dict) -> None:
     assert (round(unknown.selectivity, 6), unknown.basis) == (round(1 / 3, 6), "default")
 
 
-def test_unlisted_value_spreads_the_rest_evenly(profile: dict) -> None:
+def test_unlisted_value_spreads_the_rest_evenly(profile: Profile) -> None:
     # PostgreSQL "Row Estimation Examples": (1 - sum(mcv) - nulls) / (distinct - n_mcv).
-    column = profile["columns"]["tailnum"]
-    listed = {v for v, _ in column["top"]["values"]}
+    column = profile.column("tailnum")
+    assert column is not None and column.top is not None and column.distinct is not None
+    listed = {v for v, _ in column.top.values}
     unlisted = next(v for v in flights()["tailnum"].dropna().unique() if v not in listed)
     estimate = Estimator(profile).estimate(convert_query(f"tailnum == {unlisted!r}", frozenset(), {}).node)
-    rows = column["rows"]
-    expected = (1 - sum(c for _, c in column["top"]["values"]) / rows - column["nulls"] / rows) / (
-        column["distinct"]["value"] - len(listed)
+    rows = column.rows
+    expected = (1 - sum(c for _, c in column.top.values) / rows - column.nulls / rows) / (
+        column.distinct.value - len(listed)
     )
     assert estimate.selectivity == pytest.approx(expected)
     assert estimate.basis == "most-common"

@@ -197,17 +197,17 @@ def test_stale_temporaries_are_removed_and_never_analysed(project: Path) -> None
 
 
 def test_the_store_writes_through_a_symlinked_profile(project: Path, tmp_path: Path) -> None:
-    from chainlint.profile.store import load_profile, save_profile
+    from chainlint.profile.store import load_document, save_profile
 
     store = project / ".chainlint"
     profile = store / "profiles" / "parcel_scans.json"
     shared = tmp_path / "shared_profile.json"
     profile.rename(shared)
     os.symlink(shared, profile)
-    document = load_profile(profile)
+    document = load_document(profile)
     document["rows"] += 1
     save_profile(store, document)
-    assert profile.is_symlink() and load_profile(shared)["rows"] == document["rows"]
+    assert profile.is_symlink() and load_document(shared)["rows"] == document["rows"]
 
 
 def test_stale_temporaries_go_on_the_next_fix_even_with_nothing_to_fix(project: Path) -> None:

@@ -15,7 +15,7 @@ import pytest
 from click.testing import CliRunner
 
 from chainlint.cli import main
-from chainlint.profile.store import load_profile
+from chainlint.profile.store import load_document
 
 
 def _profile(tmp_path: Path, data: Path) -> tuple[int, str]:
@@ -25,7 +25,7 @@ def _profile(tmp_path: Path, data: Path) -> tuple[int, str]:
 
 
 def _column(tmp_path: Path, name: str) -> dict:
-    return load_profile(tmp_path / "store" / "profiles" / "p.json")["columns"][name]
+    return load_document(tmp_path / "store" / "profiles" / "p.json")["columns"][name]
 
 
 @pytest.mark.parametrize(("name", "array", "reason"), [

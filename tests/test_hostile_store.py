@@ -86,6 +86,7 @@ MUTATIONS = [
     ((*_A, "sketch"), 7, "field columns.a.sketch: must be a string"),
     (("joint",), [{"predicates": ["a > 1"], "subsets": [[0, "many"]]}], "field joint[0].subsets[0][1]"),
     (("joint",), {"predicates": []}, "field joint: must be a list"),
+    (("joint",), [{"predicates": ["a > 1"], "subsets": [[0, 5]], "chains": 7}], "field joint[0].chains: must be a list"),
 ]
 
 

@@ -13,7 +13,7 @@ from nbclient import NotebookClient
 from nbformat.v4 import new_code_cell, new_notebook
 
 from chainlint.cli import main
-from chainlint.profile.store import load_profile
+from chainlint.profile.store import load_document
 
 DEMO = Path(__file__).parent.parent / "examples"
 ROWS = 20_000
@@ -99,7 +99,7 @@ def test_profile_of_a_live_frame_serves_check(executed, tmp_path: Path) -> None:
     outputs, _, folder = executed
     path = folder / ".chainlint" / "profiles" / "live_scans.json"
     assert outputs[6].startswith(f"profile live_scans: {ROWS:,} rows, 25 columns -> ")
-    document = load_profile(path)  # the store's own validation of the profile format
+    document = load_document(path)  # the store's own validation of the profile format
     assert document["rows"] == ROWS and document["name"] == "live_scans"
     (folder / "report.py").write_text(f"# chainlint: profile=live_scans\n{CHAIN.replace(chr(10), ' ')}\n")
     # At a production row count, so that the planned order clears the thresholds (below them the

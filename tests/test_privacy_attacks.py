@@ -25,7 +25,7 @@ from chainlint.cli import main
 from chainlint.redaction import redact_value
 from chainlint.profile.privacy import fold_rare, hide_small_cells
 from chainlint.profile.sketches import HLL_PRECISION, hash32, hash_strings
-from chainlint.profile.store import load_profile, redaction_key
+from chainlint.profile.store import load_document, redaction_key
 
 MIN = 5
 ROWS = 2_000
@@ -46,7 +46,7 @@ def _profile(tmp_path: Path, frame: pd.DataFrame, name: str, *options: str) -> d
     result = CliRunner().invoke(main, ["profile", str(data), "--name", name, "--store", str(store),
                                        "--min-count", str(MIN), *options])
     assert result.exit_code == 0, result.output
-    return load_profile(store / "profiles" / f"{name}.json")
+    return load_document(store / "profiles" / f"{name}.json")
 
 
 def _people(young: int, old: int, born: str, rare_flag: bool) -> pd.DataFrame:
@@ -232,7 +232,7 @@ def test_the_sealed_sketch_still_merges_and_names_a_wrong_key(tmp_path: Path) ->
                                          "--store", str(store)]).exit_code == 0
     merged = CliRunner().invoke(main, ["profiles", "--store", str(store), "merge", "ab", "a", "b"])
     assert merged.exit_code == 0, merged.output
-    distinct = load_profile(store / "profiles" / "ab.json")["columns"]["mail"]["distinct"]
+    distinct = load_document(store / "profiles" / "ab.json")["columns"]["mail"]["distinct"]
     assert abs(distinct["value"] - 550) <= 3 * 0.01625 * 550  # the published HyperLogLog error
     # The store's key sealed the parts; another key cannot open them, and says so.
     (store / "private" / "sketch-key").write_text("a1" * 32 + "\n")
@@ -295,5 +295,5 @@ def test_joint_counts_never_test_a_redacted_column(tmp_path: Path) -> None:
                                        "--redact", "mail", "--for", str(tmp_path / "src")])
     assert result.exit_code == 0, result.output
     assert f"skipped `mail == '{rare[0]}'`: it reads a redacted column" in result.output
-    document = load_profile(tmp_path / "store" / "profiles" / "mail.json")
+    document = load_document(tmp_path / "store" / "profiles" / "mail.json")
     assert [entry["predicates"] for entry in document["joint"]] == [["room < 25000", "room > 20000"]]

@@ -20,7 +20,7 @@ from chainlint.profile.columns import ColumnProfiler
 from chainlint.profile.entries import column_entry
 from chainlint.profile.settings import Settings
 from chainlint.redaction import redact_value
-from chainlint.profile.store import find_store, load_profile, redaction_key
+from chainlint.profile.store import find_store, load_document, redaction_key
 
 
 def _run(*args: str):
@@ -90,7 +90,7 @@ def test_tab_separated_values(tmp_path: Path) -> None:
     path = tmp_path / "t.tsv"
     path.write_text("a\tb c\n" + "".join(f"{i % 3}\tx,{i % 2}\n" for i in range(12)))
     assert _profile(tmp_path, path).exit_code == 0
-    columns = load_profile(tmp_path / "store" / "profiles" / "p.json")["columns"]
+    columns = load_document(tmp_path / "store" / "profiles" / "p.json")["columns"]
     assert sorted(columns) == ["a", "b c"]
     assert columns["b c"]["top"]["values"] == [["x,0", 6], ["x,1", 6]]
 
@@ -101,7 +101,7 @@ def test_line_longer_than_a_piece(tmp_path: Path, monkeypatch: pytest.MonkeyPatc
     path.write_text("a,b\n" + "".join(f"{'x' * (500 if i == 7 else 3)},{i}\n" for i in range(30)))
     result = _profile(tmp_path, path, "--min-count", "1")  # the one long value is counted
     assert result.exit_code == 0, result.output
-    columns = load_profile(tmp_path / "store" / "profiles" / "p.json")["columns"]
+    columns = load_document(tmp_path / "store" / "profiles" / "p.json")["columns"]
     assert columns["b"]["rows"] == 30 and columns["b"]["distinct"]["value"] == 30
     assert columns["a"]["distinct"]["value"] == 2
 
@@ -142,7 +142,7 @@ def test_several_csv_files_are_one_dataset_if_their_columns_agree(tmp_path: Path
     second.write_text("a,b\n" + "2,y\n" * 5)
     other.write_text("a,c\n1,x\n")
     assert _profile(tmp_path, first, str(second)).exit_code == 0
-    document = load_profile(tmp_path / "store" / "profiles" / "p.json")
+    document = load_document(tmp_path / "store" / "profiles" / "p.json")
     assert document["rows"] == 11 and document["columns"]["a"]["top"]["values"] == [[1, 6], [2, 5]]
     before = (tmp_path / "store" / "profiles" / "p.json").read_bytes()
     line = _error_line(_profile(tmp_path, first, str(other)))
@@ -166,7 +166,7 @@ def test_awkward_columns_profile_fine(tmp_path: Path) -> None:
     path.write_text("\n".join(rows) + "\n", encoding="utf-8")
     result = _profile(tmp_path, path)
     assert result.exit_code == 0, result.output
-    columns = load_profile(tmp_path / "store" / "profiles" / "p.json")["columns"]
+    columns = load_document(tmp_path / "store" / "profiles" / "p.json")["columns"]
     assert columns["mixed"]["type"] == "str"
     assert columns["all_null"]["nulls"] == 50
     assert columns["two words"]["distinct"]["value"] == 3
@@ -235,7 +235,7 @@ def test_redacted_column_is_stored_as_keyed_hashes(tmp_path: Path) -> None:
     assert "ACC-" not in text
     key = redaction_key(tmp_path / "store", create=False)
     assert len(key) == 32 and key.hex() not in text
-    listed = dict(load_profile(tmp_path / "store" / "profiles" / "p.json")["columns"]["account"]["top"]["values"])
+    listed = dict(load_document(tmp_path / "store" / "profiles" / "p.json")["columns"]["account"]["top"]["values"])
     assert listed[redact_value(key, "ACC-1")] == 20
 
 
@@ -264,7 +264,7 @@ def test_an_estimated_distinct_count_is_never_shown_above_the_values(tmp_path: P
     data = tmp_path / "unique.parquet"
     pd.DataFrame({"k": np.arange(200_000, dtype="int64")}).to_parquet(data)   # its sketch estimates 201,898
     assert _profile(tmp_path, data, "--distinct-cap", "100", name="u").exit_code == 0
-    document = load_profile(tmp_path / "store" / "profiles" / "u.json")
+    document = load_document(tmp_path / "store" / "profiles" / "u.json")
     shown = _run("profiles", "show", "u", "--store", str(tmp_path / "store")).output
     distinct = int(shown.split("distinct ")[1].split()[0].replace(",", ""))
     assert distinct == 200_000

@@ -17,7 +17,7 @@ from flights import flights
 
 from chainlint.cli import main
 from chainlint.profile import csv_reader
-from chainlint.profile.store import load_profile
+from chainlint.profile.store import load_document
 
 
 @pytest.fixture(scope="module")
@@ -30,7 +30,7 @@ def flights_parquet(tmp_path_factory: pytest.TempPathFactory) -> Path:
 def _profile(data: list[str], store: Path, name: str, *options: str) -> dict:
     result = CliRunner().invoke(main, ["profile", *data, "--name", name, "--store", str(store), *options])
     assert result.exit_code == 0, result.output
-    return load_profile(store / "profiles" / f"{name}.json")
+    return load_document(store / "profiles" / f"{name}.json")
 
 
 @pytest.fixture(scope="module")
@@ -121,7 +121,7 @@ def test_merge_of_halves_equals_profile_of_whole(tmp_path: Path) -> None:
     _profile([str(second)], store, "second", *options)
     result = CliRunner().invoke(main, ["profiles", "--store", str(store), "merge", "merged", "first", "second"])
     assert result.exit_code == 0, result.output
-    merged = load_profile(store / "profiles" / "merged.json")
+    merged = load_document(store / "profiles" / "merged.json")
     assert merged["rows"] == expected["rows"]
     for name, column in expected["columns"].items():
         other = merged["columns"][name]
@@ -141,7 +141,7 @@ def test_merge_of_estimated_parts_states_its_bound(tmp_path: Path) -> None:
     _profile([str(first)], store, "a", "--distinct-cap", "50")
     _profile([str(second)], store, "b", "--distinct-cap", "50")
     assert CliRunner().invoke(main, ["profiles", "--store", str(store), "merge", "ab", "a", "b"]).exit_code == 0
-    merged = load_profile(store / "profiles" / "ab.json")["columns"]["tailnum"]
+    merged = load_document(store / "profiles" / "ab.json")["columns"]["tailnum"]
     truth = frame["tailnum"].nunique()
     assert merged["distinct"]["exact"] is False
     assert abs(merged["distinct"]["value"] - truth) <= 3 * 1.04 / math.sqrt(4096) * truth

@@ -8,9 +8,9 @@ from pathlib import Path
 
 from chainlint.analysis.sites import chain_site
 from chainlint.bind.binding import Binding, bind_chain
-from chainlint.bind.profiles import load_store
 from chainlint.config import Config
 from chainlint.estimate.selectivity import Estimator
+from chainlint.estimate.stores import LoadedStores
 from chainlint.model import Chain, FileAnalysis, FileError, Finding
 from chainlint.plan.chains import ChainPlan, plan_chain
 from chainlint.profile.store import find_store
@@ -80,34 +80,32 @@ class CheckResult:
 
 
 def plan_results(results: Sequence[FileAnalysis], options: Options,
-                 estimators: dict[int, Estimator] | None = None) -> tuple[list[PlannedChain], list[FileError]]:
+                 stores: LoadedStores | None = None) -> tuple[list[PlannedChain], list[FileError]]:
     """Bind and plan every chain; store and configuration problems become located errors.
 
-    `estimators` (by profile document) may be kept by a caller that plans again with the same
-    loaded store (the editor, after each change)."""
+    `stores` may be kept by a caller that plans again (the editor, after each change): a store
+    whose files did not change is not read again, nor its estimators made again."""
     planned: list[PlannedChain] = []
     errors: dict[str, FileError] = {}
-    estimators = {} if estimators is None else estimators
+    stores = LoadedStores() if stores is None else stores
     for result in results:
         if not result.chains:
             continue
         store = (options.store or find_store(Path(result.path))).resolve()
-        profiles = load_store(store)
-        for message in profiles.errors:
+        loaded = stores.load(store)
+        profiles = loaded.profiles
+        for message in loaded.errors:
             errors.setdefault(message, FileError(message.split(":")[0], 1, 1, message))
         for chain in result.chains:
             binding = bind_chain(chain, profiles, options.bindings)
             if binding.profile is None:
                 planned.append(PlannedChain(chain, binding, store=store))
                 continue
-            document = profiles.profiles[binding.profile]
-            estimator = estimators.get(id(document))
-            if estimator is None:
-                estimator = estimators[id(document)] = Estimator(document, profiles.key)
+            estimator = loaded.estimator(binding.profile)
             configured = dict(options.profile_rows).get(binding.profile)
             rows = options.rows or configured
             rows_from = "option" if options.rows else "configuration" if configured else "profile"
-            plan = keep_written(plan_chain(chain, binding, estimator, rows, profiles.model, rows_from), options.context)
+            plan = keep_written(plan_chain(chain, binding, estimator, rows, loaded.model, rows_from), options.context)
             planned.append(PlannedChain(chain, binding, plan, estimator, store))
     return planned, list(errors.values())
 

@@ -26,8 +26,7 @@ from typing import Any
 from chainlint.analysis.check import Options, PlannedChain, apply_rules, plan_results
 from chainlint.model import FileAnalysis, FileError, Finding, Span
 from chainlint.analysis.run import analyse_source
-from chainlint.bind.profiles import load_store
-from chainlint.estimate.selectivity import Estimator
+from chainlint.estimate.stores import LoadedStores
 from chainlint.find.bindings import ModuleBindings, Resolved
 from chainlint.find.chains import find_chains, module_names
 from chainlint.find.origins import READERS, profile_comment
@@ -113,13 +112,14 @@ class DocumentAnalyser:
     """Analyses successive texts of one document; safe to call from several threads (one
     analysis at a time)."""
 
-    def __init__(self, path: str, max_bytes: int = DEFAULT_MAX_BYTES) -> None:
+    def __init__(self, path: str, max_bytes: int = DEFAULT_MAX_BYTES, stores: LoadedStores | None = None) -> None:
+        """`stores`: the profile stores, shared with the caller's other documents."""
         self.path = path
         self.max_bytes = max_bytes
         self._lock = threading.Lock()
         self._units: dict[Key, _Unit] = {}
         self._parser = Reparser()
-        self._estimators: dict[int, Estimator] = {}
+        self._stores = LoadedStores() if stores is None else stores
         self._setting: tuple[Any, ...] | None = None
 
     def analyse(self, text: str, options: Options) -> DocumentAnalysis:
@@ -138,9 +138,9 @@ class DocumentAnalyser:
         except SourceError as error:
             return DocumentAnalysis(source, errors=(FileError(self.path, error.line, error.column, error.message),))
         store = (options.store or find_store(Path(self.path))).resolve()
-        setting = (options, store, load_store(store), module_names(tree), _imports(source, tree))
+        setting = (options, store, self._stores.load(store), module_names(tree), _imports(source, tree))
         if self._setting is None or any(a is not b and a != b for a, b in zip(setting, self._setting)):
-            self._units, self._estimators = {}, {}
+            self._units = {}
             self._setting = setting
         units, stale = self._reusable(source, tree, seams)
         fresh: dict[int, _Unit] = {}
@@ -153,7 +153,7 @@ class DocumentAnalyser:
                 return DocumentAnalysis(source, errors=(FileError(self.path, error.line, error.column, error.message),))
             except RecursionError:
                 return DocumentAnalysis(source, errors=(FileError(self.path, 1, 1, "nesting too deep to analyse"),))
-            planned, _ = plan_results([FileAnalysis(self.path, chains=tuple(chains))], options, self._estimators)
+            planned, _ = plan_results([FileAnalysis(self.path, chains=tuple(chains))], options, self._stores)
             findings, _ = apply_rules(planned, options)
             firsts = [first for first, _, _, _ in stale]
             chains_of: dict[int, list[PlannedChain]] = {first: [] for first in firsts}

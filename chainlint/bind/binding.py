@@ -17,6 +17,7 @@ from dataclasses import dataclass
 
 from chainlint.bind.profiles import ProfileSet
 from chainlint.model import Chain
+from chainlint.profile.view import Profile
 
 
 @dataclass(frozen=True)
@@ -34,10 +35,10 @@ def _chain_columns(chain: Chain) -> set[str]:
     return {c for step in chain.steps for c in step.predicate.columns()}
 
 
-def _source_names(document: dict) -> set[str]:
+def _source_names(profile: Profile) -> set[str]:
     names = set()
-    for entry in document.get("source", {}).get("files", []):
-        parts = entry.get("path", "").replace("\\", "/").split("/")
+    for entry in profile.source.files:
+        parts = entry.path.replace("\\", "/").split("/")
         names.update(p for p in parts if p)
     return names
 
@@ -51,7 +52,7 @@ def bind_chain(chain: Chain, profiles: ProfileSet, config: Sequence[tuple[str, s
         return Binding(None, reason=f"the comment names profile `{named}`, which {profiles.store} does not hold", missing=named)
     if origin and origin.kind == "read" and origin.path:
         wanted = os.path.basename(origin.path.replace("\\", "/").rstrip("/"))
-        matches = sorted(name for name, document in profiles.profiles.items() if wanted in _source_names(document))
+        matches = sorted(name for name, profile in profiles.profiles.items() if wanted in _source_names(profile))
         if len(matches) == 1:
             return Binding(matches[0], "source")
     frame_name = origin.name if origin and origin.name else chain.frame
@@ -64,7 +65,7 @@ def bind_chain(chain: Chain, profiles: ProfileSet, config: Sequence[tuple[str, s
     if not profiles.profiles:
         return Binding(None, reason=f"no profiles in {profiles.store}")
     columns = _chain_columns(chain)
-    holders = sorted(name for name, document in profiles.profiles.items() if columns <= set(document["columns"]))
+    holders = sorted(name for name, profile in profiles.profiles.items() if columns <= profile.by_name.keys())
     if len(holders) == 1:
         return Binding(holders[0], "columns")
     if holders:

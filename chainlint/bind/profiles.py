@@ -1,74 +1,44 @@
-"""The profiles of one store, loaded once per run and shared by every chain bound to them."""
+"""The profiles of one store, read as typed views, shared by every chain bound to them."""
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from functools import lru_cache
 from pathlib import Path
-from typing import Any
+from types import MappingProxyType
 
-from chainlint.estimate.calibrate import COST_MODEL_FILE, model_from_json
-from chainlint.estimate.cost import DEFAULT_MODEL, CostModel
-from chainlint.profile.documents import SMALL_BYTES, check_cost_model, read_json
 from chainlint.profile.format import ProfileError
-from chainlint.profile.store import (
-    StoreError,
-    list_profiles,
-    load_profile,
-    redaction_key,
-)
+from chainlint.profile.store import StoreError, list_profiles, load_profile, redaction_key
+from chainlint.profile.view import Profile
 
 
 @dataclass(frozen=True)
 class ProfileSet:
+    """A store's readable profiles by file name (`profiles/NAME.json`), the messages of those it
+    could not read, and its redaction key (to look literals of redacted columns up)."""
+
     store: Path
-    profiles: dict[str, dict[str, Any]] = field(default_factory=dict)
+    profiles: Mapping[str, Profile] = field(default_factory=lambda: MappingProxyType({}))
     errors: tuple[str, ...] = ()
     key: bytes = b""
-    model: CostModel = DEFAULT_MODEL
 
 
-def load_store(store: Path) -> ProfileSet:
-    """Every readable profile of a store; unreadable ones become error messages naming the file.
-
-    Loaded once per state of the store's files (names, sizes, modification times), so a
-    long-running process sees a re-profiled or recalibrated store without restarting.
-    """
+def load_profiles(store: Path) -> ProfileSet:
+    """Every readable profile of a store; unreadable ones become error messages naming the file."""
+    profiles: dict[str, Profile] = {}
+    errors: list[str] = []
     try:
-        files = [*list_profiles(store), store / "config.json", store / COST_MODEL_FILE]
+        paths = list_profiles(store)
     except StoreError as error:
         return ProfileSet(store, errors=(str(error),))
-    signature = []
-    for path in files:
+    for path in paths:
         try:
-            stat = path.stat()
-        except OSError:
-            continue
-        signature.append((path.name, stat.st_size, stat.st_mtime_ns))
-    return _load(store, tuple(signature))
-
-
-@lru_cache(maxsize=32)
-def _load(store: Path, signature: tuple[tuple[str, int, int], ...]) -> ProfileSet:
-    profiles: dict[str, dict[str, Any]] = {}
-    errors: list[str] = []
-    for path in list_profiles(store):
-        try:
-            document = load_profile(path)
+            profiles[path.stem] = load_profile(path)
         except ProfileError as error:
             errors.append(str(error))
-            continue
-        profiles[path.stem] = document
     try:
         key = redaction_key(store, create=False)
     except StoreError as error:
         errors.append(str(error))
         key = b""
-    model = DEFAULT_MODEL
-    model_path = store / COST_MODEL_FILE
-    if model_path.exists():
-        try:
-            model = model_from_json(check_cost_model(read_json(model_path, SMALL_BYTES), model_path))
-        except (OSError, ValueError) as error:  # DocumentError is a ValueError
-            errors.append(f"{model_path}: cannot use the calibrated cost model: {str(error).removeprefix(f'{model_path}: ')}")
-    return ProfileSet(store, profiles, tuple(errors), key, model)
+    return ProfileSet(store, MappingProxyType(profiles), tuple(errors), key)

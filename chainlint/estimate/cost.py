@@ -36,6 +36,7 @@ from chainlint.ir import (
     RowNulls,
     StrTest,
 )
+from chainlint.profile.view import Profile
 
 
 @dataclass(frozen=True)
@@ -83,8 +84,8 @@ def column_kind(pandas_type: str) -> str:
     return "numeric"
 
 
-def shape_of(profile: dict) -> FrameShape:
-    return FrameShape({name: column_kind(column["type"]) for name, column in profile["columns"].items()})
+def shape_of(profile: Profile) -> FrameShape:
+    return FrameShape({column.name: column_kind(column.dtype) for column in profile.columns})
 
 
 def predicate_cost(node: Node, shape: FrameShape, model: CostModel = DEFAULT_MODEL) -> float:

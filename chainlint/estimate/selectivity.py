@@ -37,6 +37,7 @@ from chainlint.ir import (
     RowNulls,
     StrTest,
 )
+from chainlint.profile.view import BELOW, ColumnProfile, Profile
 from chainlint.redaction import redact_value
 
 DEFAULT_EQ = 0.005
@@ -64,24 +65,22 @@ def _clip(value: float) -> float:
 class ColumnStats:
     """One column of a profile, read for estimation."""
 
-    def __init__(self, column: dict[str, Any], key: bytes) -> None:
-        rows = max(column["rows"], 1)
+    def __init__(self, column: ColumnProfile, key: bytes) -> None:
+        rows = max(column.rows, 1)
         self.rows = rows
-        self.null_share = column["nulls"] / rows
-        self.redacted = bool(column.get("redacted"))
+        self.null_share = column.nulls / rows
+        self.redacted = column.redacted
         self.key = key
-        top = column.get("top") or {"values": [], "exact": False, "complete": False}
+        top = column.top
         self.mcv: dict[Any, float] = {}
-        for value, count in top["values"]:
+        for value, count in top.values if top is not None else ():
             self.mcv[_normal(value)] = count / rows
-        self.complete = bool(top.get("exact") and top.get("complete"))
-        suppressed = column.get("suppressed") or {"values": 0, "rows": 0}
-        self.suppressed_values = suppressed["values"]
-        self.suppressed_share = suppressed["rows"] / rows
-        distinct = column.get("distinct") or {"value": 0}
-        self.distinct = max(int(distinct["value"]), len(self.mcv))
-        self.temporal = column.get("type", "").startswith("datetime")
-        bounds = (column.get("histogram") or {}).get("bounds")
+        self.complete = top is not None and top.exact and top.complete
+        self.suppressed_values = column.suppressed_values
+        self.suppressed_share = column.suppressed_rows / rows
+        self.distinct = max(int(column.distinct.value if column.distinct is not None else 0), len(self.mcv))
+        self.temporal = column.dtype.startswith("datetime")
+        bounds = column.histogram.bounds if column.histogram is not None else None
         self.bounds = None
         if bounds and not self.temporal and all(isinstance(b, (int, float)) for b in bounds):
             self.bounds = np.array(bounds, dtype=np.float64)
@@ -89,7 +88,7 @@ class ColumnStats:
             instants = [_instant(b) for b in bounds]
             if all(i is not None for i in instants):
                 self.bounds = np.array(instants, dtype=np.float64)
-        self.type = column.get("type", "")
+        self.type = column.dtype
 
     def lookup(self, value: Any) -> Any:
         return redact_value(self.key, value) if self.redacted else _normal(value)
@@ -169,17 +168,17 @@ def _number(value: Any) -> float | None:
 class Estimator:
     """Selectivities of IR nodes against one profile."""
 
-    def __init__(self, profile: dict[str, Any], key: bytes = b"") -> None:
+    def __init__(self, profile: Profile, key: bytes = b"") -> None:
         self.profile = profile
-        self.columns = {name: ColumnStats(column, key) for name, column in profile["columns"].items()}
+        self.columns = {column.name: ColumnStats(column, key) for column in profile.columns}
         self.shape = shape_of(profile)
-        self.rows = max(profile["rows"], 1)
-        below = profile["settings"]["min_count"] / 2
+        self.rows = max(profile.rows, 1)
+        below = profile.settings.min_count / 2
         # Joint counts (profile --for): per set of predicate texts, rows passing each subset.
         self.joint: list[tuple[dict[str, int], dict[int, float]]] = []
-        for entry in profile.get("joint", []):
-            positions = {text: bit for bit, text in enumerate(entry["predicates"])}
-            counts = {int(mask): (below if count == "below" else float(count)) for mask, count in entry["subsets"]}
+        for entry in profile.joint or ():
+            positions = {text: bit for bit, text in enumerate(entry.predicates)}
+            counts = {int(mask): (below if count == BELOW else float(count)) for mask, count in entry.subsets}
             self.joint.append((positions, counts))
 
     def clustering(self, node: Node) -> float:
@@ -189,8 +188,8 @@ class Estimator:
         if len(columns) != 1 or not isinstance(node, (Compare, Member, Range, NullTest, StrTest)):
             return 0.0
         (name,) = columns
-        column = self.profile["columns"].get(name, {})
-        return float(column.get("clustering", 0.0))
+        column = self.profile.column(name)
+        return column.clustering if column is not None else 0.0
 
     def joint_share(self, texts: frozenset[str]) -> float | None:
         """The exact share of rows passing all of `texts` together, when a joint entry has it."""

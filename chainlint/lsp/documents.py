@@ -23,6 +23,7 @@ from pygls.workspace import Workspace
 from chainlint.analysis.check import RULES, Options, options_from
 from chainlint.analysis.document import DocumentAnalyser, DocumentAnalysis
 from chainlint.config import ConfigError, load_config
+from chainlint.estimate.stores import LoadedStores
 
 logger = logging.getLogger("chainlint.lsp")
 
@@ -64,6 +65,7 @@ class Documents:
         self.analysers: dict[str, DocumentAnalyser] = {}
         self.pending: dict[str, asyncio.Task[None]] = {}
         self.executor = ThreadPoolExecutor(max_workers=2, thread_name_prefix="chainlint-analysis")
+        self.stores = LoadedStores()  # the profile stores every document reads, loaded once per state
 
     async def current(self, workspace: Workspace, uri: str) -> DocumentState | None:
         """The analysis of the document's latest text, or None (not open, or changed meanwhile)."""
@@ -76,7 +78,7 @@ class Documents:
             return state
         analyser = self.analysers.get(uri)
         if analyser is None:
-            analyser = self.analysers[uri] = DocumentAnalyser(document_path(uri), self.max_bytes)
+            analyser = self.analysers[uri] = DocumentAnalyser(document_path(uri), self.max_bytes, self.stores)
         analysis = await asyncio.get_running_loop().run_in_executor(self.executor, _analyse, analyser, text)
         latest = workspace.text_documents.get(uri)
         if latest is None or latest.version != version or latest.source != text:

@@ -18,6 +18,7 @@ from lsprotocol import types
 
 from chainlint.analysis.check import Options, PlannedChain, apply_rules, plan_results
 from chainlint.analysis.run import analyse_notebook
+from chainlint.estimate.stores import LoadedStores
 from chainlint.model import Edit, Finding, Span
 from chainlint.notebook.cells import notebook_from_cells
 from chainlint.parse.source import SourceText
@@ -67,10 +68,11 @@ def code_cells(ls, notebook: types.NotebookDocument) -> list[tuple[int, str, str
     return cells
 
 
-def analyse_cells(notebook_uri: str, path: str, cells: Sequence[tuple[int, str, str]], options: Options) -> dict[str, CellState]:
+def analyse_cells(notebook_uri: str, path: str, cells: Sequence[tuple[int, str, str]], options: Options,
+                  stores: LoadedStores | None = None) -> dict[str, CellState]:
     """Each code cell's state, by cell URI (every cell given has one, with or without findings)."""
     book = notebook_from_cells(path, [(index, None, text) for index, _, text in cells])
-    planned, _ = plan_results([analyse_notebook(book)], options)
+    planned, _ = plan_results([analyse_notebook(book)], options, stores)
     findings, _ = apply_rules(planned, options)
     uris = {index: uri for index, uri, _ in cells}
     states: dict[str, CellState] = {}
@@ -106,11 +108,13 @@ def cell_fix(state: CellState, finding: Finding) -> Edit | None:
 # -- the server's side -------------------------------------------------------------------------
 
 class Notebooks:
-    """The last analysis of each open notebook, by cell URI, and the cells each notebook had."""
+    """The last analysis of each open notebook, by cell URI, the cells each notebook had, and
+    the profile stores read for them (read again only when their files change)."""
 
     def __init__(self) -> None:
         self.cells: dict[str, CellState] = {}
         self.published: dict[str, list[str]] = {}
+        self.stores = LoadedStores()
 
 
 def _range(ls, lines: Sequence[str], span: Span) -> types.Range:  # type: ignore[no-untyped-def]
@@ -133,12 +137,12 @@ def refresh(ls, uri: str, options_for: Callable[[str], Options]) -> None:  # typ
     if notebook is None:
         return
     path = _path(uri)
+    store: Notebooks = ls.notebooks
     try:
-        states = analyse_cells(uri, path, code_cells(ls, notebook), options_for(path))
+        states = analyse_cells(uri, path, code_cells(ls, notebook), options_for(path), store.stores)
     except Exception:  # noqa: BLE001 - one bad notebook must not stop the server
         logger.exception("analysis of %s failed", uri)
         return
-    store: Notebooks = ls.notebooks
     for cell_uri in store.published.get(uri, []):
         store.cells.pop(cell_uri, None)
         if cell_uri not in states:

@@ -25,6 +25,7 @@ from chainlint.profile.joint import JointCounter
 from chainlint.profile.readers import Dataset, memory_dataset
 from chainlint.profile.settings import Settings
 from chainlint.profile.store import StoreError, check_name, find_store, save_profile
+from chainlint.profile.view import Profile
 from chainlint.report.explain import explain_text
 
 
@@ -58,7 +59,7 @@ def plan_on_frame(chain: Chain, frame: Any) -> LivePlan:
     # The frame's own dtypes judge how far steps may move: an object column of strings reads
     # as Arrow strings (`str` in a profile), but `.str` of it gives missing values that cannot mask.
     dtypes = {str(column): str(dtype) for column, dtype in frame.dtypes.items()}
-    plan = plan_chain(chain, Binding(name, "the kernel's frame"), Estimator(document), len(frame), dtypes=dtypes)
+    plan = plan_chain(chain, Binding(name, "the kernel's frame"), Estimator(Profile.from_document(document)), len(frame), dtypes=dtypes)
     shown = replace(chain, path="cell")
     text = explain_text([PlannedChain(shown, plan.binding, replace(plan, chain=shown))])
     for predicate, reason in sorted(joint.skipped.items()):

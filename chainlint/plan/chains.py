@@ -22,7 +22,7 @@ from chainlint.estimate.cost import (
 from chainlint.estimate.selectivity import Estimate, Estimator
 from chainlint.model import Chain
 from chainlint.plan.planner import EXACT_LIMIT, plan_segment
-from chainlint.plan.totality import ANY, LATER, STAYS, Limit, dtypes_of, judge
+from chainlint.plan.totality import ANY, LATER, STAYS, Limit, judge
 
 
 @dataclass(frozen=True)
@@ -74,7 +74,7 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
     `dtypes` (a live frame's own) replace the profile's for the totality judgement."""
     profile = estimator.profile
     shape = estimator.shape
-    total_rows = rows or profile["rows"]
+    total_rows = rows or profile.rows
     estimates = [estimator.estimate(step.predicate) for step in chain.steps]
     predicates = [predicate_cost(step.predicate, shape, model) for step in chain.steps]
 
@@ -109,7 +109,7 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
         return cache[mask]
 
     clustered = [estimator.clustering(step.predicate) for step in chain.steps]
-    dtypes = dtypes if dtypes is not None else dtypes_of(profile)
+    dtypes = dtypes if dtypes is not None else profile.dtypes()
     limits = tuple(judge(step.predicate, dtypes, binding.profile or "") if step.movable else None for step in chain.steps)
 
     def cost(step: int, rows_in: float, kept: float) -> float:

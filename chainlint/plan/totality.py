@@ -263,9 +263,3 @@ class _Judge:
             return
         if _REGEX_UNSAFE.search(node.pattern.value):
             self.note(LATER, f"`{text}` uses regular-expression syntax that pyarrow's engine may refuse")
-
-
-def dtypes_of(profile: Mapping) -> dict[str, str]:
-    """Column name -> pandas dtype name, as a profile records them."""
-    return {name: column["type"] for name, column in profile.get("columns", {}).items()}
-

@@ -1,5 +1,6 @@
-"""The store's JSON documents (profiles, `config.json`, `cost-model.json`), read and checked
-against their documented format once, on load, so that nothing later meets a wrong type.
+"""The store's JSON documents (profiles, `config.json`; `cost-model.json` with these checks, in
+`chainlint.estimate.model_file`), read and checked against their documented format once, on
+load, so that nothing later meets a wrong type.
 
 Reading refuses what is not a regular file (a FIFO would block, `/dev/zero` never ends), files
 over a size cap, NaN and Infinity (not JSON, though Python's parser takes them), integers of
@@ -15,7 +16,6 @@ import os
 import re
 import stat
 from collections.abc import Callable
-from dataclasses import asdict
 from pathlib import Path
 from typing import Any
 
@@ -103,7 +103,9 @@ def _depth(document: Any) -> int:
     return deepest
 
 
-class _Problem(Exception):
+class FieldProblem(Exception):
+    """A field of a document that the format does not allow (raised by the checks below)."""
+
     def __init__(self, field: str, message: str) -> None:
         super().__init__(f"field {field}: {message}")
 
@@ -119,55 +121,55 @@ def _kind(value: Any) -> str:
 def integer(low: int = 0) -> Check:
     def check(value: Any, field: str) -> None:
         if isinstance(value, bool) or not isinstance(value, int):
-            raise _Problem(field, f"must be an integer, not {_kind(value)}")
+            raise FieldProblem(field, f"must be an integer, not {_kind(value)}")
         if value < low:
-            raise _Problem(field, f"must be at least {low}, not {value}")
+            raise FieldProblem(field, f"must be at least {low}, not {value}")
     return check
 
 
 def number(low: float = -math.inf, high: float = math.inf) -> Check:
     def check(value: Any, field: str) -> None:
         if isinstance(value, bool) or not isinstance(value, (int, float)):
-            raise _Problem(field, f"must be a number, not {_kind(value)}")
+            raise FieldProblem(field, f"must be a number, not {_kind(value)}")
         if not low <= value <= high:
-            raise _Problem(field, f"must lie in [{low:g}, {high:g}], not {value}")
+            raise FieldProblem(field, f"must lie in [{low:g}, {high:g}], not {value}")
     return check
 
 
 def text(pattern: re.Pattern[str] | None = None, limit: int = 1 << 20) -> Check:
     def check(value: Any, field: str) -> None:
         if not isinstance(value, str):
-            raise _Problem(field, f"must be a string, not {_kind(value)}")
+            raise FieldProblem(field, f"must be a string, not {_kind(value)}")
         if len(value) > limit:
-            raise _Problem(field, f"longer than {limit:,} characters")
+            raise FieldProblem(field, f"longer than {limit:,} characters")
         if pattern is not None and not pattern.fullmatch(value):
-            raise _Problem(field, f"{value[:80]!r} is not of the form the format gives")
+            raise FieldProblem(field, f"{value[:80]!r} is not of the form the format gives")
     return check
 
 
 def flag(value: Any, field: str) -> None:
     if not isinstance(value, bool):
-        raise _Problem(field, f"must be true or false, not {_kind(value)}")
+        raise FieldProblem(field, f"must be true or false, not {_kind(value)}")
 
 
 def scalar(value: Any, field: str) -> None:
     if isinstance(value, (dict, list)):
-        raise _Problem(field, f"must be a single value, not {_kind(value)}")
+        raise FieldProblem(field, f"must be a single value, not {_kind(value)}")
 
 
 def constant(wanted: Any) -> Check:
     def check(value: Any, field: str) -> None:
         if value != wanted:
-            raise _Problem(field, f"must be {json.dumps(wanted)}")
+            raise FieldProblem(field, f"must be {json.dumps(wanted)}")
     return check
 
 
 def listing(item: Check, least: int = 0) -> Check:
     def check(value: Any, field: str) -> None:
         if not isinstance(value, list):
-            raise _Problem(field, f"must be a list, not {_kind(value)}")
+            raise FieldProblem(field, f"must be a list, not {_kind(value)}")
         if len(value) < least:
-            raise _Problem(field, f"must hold at least {least} item{'s' if least != 1 else ''}")
+            raise FieldProblem(field, f"must hold at least {least} item{'s' if least != 1 else ''}")
         for index, entry in enumerate(value):
             item(entry, f"{field}[{index}]")
     return check
@@ -176,7 +178,7 @@ def listing(item: Check, least: int = 0) -> Check:
 def pair(first: Check, second: Check) -> Check:
     def check(value: Any, field: str) -> None:
         if not isinstance(value, list) or len(value) != 2:
-            raise _Problem(field, "must be a [value, count] pair")
+            raise FieldProblem(field, "must be a [value, count] pair")
         first(value[0], f"{field}[0]")
         second(value[1], f"{field}[1]")
     return check
@@ -189,19 +191,19 @@ def either(*checks: Check) -> Check:
             try:
                 option(value, field)
                 return
-            except _Problem as problem:
+            except FieldProblem as problem:
                 problems.append(str(problem).split(": ", 1)[1])
-        raise _Problem(field, " or ".join(problems))
+        raise FieldProblem(field, " or ".join(problems))
     return check
 
 
 def mapping(value_check: Check, key: re.Pattern[str] | None = None) -> Check:
     def check(value: Any, field: str) -> None:
         if not isinstance(value, dict):
-            raise _Problem(field, f"must be an object, not {_kind(value)}")
+            raise FieldProblem(field, f"must be an object, not {_kind(value)}")
         for name, entry in value.items():
             if key is not None and not key.fullmatch(name):
-                raise _Problem(field, f"{name[:80]!r} is not a valid key")
+                raise FieldProblem(field, f"{name[:80]!r} is not a valid key")
             value_check(entry, f"{field}.{name}")
     return check
 
@@ -210,10 +212,10 @@ def record(required: dict[str, Check], optional: dict[str, Check] | None = None)
     """An object with these keys; keys the format does not name are left alone."""
     def check(value: Any, field: str) -> None:
         if not isinstance(value, dict):
-            raise _Problem(field or "(top level)", f"must be an object, not {_kind(value)}")
+            raise FieldProblem(field or "(top level)", f"must be an object, not {_kind(value)}")
         for name, entry_check in required.items():
             if name not in value:
-                raise _Problem(_join(field, name), "is missing")
+                raise FieldProblem(_join(field, name), "is missing")
             entry_check(value[name], _join(field, name))
         for name, entry_check in (optional or {}).items():
             if name in value:
@@ -229,7 +231,7 @@ def validated(document: Any, path: Path | str, check: Check) -> Any:
     """`document` when `check` passes; a DocumentError naming `path` and the field otherwise."""
     try:
         check(document, "")
-    except _Problem as problem:
+    except FieldProblem as problem:
         raise DocumentError(f"{path}: {problem}") from None
     return document
 
@@ -253,12 +255,12 @@ def _column(value: Any, field: str) -> None:
         },
     )(value, field)
     if value["nulls"] > value["rows"]:
-        raise _Problem(f"{field}.nulls", f"{value['nulls']} is more than the column's {value['rows']} rows")
+        raise FieldProblem(f"{field}.nulls", f"{value['nulls']} is more than the column's {value['rows']} rows")
     if ("min" in value) != ("max" in value):
-        raise _Problem(f"{field}.{'max' if 'min' in value else 'min'}", "is missing (min and max come together)")
+        raise FieldProblem(f"{field}.{'max' if 'min' in value else 'min'}", "is missing (min and max come together)")
     distinct = value.get("distinct")
     if distinct is not None and not distinct["exact"] and "standard_error" not in distinct:
-        raise _Problem(f"{field}.distinct.standard_error", "is missing (an estimated count states its error)")
+        raise FieldProblem(f"{field}.distinct.standard_error", "is missing (an estimated count states its error)")
 
 
 _PROFILE = record(
@@ -281,7 +283,8 @@ _PROFILE = record(
     {
         "column_order": listing(text()),
         "joint": listing(record({"predicates": listing(text()),
-                                 "subsets": listing(pair(integer(), either(integer(), constant("below"))))})),
+                                 "subsets": listing(pair(integer(), either(integer(), constant("below"))))},
+                                {"chains": listing(text())})),
     },
 )
 
@@ -303,27 +306,3 @@ _STORE_CONFIG = record({}, {"redaction_key": text(re.compile(r"[0-9a-f]{64}"))})
 def check_store_config(document: Any, path: Path | str) -> dict[str, Any]:
     """`.chainlint/config.json`: the store's settings (today the redaction key)."""
     return validated(document, path, _STORE_CONFIG)
-
-
-def check_cost_model(document: Any, path: Path | str) -> dict[str, Any]:
-    """`.chainlint/cost-model.json`, written by `chainlint calibrate`: every field it holds has
-    the shape of the built-in model's (unknown fields are refused when the model is built)."""
-    from chainlint.estimate.cost import DEFAULT_MODEL  # the estimator's own defaults give the shape
-
-    fields: dict[str, Check] = {}
-    for name, default in asdict(DEFAULT_MODEL).items():
-        if isinstance(default, dict):
-            fields[name] = record({kind: number(0, 1e12) for kind in default})
-        elif isinstance(default, (list, tuple)):
-            fields[name] = _share_costs
-        else:
-            fields[name] = number(0, 1e12)
-    model = record({}, fields)
-    return validated(document, path, record({"format": constant("chainlint-cost-model"), "model": model},
-                                            {"format_version": constant(1)}))
-
-
-def _share_costs(value: Any, field: str) -> None:
-    listing(pair(number(0, 1), number(0, 1e12)))(value, field)
-    if not value:
-        raise _Problem(field, "must hold at least one [share, cost] pair")

@@ -11,9 +11,9 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
-from typing import Any
 
 from chainlint.profile.errors import DataError
+from chainlint.profile.view import Profile
 
 
 @dataclass(frozen=True)
@@ -87,26 +87,26 @@ def sha256_of(path: str) -> str:
     return digest.hexdigest()
 
 
-def fingerprint_state(document: dict[str, Any], store: Path) -> tuple[str, str]:
+def fingerprint_state(profile: Profile, store: Path) -> tuple[str, str]:
     """("up to date" | "out of date" | "data missing", detail) for a profile's recorded files.
 
     Recorded paths are as given when profiling; relative ones are looked up from here, then
     from the project folder that holds the store.
     """
-    files = document.get("source", {}).get("files", [])
-    if not files or "merged_from" in document.get("source", {}):
+    files = profile.source.files
+    if not files or profile.source.merged_from is not None:
         return "data missing", "the profile records no single dataset to compare with"
     found = []
     for entry in files:
-        candidates = [Path(entry["path"]), store.resolve().parent / entry["path"]]
+        candidates = [Path(entry.path), store.resolve().parent / entry.path]
         path = next((c for c in candidates if c.is_file()), None)
         if path is None:
-            return "data missing", f"{entry['path']} is not there"
+            return "data missing", f"{entry.path} is not there"
         found.append(path)
     combined = hashlib.sha256()
     for path in found:
         combined.update(sha256_of(str(path)).encode())
-    if "sha256:" + combined.hexdigest() == document["source"].get("fingerprint"):
+    if "sha256:" + combined.hexdigest() == profile.source.fingerprint:
         return "up to date", ""
-    changed = [str(p) for p, e in zip(found, files) if os.path.getsize(p) != e.get("bytes")]
+    changed = [str(p) for p, e in zip(found, files) if os.path.getsize(p) != e.bytes]
     return "out of date", ("changed: " + ", ".join(changed)) if changed else "the data's content changed"

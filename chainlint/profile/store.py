@@ -22,6 +22,7 @@ from chainlint.profile.documents import (
     read_json,
 )
 from chainlint.profile.format import ProfileError, dumps
+from chainlint.profile.view import Profile
 from chainlint.writer import WriteError, write_file
 
 STORE_FOLDER = ".chainlint"
@@ -74,14 +75,20 @@ def write_atomic(path: Path, text: str) -> None:
         raise StoreError(str(error)) from None
 
 
-def load_profile(path: Path) -> dict[str, Any]:
-    """A profile checked against its documented format (`chainlint.profile.documents`)."""
+def load_document(path: Path) -> dict[str, Any]:
+    """A profile document checked against its documented format (`chainlint.profile.documents`),
+    for merging and rewriting; reading it is `load_profile`."""
     try:
         return check_profile(read_json(path, PROFILE_BYTES), path)
     except FileNotFoundError:
         raise ProfileError(f"{path}: no such profile") from None
     except DocumentError as error:
         raise ProfileError(str(error)) from None
+
+
+def load_profile(path: Path) -> Profile:
+    """A profile, checked and read into its typed view."""
+    return Profile.from_document(load_document(path))
 
 
 def save_profile(store: Path, document: dict[str, Any]) -> tuple[Path, bool]:
@@ -93,7 +100,7 @@ def save_profile(store: Path, document: dict[str, Any]) -> tuple[Path, bool]:
     path = profile_path(store, document["name"])
     if path.exists():
         try:
-            old = load_profile(path)
+            old = load_document(path)
         except ProfileError:
             old = None
         if old is not None and {**old, "created": None} == {**json.loads(dumps(document)), "created": None}:

@@ -35,7 +35,7 @@ def _tests(node: Node):  # type: ignore[no-untyped-def]
 
 def check(plan: ChainPlan, estimator: Estimator) -> list[Finding]:
     findings = []
-    min_count = estimator.profile["settings"]["min_count"]
+    min_count = estimator.profile.settings.min_count
     for step in plan.chain.steps:
         for column, value in _tests(step.predicate):
             stats = estimator.columns.get(column)

@@ -24,7 +24,7 @@ def gap(plan: ChainPlan, estimator: Estimator, site: str) -> tuple[str, str] | N
     """("stale" | "uncounted", why) for the first segment of two or more movable steps that the
     profile's joint counts do not cover, or None. Only profiles made with joint counts have
     gaps."""
-    if "joint" not in estimator.profile:
+    if estimator.profile.joint is None:
         return None
     name = plan.binding.profile
     for segment in plan.chain.segments():
@@ -36,18 +36,17 @@ def gap(plan: ChainPlan, estimator: Estimator, site: str) -> tuple[str, str] | N
             reason = unevaluable(step.predicate)
             if reason:
                 return "uncounted", f"`{step.predicate.canonical()}` cannot be counted on data: {reason}"
-            redacted = sorted(step.predicate.columns() & set(estimator.profile["settings"].get("redacted", ())))
+            redacted = sorted(step.predicate.columns() & set(estimator.profile.settings.redacted))
             if redacted:
                 return "uncounted", f"`{step.predicate.canonical()}` reads `{redacted[0]}`, a redacted column, whose counts are not stored"
             missing = sorted(step.predicate.columns() - estimator.columns.keys())
             if missing:
                 return "uncounted", (f"`{step.predicate.canonical()}` reads `{missing[0]}`, which the data of profile "
                                      f"`{name}` does not have (a column the code computes?)")
-        for entry in estimator.profile["joint"]:
-            sites = entry.get("chains")
-            if texts & set(entry["predicates"]) and (sites is None or site in sites):
+        for entry in estimator.profile.joint:
+            if texts & set(entry.predicates) and (entry.chains is None or site in entry.chains):
                 return "stale", ""
-        created = str(estimator.profile.get("created", ""))
+        created = estimator.profile.created
         if _modified_after(plan.chain.path, created):
             return "uncounted", f"its file changed after profile `{name}` was made ({created})"
         return "uncounted", f"it was not among the chains counted when profile `{name}` was made"
