@@ -6,13 +6,13 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
-from chainlint.analysis.sites import chain_site
 from chainlint.bind.binding import Binding, bind_chain
 from chainlint.config import Config
 from chainlint.estimate.selectivity import Estimator
 from chainlint.estimate.stores import LoadedStores
 from chainlint.model import Chain, FileAnalysis, FileError, Finding
 from chainlint.plan.chains import ChainPlan, plan_chain
+from chainlint.profile.sites import chain_site
 from chainlint.profile.store import find_store
 from chainlint.rules import (
     CATALOG,

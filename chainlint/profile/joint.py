@@ -21,12 +21,12 @@ from pathlib import Path
 import numpy as np
 import pyarrow as pa
 
-from chainlint.analysis.sites import chain_site
 from chainlint.evaluate.arrow_masks import bit_mask
 from chainlint.evaluate.support import NotEvaluable, unevaluable
 from chainlint.ir import Node
 from chainlint.model import Chain
 from chainlint.profile.privacy import hide_small_cells
+from chainlint.profile.sites import chain_site
 
 MAX_STEPS = 12
 PACKED_STEPS = 6  # 2**6 ANDs of packed masks beat a per-row code; past that, bincount wins
