@@ -64,3 +64,11 @@ def test_a_run_reads_a_store_once_per_state_of_its_files(tmp_path: Path) -> None
     again = stores.load(tmp_path)
     assert again is not first and again.profiles.profiles["scans"].rows == document["rows"] + 1
     assert LoadedStores().load(tmp_path) is not again  # another run's object reads the store itself
+
+
+def test_the_view_travels_between_processes() -> None:
+    import pickle
+
+    profile = load_profile(DEMO)
+    assert profile.column("depot") is not None
+    assert pickle.loads(pickle.dumps(profile)) == profile

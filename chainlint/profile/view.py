@@ -173,12 +173,16 @@ class Profile:
         )
 
     @cached_property
+    def _index(self) -> dict[str, ColumnProfile]:
+        return {column.name: column for column in self.columns}
+
+    @property
     def by_name(self) -> Mapping[str, ColumnProfile]:
         """The columns by name (read-only)."""
-        return MappingProxyType({column.name: column for column in self.columns})
+        return MappingProxyType(self._index)
 
     def column(self, name: str) -> ColumnProfile | None:
-        return self.by_name.get(name)
+        return self._index.get(name)
 
     def dtypes(self) -> dict[str, str]:
         """Column name -> the dtype pandas reads it as."""
