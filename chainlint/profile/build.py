@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import importlib
 import os
 from collections.abc import Callable
 from concurrent.futures import Future, ThreadPoolExecutor
@@ -31,6 +32,8 @@ def profile_dataset(
     # Columns are independent and numpy/pyarrow release the GIL for the heavy work, so the
     # columns of a batch are spread over threads.
     with ThreadPoolExecutor(max_workers=os.cpu_count() or 1) as pool, ThreadPoolExecutor(max_workers=1) as reader:
+        if joint is not None and joint.needs_pandas():
+            pool.submit(importlib.import_module, "pandas")  # imported while the first batch is read
         batches = iter(dataset.batches)
         ahead = reader.submit(next, batches, None)
         counted: Future[None] | None = None

@@ -12,8 +12,6 @@ predicates, the rows that pass each subset of them, changed so that no group of 
 
 from __future__ import annotations
 
-import importlib
-import threading
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -74,11 +72,12 @@ class JointCounter:
                     if root is not None:
                         self.targets[texts].sites.add(chain_site(chain, root))
             self.chains += counted
-        if self.targets:
-            # pyarrow turns Python literals into scalars through its pandas shim, which imports
-            # pandas (0.2 s) on first use: start that import now, while the data is opened.
-            threading.Thread(target=importlib.import_module, args=("pandas",), daemon=True).start()
         self.needed = sorted({name for target in self.targets.values() for p in target.predicates for name in p.columns()})
+
+    def needs_pandas(self) -> bool:
+        """Whether counting will import pandas: pyarrow turns Python literals into scalars
+        through its pandas shim, which imports pandas (0.2 s) on first use."""
+        return bool(self.targets)
 
     def add(self, table: pa.Table) -> None:
         if not self.targets or table.num_rows == 0:
