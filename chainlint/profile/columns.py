@@ -22,6 +22,7 @@ from chainlint.profile.dtypes import NUMERIC, temporal_ints, value_kind
 from chainlint.profile.settings import Settings
 from chainlint.profile.sketches import HyperLogLog, WeightedSample, hash32, hash_strings
 
+
 def _narrow(values: np.ndarray) -> bool:
     """Whether the values are integers (within int64) spanning few enough values that
     `bincount` counts them faster than hashing."""
@@ -42,6 +43,8 @@ def _surely_past(valid: pa.Array | pa.ChunkedArray, cap: int) -> bool:
 
 
 class ColumnProfiler:
+    """One column's counts, exact or summarised, fed a batch at a time (`add_batch`)."""
+
     #: pyarrow's errors for a type it has no kernel for.
     ARROW_ERRORS = (pa.ArrowNotImplementedError, pa.ArrowInvalid, pa.ArrowTypeError)
 
