@@ -11,25 +11,13 @@ import ast
 from dataclasses import dataclass, replace
 
 from chainlint.model import Barrier, Chain, Span, Step
-from chainlint.find.bindings import ModuleBindings, Resolved
-from chainlint.find.origins import Origins, keep_comment, profile_comment
-from chainlint.find.predicates import dotted_name
+from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
+from chainlint.find.origins import Origins, keep_comment, near, profile_comment
+from chainlint.find.positions import Positions
 from chainlint.find.runs import bound, inplace_dropna, mentioned, read_elsewhere, steps_over
 from chainlint.find.screen import Seams
-from chainlint.find.steps import (
-    Masks,
-    Names,
-    Shape,
-    StepContext,
-    build_step,
-    hidden_by_screen,
-    is_mask_value,
-    mask_frames,
-    peel,
-    rows_axis,
-    selected_columns,
-)
-
+from chainlint.find.shapes import Masks, Names, Shape, hidden_by_screen, is_mask_value, mask_frames, peel, rows_axis
+from chainlint.find.steps import StepContext, build_step, selected_columns
 from chainlint.parse.source import SourceText
 
 
@@ -99,43 +87,8 @@ class _Finder:
         self.names = names
         self.chains: list[Chain] = []
         self.absorbed: set[int] = set()
-        self.origins = Origins(names.pandas, source.lines, lambda name: bindings.resolve(name, self.scope))
-
-    # -- positions ------------------------------------------------------------------------
-    def text_of(self, node: ast.AST) -> str:
-        text = self.source.segment(
-            (node.lineno, node.col_offset),  # type: ignore[attr-defined]
-            (node.end_lineno, node.end_col_offset),  # type: ignore[attr-defined]
-        )
-        return " ".join(text.split())
-
-    def node_span(self, node: ast.AST) -> Span:
-        source = self.source
-        return Span(
-            node.lineno,  # type: ignore[attr-defined]
-            source.column(node.lineno, node.col_offset),  # type: ignore[attr-defined]
-            node.end_lineno,  # type: ignore[attr-defined]
-            source.column(node.end_lineno, node.end_col_offset),  # type: ignore[attr-defined]
-        )
-
-    def step_span(self, shape: Shape) -> Span:
-        """From the `.` or `[` that opens the step to the end of the step."""
-        source = self.source
-        inner = shape.inner
-        offset = source.offset(inner.end_lineno, inner.end_col_offset)  # type: ignore[arg-type]
-        text = source.text
-        while offset < len(text):
-            char = text[offset]
-            if char in ".[":
-                break
-            if char == "#":  # a comment runs to the line break, whichever the file uses
-                breaks = [i for i in (text.find("\n", offset), text.find("\r", offset)) if i >= 0]
-                offset = min(breaks) if breaks else len(text)
-                continue
-            offset += 1
-        line, column = source.position(offset)
-        end = self.node_span(shape.node)
-        return Span(line, column, end.end_line, end.end_column)
+        self.origins = Origins(names.pandas, source.lines, bindings, lambda: self.scope)
+        self.positions = Positions(source)
 
     # -- walking --------------------------------------------------------------------------
     def block(self, statements: list[ast.stmt]) -> None:
@@ -245,30 +198,12 @@ class _Finder:
 
     # -- building chains ------------------------------------------------------------------
     def method_chain(self, node: ast.expr, decomposed: _Decomposed) -> Chain:
-        frame = self.text_of(decomposed.base)
+        frame = self.positions.text_of(decomposed.base)
         root = dotted_name(decomposed.base)
         outer = frozenset([root]) if root else frozenset()
         steps = self.steps(decomposed, root, outer, statement=0)
-        span = self.node_span(node)
-        return Chain(self.source.path, span, frame, "method", steps, self.origins.lookup(root, decomposed.base), self.comment_near(span.line), self.keep_near(span.line))
-
-    def keep_near(self, line: int) -> tuple[str, ...] | None:
-        lines = self.source.lines
-        for number in (line, line - 1):
-            if 0 < number <= len(lines):
-                found = keep_comment(lines[number - 1])
-                if found is not None:
-                    return found
-        return None
-
-    def comment_near(self, line: int) -> str | None:
-        lines = self.source.lines
-        for number in (line, line - 1):
-            if 0 < number <= len(lines):
-                found = profile_comment(lines[number - 1])
-                if found:
-                    return found
-        return None
+        span = self.positions.node_span(node)
+        return Chain(self.source.path, span, frame, "method", steps, self.origins.lookup(root, decomposed.base), near(self.source.lines, span.line, profile_comment), near(self.source.lines, span.line, keep_comment))
 
     def resolver(self):  # type: ignore[no-untyped-def]
         bindings, scope = self.bindings, self.scope
@@ -291,9 +226,9 @@ class _Finder:
                 own=own if index == 0 else None,
                 outer=outer,
                 names=self.names,
-                text_of=self.text_of,
-                span_of=self.node_span,
-                span=self.step_span(shape),
+                text_of=self.positions.text_of,
+                span_of=self.positions.node_span,
+                span=self.positions.step_span(shape.inner, shape.node),
                 statement=statement,
                 resolve=resolve,
                 assigned=assigned,
@@ -381,13 +316,13 @@ class _Finder:
                 reason = f"`{member.fence}` is assigned between this filter and the one before: no step moves across that statement"
                 built[0] = replace(built[0], barrier=Barrier("frame", reason))
             steps.extend(built)
-        start = self.node_span(members[0].statement)
-        end = self.node_span(members[-1].statement)
+        start = self.positions.node_span(members[0].statement)
+        end = self.positions.node_span(members[-1].statement)
         span = Span(start.line, start.column, end.end_line, end.end_column)
         origin = self.origins.lookup(root, first_base)
         return Chain(
-            self.source.path, span, self.text_of(first_base), "statements", tuple(steps), origin,
-            self.comment_near(span.line), self.keep_near(span.line),
+            self.source.path, span, self.positions.text_of(first_base), "statements", tuple(steps), origin,
+            near(self.source.lines, span.line, profile_comment), near(self.source.lines, span.line, keep_comment),
         )
 
     def assignment(self, statement: ast.stmt) -> tuple[str, _Decomposed] | None:

@@ -10,13 +10,14 @@ from __future__ import annotations
 import ast
 import re
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from typing import TypeVar
 
-from chainlint.find.bindings import VALUE, Resolved
 from chainlint.model import FrameOrigin
+from chainlint.find.bindings import VALUE, ModuleBindings
 
 PROFILE_COMMENT = re.compile(r"#\s*chainlint:\s*profile\s*=\s*([A-Za-z0-9][A-Za-z0-9_.\-]*)")
 READERS = frozenset({"read_csv", "read_parquet", "read_feather", "read_json"})
+T = TypeVar("T")
 
 
 KEEP_COMMENT = re.compile(r"#\s*chainlint:\s*keep\b([ \t\w,-]*)")
@@ -33,6 +34,16 @@ def keep_comment(line: str) -> tuple[str, ...] | None:
 def profile_comment(line: str) -> str | None:
     match = PROFILE_COMMENT.search(line)
     return match.group(1) if match else None
+
+
+def near(lines: tuple[str, ...], line: int, read: Callable[[str], T | None]) -> T | None:
+    """What `read` finds in a comment on line `line` (1-based) or, failing that, the line above."""
+    for number in (line, line - 1):
+        if 0 < number <= len(lines):
+            found = read(lines[number - 1])
+            if found is not None:
+                return found
+    return None
 
 
 READ_OPTIONS = frozenset({"sep", "delimiter", "header", "skiprows", "na_values", "dtype", "parse_dates", "encoding"})
@@ -58,29 +69,24 @@ def read_options(call: ast.expr) -> tuple[tuple[str, object], ...]:
     return tuple(found)
 
 
-@dataclass
-class Scope:
-    parameters: frozenset[str] = frozenset()
-    assigned: dict[str, FrameOrigin] = field(default_factory=dict)
-
-
 class Origins:
-    """Scopes from the module inward; lookups fall back outward as Python's closures do."""
+    """What each name of the scopes being walked was last assigned from, from the module
+    inward; lookups fall back outward as Python's closures do. A function's parameters come
+    from the module's scope table, which the constant resolver reads too."""
 
-    def __init__(self, pandas: frozenset[str], lines: tuple[str, ...], resolve: Callable[[str], Resolved]) -> None:
+    def __init__(
+        self, pandas: frozenset[str], lines: tuple[str, ...], bindings: ModuleBindings, where: Callable[[], ast.AST | None],
+    ) -> None:
         self.pandas = pandas
         self.lines = lines
-        #: What a name holds where the finder is (the one resolver of the module's constants).
-        self.resolve = resolve
-        self.scopes: list[Scope] = [Scope()]
-
+        self.bindings = bindings
+        #: The scope the finder is in (for a path held in a name).
+        self.where = where
+        #: Per scope walked: its function (None for the module and class bodies) and what the
+        #: names of that scope were assigned from, so far.
+        self.scopes: list[tuple[ast.AST | None, dict[str, FrameOrigin]]] = [(None, {})]
     def enter(self, function: ast.FunctionDef | ast.AsyncFunctionDef | None) -> None:
-        names: set[str] = set()
-        if function is not None:
-            arguments = function.args
-            for argument in arguments.posonlyargs + arguments.args + arguments.kwonlyargs:
-                names.add(argument.arg)
-        self.scopes.append(Scope(frozenset(names)))
+        self.scopes.append((function, {}))
 
     def leave(self) -> None:
         self.scopes.pop()
@@ -103,7 +109,7 @@ class Origins:
         reader, path = self.reader_call(value)
         kind = "read" if reader else "assigned"
         options = read_options(value) if reader else ()
-        self.scopes[-1].assigned[target.id] = FrameOrigin(target.id, kind, reader, path, self.comment_on(statement), options)
+        self.scopes[-1][1][target.id] = FrameOrigin(target.id, kind, reader, path, self.comment_on(statement), options)
 
     def reader_call(self, value: ast.expr) -> tuple[str | None, str | None]:
         """`("read_parquet", "data/x.parquet")` for `pd.read_parquet("data/x.parquet")`."""
@@ -116,7 +122,7 @@ class Origins:
         if isinstance(argument, ast.Constant) and isinstance(argument.value, str):
             return func.attr, argument.value
         if isinstance(argument, ast.Name):
-            found = self.resolve(argument.id)
+            found = self.bindings.resolve(argument.id, self.where())
             return func.attr, found.value if found.kind == VALUE and isinstance(found.value, str) else None
         return func.attr, None
 
@@ -126,9 +132,9 @@ class Origins:
             return FrameOrigin(name or "", "read", reader, path, None, read_options(base))
         if name is None:
             return None
-        for scope in reversed(self.scopes):
-            if name in scope.assigned:
-                return scope.assigned[name]
-            if name in scope.parameters:
+        for function, assigned in reversed(self.scopes):
+            if name in assigned:
+                return assigned[name]
+            if function is not None and name in self.bindings.scope(function).parameters:
                 return FrameOrigin(name, "parameter", None, None, None)
         return FrameOrigin(name, "unknown", None, None, None)

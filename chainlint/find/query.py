@@ -3,7 +3,9 @@
 pandas query syntax is Python expression syntax plus backtick-quoted column names, `@name`
 locals, and `&` / `|` with the precedence of `and` / `or`. We replace those lexically with
 placeholders (outside string literals), parse with `ast` in eval mode, and map positions back
-so that opaque parts keep their original text.
+so that opaque parts keep their original text. The parsed text is read by the Python dialect's
+converter with the query's own name rules: a bare name is a column, `@x` a value of the code,
+`and` / `or` / `not` combine masks, `in` tests membership and comparisons may be chained.
 """
 
 from __future__ import annotations
@@ -11,9 +13,12 @@ from __future__ import annotations
 import ast
 import bisect
 
-from chainlint.find.predicates import Converted, Dialect, convert
-from chainlint.ir import Opaque
+from collections.abc import Callable
+
 from chainlint.model import Barrier
+from chainlint.find.converted import Converted, Dialect
+from chainlint.find.predicates import Converter, negate
+from chainlint.ir import Column, Member, Named, Node, Opaque, make_and, make_or
 
 
 class _Rewritten:
@@ -107,6 +112,68 @@ def _string_end(text: str, start: int) -> int:
     return len(text)
 
 
+class _QueryConverter(Converter):
+    """The query dialect: `columns` and `locals` map the placeholders the query reader put in
+    for backtick names and `@names`; every other bare name is a column."""
+
+    def __init__(self, dialect: Dialect, text_of: Callable[[ast.AST], str], columns: dict[str, str], locals: dict[str, str]) -> None:
+        super().__init__(dialect, text_of)
+        self.columns = columns
+        self.locals = locals
+
+    def on_Name(self, expr: ast.Name) -> Node:
+        name = expr.id
+        if name in self.columns:
+            return Column(self.columns[name])
+        if name in self.locals:
+            return Named(self.locals[name])
+        if name in ("index", "ilevel_0"):
+            self.depends("may read the index (`index` in a query)")
+            return Opaque(name)
+        return Column(name)
+
+    def is_frame(self, expr: ast.expr) -> bool:
+        return False
+
+    def pandas_module(self, receiver: ast.expr) -> bool:
+        return False
+
+    def dotted(self, dotted: str, expr: ast.expr) -> Node | None:
+        head, _, rest = dotted.partition(".")
+        return Named(self.locals[head] + "." + rest) if head in self.locals else None
+
+    def on_UnaryOp(self, expr: ast.UnaryOp) -> Node:
+        if isinstance(expr.op, ast.Not):
+            return negate(self.mask(expr.operand))
+        return super().on_UnaryOp(expr)
+
+    def on_BoolOp(self, expr: ast.BoolOp) -> Node:
+        parts = [self.mask(value) for value in expr.values]
+        return make_and(parts) if isinstance(expr.op, ast.And) else make_or(parts)
+
+    def on_Compare(self, expr: ast.Compare) -> Node:
+        parts: list[Node] = []
+        left_expr = expr.left
+        for op, right_expr in zip(expr.ops, expr.comparators):
+            parts.append(self.compare_pair(left_expr, op, right_expr))
+            left_expr = right_expr
+        return make_and(parts)
+
+    def compare_pair(self, left_expr: ast.expr, op: ast.cmpop, right_expr: ast.expr) -> Node:
+        if isinstance(op, (ast.In, ast.NotIn)):
+            return self.membership(left_expr, right_expr, isinstance(op, ast.NotIn))
+        if isinstance(op, (ast.Eq, ast.NotEq)) and isinstance(right_expr, (ast.List, ast.Tuple)):
+            return self.membership(left_expr, right_expr, isinstance(op, ast.NotEq))
+        return super().compare_pair(left_expr, op, right_expr)
+
+    def membership(self, operand_expr: ast.expr, values_expr: ast.expr, negated: bool) -> Node:
+        operand = self.value(operand_expr)
+        values = self.member_values(values_expr)
+        if values is None:
+            return Opaque(self.text_of(values_expr))
+        return Member(operand, values, negated)
+
+
 def convert_query(query: str, pandas: frozenset[str], pandas_functions: dict[str, str]) -> Converted:
     """Convert query text; text that does not parse becomes an opaque barrier."""
     try:
@@ -115,7 +182,7 @@ def convert_query(query: str, pandas: frozenset[str], pandas_functions: dict[str
         tree = ast.parse(text, mode="eval")
     except (SyntaxError, ValueError, RecursionError, MemoryError) as error:
         message = error.msg if isinstance(error, SyntaxError) else "too deeply nested"
-        return Converted(Opaque(query), [Barrier("opaque", f"the query text does not parse: {message}")], False)
+        return Converted(Opaque(query), [Barrier("opaque", f"the query text does not parse: {message}")])
     encoded = text.encode("utf-8")
     ascii_text = text.isascii()
 
@@ -127,11 +194,5 @@ def convert_query(query: str, pandas: frozenset[str], pandas_functions: dict[str
         end = rewritten.original_offset(char_offset(node.end_col_offset), end=True)
         return " ".join(query[start:end].split())
 
-    dialect = Dialect(
-        query=True,
-        columns=rewritten.columns,
-        locals=rewritten.locals,
-        pandas=pandas,
-        pandas_functions=pandas_functions,
-    )
-    return convert(tree.body, dialect, text_of)
+    dialect = Dialect(pandas=pandas, pandas_functions=pandas_functions)
+    return _QueryConverter(dialect, text_of, rewritten.columns, rewritten.locals).finish(tree.body)
