@@ -144,3 +144,36 @@ def test_screen_never_hides_a_chain(case, data) -> None:
     assert list(screened) == unscreened
     if unscreened:
         assert not find_seams(variant).empty
+
+
+#: Names bound before the statements that may use them: masks, and a name that is none.
+BINDINGS = ("m = df.b > 2", "m2 = ~(df.c == 'x')", "j = 3", "bits = x & y", "x &= y")
+#: Masks bound to names and used as a later step, boolean columns as a later step, written
+#: masks, and look-alikes that are none: what the screen must see by a name or by `&`.
+USES = (
+    "use(df[df.a > 1][m])",
+    "use(df.query('a > 1')[ m2 ])",
+    "use(\n    df[df.a > 1]  # note\n    [m]\n)",
+    "use(df[df.a > 1]\\\n    [df.flag])",
+    "use(df[df.a > 1][df['flag']].loc[lambda d: d.b > 2])",
+    "use(df.dropna(subset=['a'])[df.flag][m])",
+    "use(rows[i][j])",
+    "use(t[self.row][self.col])",
+    "use(df[(df.a > 1) & (df.b < 2)])",
+    "use(df.loc[lambda d: (d.a > 1)\n    & (d.b < 2)])",
+    "use(df.query('a > 1 and b < 2'))",
+    "use(df.query(\"a > 1 \" \"and b < 2\"))",
+    "use(df[(df.a > 1) & (df.b > df.b.mean())])",
+    "use(df[m])",
+)
+
+
+@settings(max_examples=150, deadline=None, suppress_health_check=[*settings.default.suppress_health_check, HealthCheck.filter_too_much])
+@given(st.lists(st.sampled_from(BINDINGS), max_size=3), st.lists(st.sampled_from(USES), min_size=1, max_size=3), st.booleans())
+def test_screen_sees_later_names_and_written_masks(bindings, uses, in_function) -> None:
+    body = "\n".join([*bindings, *uses])
+    if in_function:
+        body = "def f(df):\n" + "\n".join("    " + line for line in body.split("\n"))
+    source = "import pandas as pd\n" + body + "\n"
+    screened = analyse_source(decode_source("generated.py", source.encode("utf-8"))).chains
+    assert list(screened) == _chains_without_screen(source), source

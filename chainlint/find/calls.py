@@ -11,6 +11,7 @@ import ast
 from collections.abc import Callable
 
 from chainlint.find.barriers import frame_reason, is_frame_method
+from chainlint.find.bindings import dotted_name
 from chainlint.find.converted import FRAME, Dialect, clip
 from chainlint.ir import Arith, Column, Literal, Member, Named, Node, NullTest, Opaque, Range, StrTest
 from chainlint.ir.nodes import INCLUSIVE
@@ -49,6 +50,8 @@ class Calls:
             return self.function_call(expr, "pandas." + method)
         if isinstance(receiver, ast.Attribute) and receiver.attr == "str" and method in _STR_PARAMS:
             return self.string_test(expr, self.value(receiver.value), method)
+        if method == "isin" and _dict_map(receiver) is not None:
+            return self.mapped_membership(expr, receiver)
         target = self.expr(receiver)
         reads_frame = target is FRAME or bool(target.columns())
         if reads_frame and is_frame_method(method):
@@ -70,7 +73,37 @@ class Calls:
             if target is FRAME or target.columns():
                 self.depends("reads the number of rows it receives")
                 return Opaque(self.text_of(expr))
+        arguments = [*expr.args, *(k.value for k in expr.keywords)]
+        if not any(self.reads_frame(argument) for argument in arguments):
+            reason = (
+                f"calls `{clip(self.text_of(expr))}`, which chainlint does not follow: it may raise, "
+                "have side effects or return something other than one value"
+            )
+            return self.unknown(expr, reason)
         return self.unknown(expr, f"calls `{clip(self.text_of(expr.func))}`, which chainlint does not know")
+
+    def reads_frame(self, expr: ast.expr) -> bool:
+        """Whether an argument mentions the frame filtered or another frame of the chain."""
+        frames = {self.dialect.frame, *self.dialect.foreign} - {None}
+        return any(
+            (isinstance(node, ast.Name) and node.id in frames) or (isinstance(node, ast.Attribute) and dotted_name(node) in frames)
+            for node in ast.walk(expr)
+        )
+
+    def mapped_membership(self, expr: ast.Call, mapped: ast.Call) -> Node:
+        """`s.map({k: v, ...}).isin(V)` as `s.isin([k for k, v in the dict if v in V])`: a value
+        the dict does not hold maps to a missing value, which `isin` never finds in literal
+        strings; string keys and values only, so that equality is Python's and pandas' alike."""
+        table = _dict_map(mapped)
+        assert table is not None and isinstance(mapped.func, ast.Attribute)
+        wanted = _strings(expr.args[0]) if len(expr.args) == 1 and not expr.keywords else None
+        if wanted is None:
+            return self.unknown(expr, "`isin` after `map` tests values that are not literal strings")
+        target = self.value(mapped.func.value)
+        keys = tuple(Literal(key) for key, value in table.items() if value in wanted)
+        if not keys:
+            return self.unknown(expr, "no key of the `map` dictionary maps to a value `isin` looks for")
+        return self.column_only(expr, target, Member(target, keys))
 
     def series_method(self, expr: ast.Call, target: Node, method: str) -> Node:
         if method in NULL_METHODS and not expr.args and not expr.keywords:
@@ -132,6 +165,32 @@ class Calls:
                 return self.unknown(expr, f"`{key}=` of `.str.{method}` is not a literal or a name")
             options.append((key, value))
         return self.column_only(expr, operand, StrTest(operand, method, pattern, tuple(options)))
+
+
+def _dict_map(call: ast.expr) -> dict[str, str] | None:
+    """The dictionary of a `.map({...})` call whose keys and values are all string literals
+    (a later key wins, as in Python), else None."""
+    if not (isinstance(call, ast.Call) and isinstance(call.func, ast.Attribute) and call.func.attr == "map"):
+        return None
+    if len(call.args) != 1 or call.keywords or not isinstance(call.args[0], ast.Dict):
+        return None
+    table = call.args[0]
+    keys, values = [_string(k) for k in table.keys], [_string(v) for v in table.values]
+    if any(k is None for k in keys) or any(v is None for v in values):
+        return None
+    return dict(zip(keys, values))  # type: ignore[arg-type]
+
+
+def _strings(expr: ast.expr) -> tuple[str, ...] | None:
+    """The strings of a list, tuple or set of string literals."""
+    if not isinstance(expr, (ast.List, ast.Tuple, ast.Set)):
+        return None
+    found = tuple(_string(e) for e in expr.elts)
+    return None if None in found else found  # type: ignore[return-value]
+
+
+def _string(expr: ast.expr | None) -> str | None:
+    return expr.value if isinstance(expr, ast.Constant) and isinstance(expr.value, str) else None
 
 
 def _describe(target: Node) -> str:

@@ -12,11 +12,12 @@ from dataclasses import dataclass, replace
 
 from chainlint.model import Barrier, Chain, Span, Step
 from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
+from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
 from chainlint.find.positions import Positions
 from chainlint.find.runs import bound, inplace_dropna, mentioned, read_elsewhere, steps_over
 from chainlint.find.screen import Seams
-from chainlint.find.shapes import Masks, Names, Shape, hidden_by_screen, is_mask_value, mask_frames, peel, rows_axis
+from chainlint.find.shapes import Masks, Names, Shape, is_mask_value, mask_frames, peel, rows_axis
 from chainlint.find.steps import StepContext, build_step, selected_columns
 from chainlint.parse.source import SourceText
 
@@ -178,8 +179,10 @@ class _Finder:
             if decomposed is None:
                 stack.extend((child, inner) for child in ast.iter_child_nodes(node))
                 continue
-            if id(node) not in self.absorbed and len(decomposed.shapes) >= 2 and not all(map(hidden_by_screen, decomposed.shapes[1:])):
+            if id(node) not in self.absorbed and len(decomposed.shapes) >= 2:
                 self.chains.append(self.method_chain(node, decomposed))
+            elif id(node) not in self.absorbed and (fused := self.fused_mask(node, decomposed)) is not None:
+                self.chains.append(fused)
             stack.append((decomposed.base, self.scope))
             for shape in decomposed.shapes:
                 lambda_scope = shape.arg if isinstance(shape.arg, ast.Lambda) else self.scope
@@ -218,26 +221,46 @@ class _Finder:
         assigned: frozenset[str] = frozenset(),
     ) -> tuple[Step, ...]:
         built = []
-        resolve = self.resolver()
         if statement == 0:
             self.selected = None
         for index, shape in enumerate(decomposed.shapes):
-            context = StepContext(
-                own=own if index == 0 else None,
-                outer=outer,
-                names=self.names,
-                text_of=self.positions.text_of,
-                span_of=self.positions.node_span,
-                span=self.positions.step_span(shape.inner, shape.node),
-                statement=statement,
-                resolve=resolve,
-                assigned=assigned,
-                selected=self.selected,
-            )
-            built.append(build_step(shape, context))
+            built.append(build_step(shape, self.context(shape, own if index == 0 else None, outer, statement, assigned)))
             if shape.selection is not None:
                 self.selected = selected_columns(shape)
         return tuple(built)
+
+    def context(self, shape: Shape, own: str | None, outer: frozenset[str], statement: int, assigned: frozenset[str]) -> StepContext:
+        return StepContext(
+            own=own,
+            outer=outer,
+            names=self.names,
+            text_of=self.positions.text_of,
+            span_of=self.positions.node_span,
+            span=self.positions.step_span(shape.inner, shape.node),
+            statement=statement,
+            resolve=self.resolver(),
+            assigned=assigned,
+            selected=self.selected,
+        )
+
+    def fused_mask(self, node: ast.expr, decomposed: _Decomposed) -> Chain | None:
+        """A lone step whose mask is a written conjunction, as a chain of its conjuncts, when
+        every conjunct is a step that may move (`fused.py`)."""
+        parts = conjunct_shapes(decomposed.shapes[0], self.positions)
+        if parts is None or (decomposed.shapes[0].kind.endswith("mask") and not all(mask_frames(p.arg, self.names) for p, _ in parts)):
+            return None
+        root = dotted_name(decomposed.base)
+        outer = frozenset([root]) if root else frozenset()
+        self.selected = None
+        steps = [replace(build_step(part, self.context(part, root, outer, 0, frozenset())), conjunct=span) for part, span in parts]
+        if not all(step.movable for step in steps):
+            return None
+        span = self.positions.node_span(node)
+        lines = self.source.lines
+        return Chain(
+            self.source.path, span, self.positions.text_of(decomposed.base), "mask", tuple(steps),
+            self.origins.lookup(root, decomposed.base), near(lines, span.line, profile_comment), near(lines, span.line, keep_comment),
+        )
 
     def runs(self, statements: list[ast.stmt]) -> dict[int, list[_Member]]:
         """Statement runs of a block, by the index of their first statement: each statement

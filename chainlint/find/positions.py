@@ -48,3 +48,19 @@ class Positions:
         line, column = source.position(offset)
         end = self.node_span(node)
         return Span(line, column, end.end_line, end.end_column)
+
+    def string_part(self, literal: ast.Constant, start: int, end: int) -> Span | None:
+        """The span of characters `start:end` of a string literal's value, when the literal is
+        written as its value between quotes (no escapes, no implicit concatenation); else None."""
+        source = self.source
+        first = source.offset(literal.lineno, literal.col_offset)
+        last = source.offset(literal.end_lineno, literal.end_col_offset)  # type: ignore[arg-type]
+        written = source.text[first:last]
+        prefix = len(written) - len(written.lstrip("rRuU"))
+        quote = written[prefix : prefix + 3] if written[prefix : prefix + 3] in ('"""', "'''") else written[prefix : prefix + 1]
+        if written[prefix + len(quote) : len(written) - len(quote)] != literal.value:
+            return None
+        opening = first + prefix + len(quote)
+        line, column = source.position(opening + start)
+        end_line, end_column = source.position(opening + end)
+        return Span(line, column, end_line, end_column)

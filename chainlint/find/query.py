@@ -138,6 +138,9 @@ class _QueryConverter(Converter):
     def pandas_module(self, receiver: ast.expr) -> bool:
         return False
 
+    def reads_frame(self, expr: ast.expr) -> bool:
+        return any(isinstance(node, ast.Name) and node.id not in self.locals for node in ast.walk(expr))
+
     def dotted(self, dotted: str, expr: ast.expr) -> Node | None:
         head, _, rest = dotted.partition(".")
         return Named(self.locals[head] + "." + rest) if head in self.locals else None
@@ -196,3 +199,32 @@ def convert_query(query: str, pandas: frozenset[str], pandas_functions: dict[str
 
     dialect = Dialect(pandas=pandas, pandas_functions=pandas_functions)
     return _QueryConverter(dialect, text_of, rewritten.columns, rewritten.locals).finish(tree.body)
+
+
+def query_conjuncts(query: str) -> list[tuple[int, int]] | None:
+    """Where the top-level conjuncts of query text sit (`a > 1 and b < 2`, `a > 1 & b < 2`):
+    0-based start and end offsets into the text, without surrounding blanks; None when the text
+    is not a conjunction of two or more parts, or does not parse. Text on several lines is
+    never split: pandas refuses it ("multi-line expressions are only valid in the context of
+    data"), and its parts, each on one line, would not raise."""
+    if "\n" in query.strip() or "\r" in query.strip():
+        return None
+    try:
+        rewritten = _rewrite(query)
+        text = rewritten.text()
+        tree = ast.parse(text, mode="eval")
+    except (SyntaxError, ValueError, RecursionError, MemoryError):
+        return None
+    body = tree.body
+    if not (isinstance(body, ast.BoolOp) and isinstance(body.op, ast.And)) or not text.isascii():
+        return None
+    parts = []
+    for value in body.values:
+        start = rewritten.original_offset(value.col_offset, end=False)
+        end = rewritten.original_offset(value.end_col_offset, end=True)
+        piece = query[start:end]
+        start += len(piece) - len(piece.lstrip())
+        end -= len(piece) - len(piece.rstrip())
+        parts.append((start, end))
+    return parts
+

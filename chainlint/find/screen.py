@@ -7,11 +7,16 @@ A chain has two adjacent steps, so its text shows one of two seams:
   `x = x.loc` / `.query` / `.dropna` (only blanks, comments, `;` and `)` between);
 - a run under new names or with other statements between shows no seam: in a file with two or
   more statements `y = x[...]` / `y = x.loc` / `.query` / `.dropna` or `x.dropna(` at the start
-  of a line, each of them is a seam.
+  of a line, each of them is a seam;
+- a fused mask (one step whose mask is a conjunction, a chain of its conjuncts) shows an `&`
+  (not `&=`), or is a `.query(` call whose text says `and`: each `&` and `.query(` is a seam.
 The screen looks for these seams with possessive regular expressions (linear time). It is
 conservative by construction: it may pass a file without a chain, never the reverse, which a
-property test checks against the finder. A subscript whose whole content is a literal, a name,
-a slice or a list (`x[0]`, `x["a"]`, `x[i:j]`, `x[["a"]]`) is never a step and is not a seam.
+property test checks against the finder. A subscript whose whole content is a literal, a plain
+name, a slice or a list (`x[0]`, `x["a"]`, `x[i:j]`, `x[["a"]]`) is not a seam, with two
+exceptions that may be a chain's later step: a dotted name (`df[a][df.flag]`, a boolean column of
+the chain's frame) and a plain name the file assigns somewhere (`m = df.b > 2` ... `df[a][m]`, a
+mask bound before the chain); `x[i][j]` with `j` never assigned stays no seam.
 
 The seams also tell the finder where to look: only statements whose lines meet a seam are
 walked. Non-ASCII text is first NFKC-normalised, as Python normalises identifiers, and every
@@ -31,7 +36,10 @@ _BLANK = r"(?:[\s\\]++|#[^\r\n]*+)*+"
 _METHOD = r"\." + _BLANK + r"(?:loc|query|dropna)(?!\w)"
 _LITERAL = r"""(?:-?\d[\w.]*|'[^'\r\n\\]*'|"[^"\r\n\\]*")"""
 _NAME = r"\w+(?:\.\w+)*"
-_NEVER_A_STEP = r"\s*+(?:(?:" + _LITERAL + "|" + _NAME + r")\s*+[\],:]|[:\[])"
+#: In a method chain, a plain name after a step may be a mask bound to it (`_MASK_NAME` tells),
+#: and a dotted name a boolean column of the chain's frame: only literals and plain names are
+#: never a step here.
+_NEVER_A_STEP = r"\s*+(?:(?:" + _LITERAL + r"|\w+)\s*+[\],:]|[:\[])"
 #: In a statement, a name (`t = df[m]`, `t = df[df.flag]`) may be a mask bound earlier or a
 #: boolean column; in a method chain such a step needs another step after the first to be found.
 _NEVER_A_STEP_STATEMENT = r"\s*+(?:" + _LITERAL + r"\s*+[\],:]|" + _NAME + r"\s*+[,:]|[:\[])"
@@ -48,6 +56,11 @@ _FILTER_STATEMENT = re.compile(
     r"(?m)^[ \t]*+(?:[A-Za-z_]\w*+[ \t]*+=(?!=)[ \t]*+[A-Za-z_]\w*+" + _GAP
     + r"(?:\[(?!" + _NEVER_A_STEP_STATEMENT + r")|" + _METHOD + r")|[A-Za-z_]\w*+\.dropna\()"
 )
+_FUSED = re.compile(r"&(?!=)|\." + _BLANK + r"query" + _BLANK + r"\(")
+#: A plain name as the whole key of a later step (`df[a][m]`): a seam when the file assigns it.
+_MASK_NAME = re.compile(r"[\])]" + _GAP + r"\[\s*+([A-Za-z_]\w*+)\s*+\]")
+#: A name assigned (or passed as a keyword: more names only add seams).
+_ASSIGNED = re.compile(r"(?<![\w.])([A-Za-z_]\w*+)" + _BLANK + r"=(?!=)")
 _NON_ASCII = re.compile(r"[^\x00-\x7f]")
 _NEWLINE = re.compile(r"\r\n|\r|\n")
 
@@ -102,6 +115,11 @@ def find_seams(text: str) -> Seams:
     matches = [m.span() for m in _METHOD_SEAM.finditer(text)]
     matches += [m.span() for m in _RUN_SEAM.finditer(text)]
     matches += [m.span() for m in _FILTER_STATEMENT.finditer(text)]
+    matches += [m.span() for m in _FUSED.finditer(text)]
+    named = [(m.group(1), m.span()) for m in _MASK_NAME.finditer(text)]
+    if named:
+        assigned = {m.group(1) for m in _ASSIGNED.finditer(text)}
+        matches += [span for name, span in named if name in assigned]
     if not matches:
         return Seams([])
     line_starts = [0] + [m.end() for m in _NEWLINE.finditer(text)]

@@ -98,7 +98,7 @@ def _peel_subscript(node: ast.Subscript, names: Names, masks: Masks) -> Shape | 
     prefix = "loc_" if loc else "getitem_"
     if isinstance(key, ast.Lambda):
         return Shape(prefix + "lambda", node, inner, key, selection)
-    if _column_mask(key.operand if isinstance(key, ast.UnaryOp) and isinstance(key.op, ast.Invert) else key, inner):
+    if _column_mask(key.operand if isinstance(key, ast.UnaryOp) and isinstance(key.op, ast.Invert) else key, inner, names, masks):
         return Shape(prefix + "mask", node, inner, key, selection, flag=True)
     if isinstance(key, _MASK_TOPS) and is_mask_top(key) and mask_frames(key, names):
         return Shape(prefix + "mask", node, inner, key, selection)
@@ -108,24 +108,28 @@ def _peel_subscript(node: ast.Subscript, names: Names, masks: Masks) -> Shape | 
     return None
 
 
-def _column_mask(key: ast.expr, frame: ast.expr) -> bool:
-    """`df[df.flag]` or `df[df["flag"]]`: a column of the frame itself used as the mask (a
-    boolean column, if it is one)."""
-    name = dotted_name(frame)
-    if name is None or not isinstance(key, (ast.Attribute, ast.Subscript)) or dotted_name(key.value) != name:
+def _column_mask(key: ast.expr, frame: ast.expr, names: Names, masks: Masks) -> bool:
+    """`df[df.flag]`, `df[df["flag"]]` or `df[a][df.flag]`: a column of the frame the chain
+    starts from used as the mask (a boolean column, if it is one)."""
+    if not isinstance(key, (ast.Attribute, ast.Subscript)):
         return False
     if isinstance(key, ast.Attribute):
-        return key.attr not in NOT_COLUMNS and key.attr not in FRAME_ATTRIBUTES and not key.attr.startswith("_")
-    return isinstance(key.slice, ast.Constant) and isinstance(key.slice.value, str)
-
-
-def hidden_by_screen(shape: Shape) -> bool:
-    """A `[name]` or `[a.b]` step, which the textual screen never takes for the second step of a
-    chain (it looks like `x[i]`): a method chain needs another step to be seen."""
-    if not shape.kind.startswith("getitem_"):
+        if key.attr in NOT_COLUMNS or key.attr in FRAME_ATTRIBUTES or key.attr.startswith("_"):
+            return False
+    elif not (isinstance(key.slice, ast.Constant) and isinstance(key.slice.value, str)):
         return False
-    key = shape.written if shape.written is not None else shape.arg
-    return isinstance(key, ast.Name) or (isinstance(key, ast.Attribute) and dotted_name(key) is not None)
+    name = dotted_name(key.value)
+    return name is not None and _chain_root(frame, names, masks) == name
+
+
+def _chain_root(expr: ast.expr, names: Names, masks: Masks) -> str | None:
+    """The dotted name a run of filter steps starts from (`df` for `df[a].query(b)`)."""
+    while (name := dotted_name(expr)) is None:
+        shape = peel(expr, names, masks)
+        if shape is None:
+            return None
+        expr = shape.inner
+    return name
 
 
 def _substitute(key: ast.expr, masks: Masks) -> ast.expr | None:

@@ -29,7 +29,10 @@ class Step:
     `mask_frame` says, for masks, whether the mask is built from the frame the step filters
     (`own`), from the chain's first frame (`outer`), or from another frame (`foreign`);
     `mask_name` is the name the mask reads columns from and `mask_span` the mask's text;
-    `own` is the name of the frame the step filters when it filters a named frame directly.
+    `own` is the name of the frame the step filters when it filters a named frame directly;
+    `conjunct`, for a step of a chain of form `mask` (one written mask, `df[(a) & (b)]`), is the
+    span of this conjunct's text inside the mask (without parentheses around it; inside the
+    string of a `.query`), while `span` is the whole written step all its conjuncts share.
     """
 
     kind: str
@@ -41,6 +44,7 @@ class Step:
     own: str | None = None
     mask_name: str | None = None
     mask_span: Span | None = None
+    conjunct: Span | None = None
 
     @property
     def movable(self) -> bool:
@@ -75,8 +79,9 @@ class FrameOrigin:
 class Chain:
     """A maximal run of two or more row filters applied to one frame.
 
-    `form` is `method` for one expression (`df[a].query(b)`) or `statements` for a run of
-    assignments (`x = df[a]` / `x = x[b]`); `frame` is the source text of the first frame;
+    `form` is `method` for one expression (`df[a].query(b)`), `statements` for a run of
+    assignments (`x = df[a]` / `x = x[b]`) or `mask` for one written mask whose conjuncts are the
+    steps (`df[(a) & (b)]`, `.query("a and b")`); `frame` is the source text of the first frame;
     `profile_comment` a `# chainlint: profile=NAME` on the chain's first line or the line above;
     `keep` the rules a `# chainlint: keep [RULE...]` there suppresses (empty: all of them).
     """

