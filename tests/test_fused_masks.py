@@ -122,3 +122,21 @@ def test_no_fix_is_offered_for_a_written_mask_and_fix_leaves_it(project: Path) -
     document = json.loads(CliRunner().invoke(main, ["explain", "--format", "json", str(path)]).output)
     mask = next(c for c in document["chains"] if c["form"] == "mask")
     assert mask["order"] == [0, 1, 2]
+
+
+TYPO = '''import pandas as pd
+
+
+def typo(frame):
+    # chainlint: profile=flights
+    return frame.query("carrier == 'UAL' and month == 1")
+'''
+
+
+def test_a_misspelt_literal_in_a_written_mask_is_located_in_its_conjunct(project: Path) -> None:
+    path = project / "typo.py"
+    path.write_text(TYPO)
+    report = json.loads(CliRunner().invoke(main, ["check", "--jobs", "1", "--format", "json", str(path)]).output)
+    (finding,) = [f for f in report["findings"] if f["rule"] == "never-matches"]
+    line = TYPO.split("\n")[finding["line"] - 1]
+    assert line[finding["column"] - 1 : finding["end_column"] - 1] == "carrier == 'UAL'"

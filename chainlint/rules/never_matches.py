@@ -55,6 +55,7 @@ def check(plan: ChainPlan, estimator: Estimator) -> list[Finding]:
             message = (f"`{column}` {seen} ({len(known)} known values){hint or '.'} "
                        f"The chain's order will be planned once this literal is fixed.")
             values = {str(v): v for v in stats.mcv}
-            findings.append(Finding(NAME, plan.chain.path, step.span, message, literal=value,
+            # A conjunct of one written mask is located by its own text, not the whole mask.
+            findings.append(Finding(NAME, plan.chain.path, step.conjunct or step.span, message, literal=value,
                                     suggestions=tuple(values[c] for c in close)))
     return findings
