@@ -13,7 +13,7 @@ import pytest
 from chainlint.analysis.run import analyse_file
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import Seams
-from chainlint.parse.source import parse_tree, read_source
+from chainlint.parse.source import parse_tree, read_source, text_source
 
 FIXTURES = Path(__file__).parent / "fixtures" / "finder"
 
@@ -122,3 +122,11 @@ def test_a_run_never_steps_over_into_the_next_cell(tmp_path: Path) -> None:
                       nbformat.v4.new_code_cell("t = t[t.b > 2]")]
     nbformat.write(notebook, str(tmp_path / "two.ipynb"))
     assert analyse_file(str(tmp_path / "two.ipynb")).chains == ()
+
+
+def test_a_long_run_of_boolean_columns_is_one_chain() -> None:
+    # Each later step finds the chain's frame under the steps before it: one walk per step.
+    source = "out = df[df.a > 1]" + "".join(f"[df.flag{i}]" for i in range(60)) + "\n"
+    text = text_source("long.py", source)
+    chains = find_chains(text, parse_tree(text), Seams(None))
+    assert [len(c.steps) for c in chains] == [61]

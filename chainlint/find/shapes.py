@@ -98,7 +98,7 @@ def _peel_subscript(node: ast.Subscript, names: Names, masks: Masks) -> Shape | 
     prefix = "loc_" if loc else "getitem_"
     if isinstance(key, ast.Lambda):
         return Shape(prefix + "lambda", node, inner, key, selection)
-    if _column_mask(key.operand if isinstance(key, ast.UnaryOp) and isinstance(key.op, ast.Invert) else key, inner, names, masks):
+    if _column_mask(key.operand if isinstance(key, ast.UnaryOp) and isinstance(key.op, ast.Invert) else key, inner):
         return Shape(prefix + "mask", node, inner, key, selection, flag=True)
     if isinstance(key, _MASK_TOPS) and is_mask_top(key) and mask_frames(key, names):
         return Shape(prefix + "mask", node, inner, key, selection)
@@ -108,7 +108,7 @@ def _peel_subscript(node: ast.Subscript, names: Names, masks: Masks) -> Shape | 
     return None
 
 
-def _column_mask(key: ast.expr, frame: ast.expr, names: Names, masks: Masks) -> bool:
+def _column_mask(key: ast.expr, frame: ast.expr) -> bool:
     """`df[df.flag]`, `df[df["flag"]]` or `df[a][df.flag]`: a column of the frame the chain
     starts from used as the mask (a boolean column, if it is one)."""
     if not isinstance(key, (ast.Attribute, ast.Subscript)):
@@ -119,16 +119,22 @@ def _column_mask(key: ast.expr, frame: ast.expr, names: Names, masks: Masks) -> 
     elif not (isinstance(key.slice, ast.Constant) and isinstance(key.slice.value, str)):
         return False
     name = dotted_name(key.value)
-    return name is not None and _chain_root(frame, names, masks) == name
+    return name is not None and _chain_root(frame) == name
 
 
-def _chain_root(expr: ast.expr, names: Names, masks: Masks) -> str | None:
-    """The dotted name a run of filter steps starts from (`df` for `df[a].query(b)`)."""
+def _chain_root(expr: ast.expr) -> str | None:
+    """The dotted name under a run of subscripts, `.query(...)` and `.dropna(...)` (`df` for
+    `df[a].query(b)`), walked by shape alone: one pass, however long the run."""
     while (name := dotted_name(expr)) is None:
-        shape = peel(expr, names, masks)
-        if shape is None:
+        if isinstance(expr, ast.Subscript):
+            value = expr.value
+            if isinstance(value, ast.Attribute) and value.attr in _NOT_A_FRAME_ATTRIBUTE:
+                return None
+            expr = value.value if isinstance(value, ast.Attribute) and value.attr == "loc" else value
+        elif isinstance(expr, ast.Call) and isinstance(expr.func, ast.Attribute) and expr.func.attr in ("query", "dropna"):
+            expr = expr.func.value
+        else:
             return None
-        expr = shape.inner
     return name
 
 
