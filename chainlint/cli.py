@@ -341,11 +341,12 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
         path, changed = save_profile(folder, document)
     except (DataError, StoreError, ProfileError) as error:
         _fail(str(error))
+    made = Profile.from_document(document)
     state = "written" if changed else "unchanged"
     extra = ""
     if joint is not None:
-        extra = f", joint counts for {len(document['joint'])} predicate sets from {joint.chains} chain{'s' if joint.chains != 1 else ''}"
-    click.echo(f"profile {name}: {document['rows']:,} rows, {len(document['columns'])} columns{extra} -> {shown_path(path)} ({state})")
+        extra = f", joint counts for {len(made.joint or ())} predicate sets from {joint.chains} chain{'s' if joint.chains != 1 else ''}"
+    click.echo(f"profile {name}: {made.rows:,} rows, {len(made.columns)} columns{extra} -> {shown_path(path)} ({state})")
 
 
 def _code_options(given: CsvOptions, chains: Sequence, data: Sequence[str]) -> CsvOptions:  # type: ignore[type-arg]

@@ -89,5 +89,6 @@ def profile_into_store(frame: Any, name: str, store: Path | None, min_count: int
         path, changed = save_profile(folder, document)
     except (DataError, StoreError, ProfileError) as error:
         raise MagicError(str(error)) from None
+    made = Profile.from_document(document)
     state = "written" if changed else "unchanged"
-    return f"profile {name}: {document['rows']:,} rows, {len(document['columns'])} columns -> {path} ({state})"
+    return f"profile {name}: {made.rows:,} rows, {len(made.columns)} columns -> {path} ({state})"
