@@ -16,7 +16,7 @@ from click.testing import CliRunner
 from flights import flights
 
 from chainlint.cli import main
-from chainlint.estimate.selectivity import Estimator
+from chainlint.estimate.selectivity import Basis, Estimator
 from chainlint.find.query import convert_query
 from chainlint.profile.store import load_profile
 from chainlint.profile.view import Profile
@@ -53,7 +53,7 @@ def test_q_error_on_single_column_predicates(profile: Profile) -> None:
         converted = convert_query(text, frozenset(), {})
         assert converted.barrier is None, text
         estimate = estimator.estimate(converted.node)
-        assert estimate.basis != "default", text
+        assert estimate.basis is not Basis.DEFAULT, text
         true = len(frame.query(text, engine="python")) / len(frame)  # pandas, the reference
         assert true > 0, text
         est = max(estimate.selectivity, 1e-9)
@@ -68,9 +68,9 @@ def test_defaults_are_postgresql_values(profile: Profile) -> None:
     # PostgreSQL selfuncs.h (from memory): DEFAULT_EQ_SEL 0.005, DEFAULT_INEQ_SEL 1/3.
     estimator = Estimator(profile)
     equal = estimator.estimate(convert_query("carrier == @wanted", frozenset(), {}).node)
-    assert (equal.selectivity, equal.basis) == (0.005, "default")
+    assert (equal.selectivity, equal.basis) == (0.005, Basis.DEFAULT)
     unknown = estimator.estimate(convert_query("dep_delay > @limit", frozenset(), {}).node)
-    assert (round(unknown.selectivity, 6), unknown.basis) == (round(1 / 3, 6), "default")
+    assert (round(unknown.selectivity, 6), unknown.basis) == (round(1 / 3, 6), Basis.DEFAULT)
 
 
 def test_unlisted_value_spreads_the_rest_evenly(profile: Profile) -> None:
@@ -85,7 +85,7 @@ def test_unlisted_value_spreads_the_rest_evenly(profile: Profile) -> None:
         column.distinct.value - len(listed)
     )
     assert estimate.selectivity == pytest.approx(expected)
-    assert estimate.basis == "most-common"
+    assert estimate.basis is Basis.MOST_COMMON
 
 
 DATES = ["when >= '2013-07-01'", "when < '2013-03-15'", "when > '2013-12-24'", "when <= '2013-01-31'",
@@ -103,7 +103,7 @@ def test_dates_compared_with_date_strings_use_the_histogram(tmp_path) -> None:
     errors = {}
     for text in DATES:
         estimate = estimator.estimate(convert_query(text, frozenset(), {}).node)
-        assert estimate.basis == "histogram", text
+        assert estimate.basis is Basis.HISTOGRAM, text
         true = len(frame.query(text, engine="python")) / len(frame)  # pandas parses the date strings
         errors[text] = max(estimate.selectivity / true, true / estimate.selectivity)
     # A 2% tail between two bucket bounds is the hardest case of an equi-depth histogram.

@@ -13,6 +13,7 @@ import pytest
 from chainlint.analysis.run import analyse_file
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import Seams
+from chainlint.model import OriginKind
 from chainlint.parse.source import parse_tree, read_source, text_source
 
 FIXTURES = Path(__file__).parent / "fixtures" / "finder"
@@ -65,8 +66,9 @@ def test_step_kinds_and_mask_frames(tmp_path: Path, source: str, kinds: list[str
     path = tmp_path / "m.py"
     path.write_text(source, encoding="utf-8")
     (chain,) = analyse_file(str(path)).chains
-    assert [s.kind for s in chain.steps] == kinds
-    assert [s.mask_frame for s in chain.steps] == mask_frames
+    # The names are the JSON contract's (`explain --format json`), which the enums' values keep.
+    assert [s.kind.value for s in chain.steps] == kinds
+    assert [s.mask_frame.value if s.mask_frame else None for s in chain.steps] == mask_frames
 
 
 def test_positions_are_one_based_code_point_columns(tmp_path: Path) -> None:
@@ -112,7 +114,7 @@ def test_a_path_bound_to_a_local_constant_binds_the_frame(tmp_path: Path) -> Non
         encoding="utf-8",
     )
     (chain,) = analyse_file(str(path)).chains
-    assert chain.origin is not None and (chain.origin.kind, chain.origin.path) == ("read", "data/scans.parquet")
+    assert chain.origin is not None and (chain.origin.kind, chain.origin.path) == (OriginKind.READ, "data/scans.parquet")
 
 
 def test_a_run_never_steps_over_into_the_next_cell(tmp_path: Path) -> None:

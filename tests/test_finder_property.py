@@ -21,6 +21,7 @@ from chainlint.analysis.run import analyse_source
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import Seams, find_seams
 from chainlint.ir import Column, Named, NullTest, make_and
+from chainlint.model import ChainForm
 from chainlint.parse.source import decode_source, parse_tree
 
 FORMS = ("loc_lambda", "getitem_lambda", "loc_mask", "getitem_mask", "query", "dropna")
@@ -104,7 +105,7 @@ def _single_chain(source: str):
 def test_method_chains_are_recovered_exactly(case) -> None:
     source, chosen = case
     chain = _single_chain(source)
-    assert [s.kind for s in chain.steps] == [form for form, _, _ in chosen]
+    assert [s.kind.value for s in chain.steps] == [form for form, _, _ in chosen]
     assert [s.predicate for s in chain.steps] == [p for _, p, _ in chosen]
     # A mask after the first step reads `df`, an earlier frame: an outer mask, a barrier.
     expected = [(i == 0 or not form.endswith("mask")) and _names_free(p) for i, (form, p, _) in enumerate(chosen)]
@@ -116,7 +117,7 @@ def test_method_chains_are_recovered_exactly(case) -> None:
 def test_statement_runs_are_recovered_exactly(case) -> None:
     source, chosen, movable = case
     chain = _single_chain(source)
-    assert chain.form == "statements"
+    assert chain.form is ChainForm.STATEMENTS
     assert [s.predicate for s in chain.steps] == [p for _, p, _ in chosen]
     # A mask after a statement's first step reads the statement's input: an outer mask.
     assert [s.movable for s in chain.steps] == movable

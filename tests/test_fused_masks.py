@@ -18,6 +18,7 @@ from test_check import project  # noqa: F401  (the flights project: data and its
 from chainlint.analysis.run import analyse_source
 from chainlint.cli import main
 from chainlint.evaluate.pandas_masks import apply_step
+from chainlint.model import ChainForm
 from chainlint.parse.source import decode_source
 
 MASKS = '''import pandas as pd
@@ -48,7 +49,7 @@ def _text(source: str, span) -> str:
 
 def test_each_conjunct_is_a_step_with_the_span_of_its_text() -> None:
     chains = _chains(MASKS)
-    assert [c.form for c in chains] == ["mask"] * 5
+    assert [c.form for c in chains] == [ChainForm.MASK] * 5
     texts = [[_text(MASKS, step.conjunct) for step in chain.steps] for chain in chains]
     assert texts == [
         ["flights.dep_delay > 10", 'flights.carrier == "UA"', 'flights.dest.isin(["IAH", "ORD"])'],

@@ -17,6 +17,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
+from enum import Enum
 from typing import Any
 
 import numpy as np
@@ -44,18 +45,27 @@ DEFAULT_EQ = 0.005
 DEFAULT_INEQ = 1.0 / 3.0
 DEFAULT_MATCH = 0.005
 
-#: Bases from strongest to weakest.
-BASES = ("joint (exact)", "exact", "most-common", "histogram", "default")
+class Basis(Enum):
+    """What an estimate rests on, from strongest to weakest (the value is how reports name it)."""
+
+    JOINT = "joint (exact)"
+    EXACT = "exact"
+    MOST_COMMON = "most-common"
+    HISTOGRAM = "histogram"
+    DEFAULT = "default"
+
+
+_STRENGTH = list(Basis)
 
 
 @dataclass(frozen=True)
 class Estimate:
     selectivity: float
-    basis: str
+    basis: Basis
 
 
-def _weakest(*bases: str) -> str:
-    return max(bases, key=BASES.index)
+def _weakest(*bases: Basis) -> Basis:
+    return max(bases, key=_STRENGTH.index)
 
 
 def _clip(value: float) -> float:
@@ -96,48 +106,48 @@ class ColumnStats:
     def equal(self, value: Any) -> Estimate:
         key = self.lookup(value)
         if key in self.mcv:
-            return Estimate(self.mcv[key], "exact" if self.complete else "most-common")
+            return Estimate(self.mcv[key], Basis.EXACT if self.complete else Basis.MOST_COMMON)
         if self.complete:
             if self.suppressed_values == 0:
-                return Estimate(0.0, "exact")
-            return Estimate(self.suppressed_share / self.suppressed_values, "most-common")
+                return Estimate(0.0, Basis.EXACT)
+            return Estimate(self.suppressed_share / self.suppressed_values, Basis.MOST_COMMON)
         others = self.distinct - len(self.mcv)
         if others <= 0:
-            return Estimate(0.0, "most-common")
+            return Estimate(0.0, Basis.MOST_COMMON)
         rest = 1.0 - sum(self.mcv.values()) - self.null_share
-        return Estimate(_clip(rest / others), "most-common")
+        return Estimate(_clip(rest / others), Basis.MOST_COMMON)
 
     def below(self, value: float, inclusive: bool) -> Estimate:
         """Share of all rows with a non-null value < value (or <=); a date string against a
         datetime column is read as pandas reads it, an instant."""
         numeric = _instant(value) if self.temporal else _number(value)
         if numeric is None:
-            return Estimate(DEFAULT_INEQ, "default")
+            return Estimate(DEFAULT_INEQ, Basis.DEFAULT)
         if self.complete and not self.suppressed_values and self.mcv and all(_number(v) is not None for v in self.mcv):
             share = sum(s for v, s in self.mcv.items() if (_number(v) <= numeric if inclusive else _number(v) < numeric))
-            return Estimate(_clip(share), "exact")
+            return Estimate(_clip(share), Basis.EXACT)
         if self.bounds is None:
-            return Estimate(DEFAULT_INEQ, "default")
+            return Estimate(DEFAULT_INEQ, Basis.DEFAULT)
         bounds = self.bounds
         buckets = len(bounds) - 1
         non_null = 1.0 - self.null_share
         if numeric < bounds[0]:
-            return Estimate(0.0, "histogram")
+            return Estimate(0.0, Basis.HISTOGRAM)
         if numeric > bounds[-1]:
-            return Estimate(non_null, "histogram")
+            return Estimate(non_null, Basis.HISTOGRAM)
         low = int(np.searchsorted(bounds, numeric, side="left"))
         high = int(np.searchsorted(bounds, numeric, side="right"))
         if low == high:
             left, right = bounds[low - 1], bounds[low]
             fraction = (low - 1 + (numeric - left) / (right - left)) / buckets
-            return Estimate(_clip(fraction * non_null), "histogram")
+            return Estimate(_clip(fraction * non_null), Basis.HISTOGRAM)
         # `value` is a bound: F(value) lies in [(high-1)/B, high/B), F(value-) in [(low-1)/B, low/B).
         at_most = 1.0 if high > buckets else (high - 0.5) / buckets
         below = 0.0 if low == 0 else (low - 0.5) / buckets
         if not inclusive:
             equal = self.mcv.get(self.lookup(value))
             at_most = at_most - equal / max(non_null, 1e-12) if equal is not None else below
-        return Estimate(_clip(at_most * non_null), "histogram")
+        return Estimate(_clip(at_most * non_null), Basis.HISTOGRAM)
 
 
 def _normal(value: Any) -> Any:
@@ -216,8 +226,8 @@ class Estimator:
         stats = self._stats(node)
         if isinstance(node, NullTest):
             if stats is None:
-                return Estimate(1.0 - DEFAULT_EQ if node.negated else DEFAULT_EQ, "default")
-            return Estimate(1.0 - stats.null_share if node.negated else stats.null_share, "exact")
+                return Estimate(1.0 - DEFAULT_EQ if node.negated else DEFAULT_EQ, Basis.DEFAULT)
+            return Estimate(1.0 - stats.null_share if node.negated else stats.null_share, Basis.EXACT)
         if isinstance(node, Compare):
             return self._compare(node, stats)
         if isinstance(node, Member):
@@ -228,7 +238,7 @@ class Estimator:
             return self._string(node, stats)
         if isinstance(node, RowNulls):
             return self._row_nulls(node)
-        return Estimate(DEFAULT_INEQ, "default")
+        return Estimate(DEFAULT_INEQ, Basis.DEFAULT)
 
     def _row_nulls(self, node: RowNulls) -> Estimate:
         """Rows with at least `need` values present, columns taken as independent."""
@@ -239,7 +249,7 @@ class Estimator:
         for share in present:
             counts = [(counts[k] if k < len(counts) else 0.0) * (1 - share) + (counts[k - 1] * share if k > 0 else 0.0)
                       for k in range(len(counts) + 1)]
-        return Estimate(_clip(sum(counts[max(need, 0):])), "exact" if len(present) <= 1 else "most-common")
+        return Estimate(_clip(sum(counts[max(need, 0):])), Basis.EXACT if len(present) <= 1 else Basis.MOST_COMMON)
 
     def _stats(self, node: Node) -> ColumnStats | None:
         operand = getattr(node, "operand", None) or getattr(node, "left", None)
@@ -252,14 +262,14 @@ class Estimator:
         known = stats is not None and isinstance(node.right, Literal) and literal is not None
         if node.op in ("==", "!="):
             if not known:
-                equal = Estimate(DEFAULT_EQ, "default")
+                equal = Estimate(DEFAULT_EQ, Basis.DEFAULT)
             else:
                 equal = stats.equal(literal)  # type: ignore[union-attr]
             if node.op == "==":
                 return equal
             return Estimate(_clip(1.0 - equal.selectivity), equal.basis)
         if not known or stats.redacted:  # type: ignore[union-attr]
-            return Estimate(DEFAULT_INEQ, "default")
+            return Estimate(DEFAULT_INEQ, Basis.DEFAULT)
         assert stats is not None
         non_null = 1.0 - stats.null_share
         if node.op in ("<", "<="):
@@ -269,12 +279,12 @@ class Estimator:
 
     def _member(self, node: Member, stats: ColumnStats | None) -> Estimate:
         if stats is None or isinstance(node.values, Named) or not all(isinstance(v, Literal) for v in node.values):
-            share = Estimate(min(DEFAULT_EQ * (1 if isinstance(node.values, Named) else len(node.values)), 1.0), "default")
+            share = Estimate(min(DEFAULT_EQ * (1 if isinstance(node.values, Named) else len(node.values)), 1.0), Basis.DEFAULT)
         else:
             values = {stats.lookup(v.value) for v in node.values if isinstance(v, Literal) and v.value is not None}
             parts = [stats.equal(v) for v in values]
             total = sum(p.selectivity for p in parts)
-            share = Estimate(_clip(min(total, 1.0 - stats.null_share)), _weakest("exact", *(p.basis for p in parts)))
+            share = Estimate(_clip(min(total, 1.0 - stats.null_share)), _weakest(Basis.EXACT, *(p.basis for p in parts)))
         if node.negated:
             return Estimate(_clip(1.0 - share.selectivity), share.basis)
         return share
@@ -283,7 +293,7 @@ class Estimator:
         low = node.low.value if isinstance(node.low, Literal) else None
         high = node.high.value if isinstance(node.high, Literal) else None
         if stats is None or low is None or high is None or stats.redacted:
-            return Estimate(DEFAULT_EQ, "default")
+            return Estimate(DEFAULT_EQ, Basis.DEFAULT)
         include_low = node.inclusive in ("both", "left")
         include_high = node.inclusive in ("both", "right")
         upper = stats.below(high, include_high)
@@ -292,15 +302,15 @@ class Estimator:
 
     def _string(self, node: StrTest, stats: ColumnStats | None) -> Estimate:
         if stats is None or stats.redacted or not isinstance(node.pattern, Literal) or not isinstance(node.pattern.value, str):
-            return Estimate(DEFAULT_MATCH, "default")
+            return Estimate(DEFAULT_MATCH, Basis.DEFAULT)
         test = _string_test(node)
         if test is None:
-            return Estimate(DEFAULT_MATCH, "default")
+            return Estimate(DEFAULT_MATCH, Basis.DEFAULT)
         listed = sum(share for value, share in stats.mcv.items() if isinstance(value, str) and test(value))
         rest = _clip(1.0 - sum(stats.mcv.values()) - stats.null_share)
         if stats.complete and not stats.suppressed_values:
-            return Estimate(_clip(listed), "exact")
-        return Estimate(_clip(listed + rest * DEFAULT_MATCH), "most-common")
+            return Estimate(_clip(listed), Basis.EXACT)
+        return Estimate(_clip(listed + rest * DEFAULT_MATCH), Basis.MOST_COMMON)
 
 
 def _string_test(node: StrTest):  # type: ignore[no-untyped-def]

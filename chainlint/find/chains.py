@@ -10,7 +10,7 @@ from __future__ import annotations
 import ast
 from dataclasses import dataclass, replace
 
-from chainlint.model import Barrier, Chain, Span, Step
+from chainlint.model import Barrier, BarrierKind, Chain, ChainForm, Span, Step, StepKind
 from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
 from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
@@ -206,7 +206,7 @@ class _Finder:
         outer = frozenset([root]) if root else frozenset()
         steps = self.steps(decomposed, root, outer, statement=0)
         span = self.positions.node_span(node)
-        return Chain(self.source.path, span, frame, "method", steps, self.origins.lookup(root, decomposed.base), near(self.source.lines, span.line, profile_comment), near(self.source.lines, span.line, keep_comment))
+        return Chain(self.source.path, span, frame, ChainForm.METHOD, steps, self.origins.lookup(root, decomposed.base), near(self.source.lines, span.line, profile_comment), near(self.source.lines, span.line, keep_comment))
 
     def resolver(self):  # type: ignore[no-untyped-def]
         bindings, scope = self.bindings, self.scope
@@ -247,7 +247,7 @@ class _Finder:
         """A lone step whose mask is a written conjunction, as a chain of its conjuncts, when
         every conjunct is a step that may move (`fused.py`)."""
         parts = conjunct_shapes(decomposed.shapes[0], self.positions)
-        if parts is None or (decomposed.shapes[0].kind.endswith("mask") and not all(mask_frames(p.arg, self.names) for p, _ in parts)):
+        if parts is None or (decomposed.shapes[0].kind.is_mask and not all(mask_frames(p.arg, self.names) for p, _ in parts)):
             return None
         root = dotted_name(decomposed.base)
         outer = frozenset([root]) if root else frozenset()
@@ -258,7 +258,7 @@ class _Finder:
         span = self.positions.node_span(node)
         lines = self.source.lines
         return Chain(
-            self.source.path, span, self.positions.text_of(decomposed.base), "mask", tuple(steps),
+            self.source.path, span, self.positions.text_of(decomposed.base), ChainForm.MASK, tuple(steps),
             self.origins.lookup(root, decomposed.base), near(lines, span.line, profile_comment), near(lines, span.line, keep_comment),
         )
 
@@ -317,7 +317,7 @@ class _Finder:
         if call is None or call.args or any(k.arg is None for k in call.keywords) or not rows_axis(call):
             return None
         assert isinstance(call.func, ast.Attribute) and isinstance(call.func.value, ast.Name)
-        shape = Shape("dropna", call, call.func.value, None, inplace=True)
+        shape = Shape(StepKind.DROPNA, call, call.func.value, None, inplace=True)
         return call.func.value.id, _Decomposed(call.func.value, (shape,))
 
     def statement_run(self, members: list[_Member]) -> Chain:
@@ -334,17 +334,17 @@ class _Finder:
             before = members[number - 1].target if number else None
             if before is not None and before != member.target and read_elsewhere(scope, before, statements):
                 reason = f"`{before}`, the frame this step receives, is read elsewhere: no step moves across its statement"
-                built[0] = replace(built[0], barrier=Barrier("frame", reason))
+                built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, reason))
             elif member.fence is not None:
                 reason = f"`{member.fence}` is assigned between this filter and the one before: no step moves across that statement"
-                built[0] = replace(built[0], barrier=Barrier("frame", reason))
+                built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, reason))
             steps.extend(built)
         start = self.positions.node_span(members[0].statement)
         end = self.positions.node_span(members[-1].statement)
         span = Span(start.line, start.column, end.end_line, end.end_column)
         origin = self.origins.lookup(root, first_base)
         return Chain(
-            self.source.path, span, self.positions.text_of(first_base), "statements", tuple(steps), origin,
+            self.source.path, span, self.positions.text_of(first_base), ChainForm.STATEMENTS, tuple(steps), origin,
             near(self.source.lines, span.line, profile_comment), near(self.source.lines, span.line, keep_comment),
         )
 

@@ -8,7 +8,7 @@ from __future__ import annotations
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
-from chainlint.model import Barrier
+from chainlint.model import Barrier, BarrierKind
 from chainlint.find.bindings import Resolved
 from chainlint.ir import PREDICATE_TYPES, Node
 
@@ -50,7 +50,7 @@ class Converted:
     def barrier(self) -> Barrier | None:
         """The most telling barrier: one that reads the frame beats one not understood."""
         for barrier in self.barriers:
-            if barrier.kind == "frame":
+            if barrier.kind is BarrierKind.FRAME:
                 return barrier
         return self.barriers[0] if self.barriers else None
 

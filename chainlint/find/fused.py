@@ -16,7 +16,7 @@ import ast
 from collections.abc import Iterator
 from dataclasses import replace
 
-from chainlint.model import Span
+from chainlint.model import Span, StepKind
 from chainlint.find.positions import Positions
 from chainlint.find.query import query_conjuncts
 from chainlint.find.shapes import Shape
@@ -25,10 +25,10 @@ from chainlint.find.shapes import Shape
 def conjunct_shapes(shape: Shape, positions: Positions) -> list[tuple[Shape, Span]] | None:
     """Each conjunct of a fused mask as a step shape of its own, with its span; None when the
     step is not a written conjunction of two or more parts."""
-    if shape.flag or shape.written is not None or shape.arg is None or shape.kind == "dropna":
+    if shape.flag or shape.written is not None or shape.arg is None or shape.kind is StepKind.DROPNA:
         return None
     arg = shape.arg
-    if shape.kind == "query":
+    if shape.kind is StepKind.QUERY:
         return _query_parts(shape, arg, positions)
     if isinstance(arg, ast.Lambda):
         parts = list(_and_parts(arg.body))

@@ -12,7 +12,7 @@ import re
 from collections.abc import Callable
 from typing import TypeVar
 
-from chainlint.model import FrameOrigin
+from chainlint.model import FrameOrigin, OriginKind
 from chainlint.find.bindings import VALUE, ModuleBindings
 
 PROFILE_COMMENT = re.compile(r"#\s*chainlint:\s*profile\s*=\s*([A-Za-z0-9][A-Za-z0-9_.\-]*)")
@@ -107,7 +107,7 @@ class Origins:
             return
         value = statement.value
         reader, path = self.reader_call(value)
-        kind = "read" if reader else "assigned"
+        kind = OriginKind.READ if reader else OriginKind.ASSIGNED
         options = read_options(value) if reader else ()
         self.scopes[-1][1][target.id] = FrameOrigin(target.id, kind, reader, path, self.comment_on(statement), options)
 
@@ -129,12 +129,12 @@ class Origins:
     def lookup(self, name: str | None, base: ast.expr) -> FrameOrigin | None:
         reader, path = self.reader_call(base)
         if reader:
-            return FrameOrigin(name or "", "read", reader, path, None, read_options(base))
+            return FrameOrigin(name or "", OriginKind.READ, reader, path, None, read_options(base))
         if name is None:
             return None
         for function, assigned in reversed(self.scopes):
             if name in assigned:
                 return assigned[name]
             if function is not None and name in self.bindings.scope(function).parameters:
-                return FrameOrigin(name, "parameter", None, None, None)
-        return FrameOrigin(name, "unknown", None, None, None)
+                return FrameOrigin(name, OriginKind.PARAMETER, None, None, None)
+        return FrameOrigin(name, OriginKind.UNKNOWN, None, None, None)

@@ -11,7 +11,7 @@ from __future__ import annotations
 import ast
 from collections.abc import Callable
 
-from chainlint.model import Barrier
+from chainlint.model import Barrier, BarrierKind
 from chainlint.find.barriers import FRAME_ATTRIBUTES, NOT_COLUMNS
 from chainlint.find.bindings import dotted_name
 from chainlint.find.calls import Calls
@@ -58,10 +58,10 @@ class Converter(Calls):
 
     # -- barriers -------------------------------------------------------------------------
     def opaque(self, reason: str) -> None:
-        self.barriers.append(Barrier("opaque", reason))
+        self.barriers.append(Barrier(BarrierKind.OPAQUE, reason))
 
     def depends(self, reason: str) -> None:
-        self.barriers.append(Barrier("frame", reason))
+        self.barriers.append(Barrier(BarrierKind.FRAME, reason))
 
     def unknown(self, expr: ast.AST, reason: str) -> Opaque:
         self.opaque(reason)
@@ -107,7 +107,7 @@ class Converter(Calls):
         return Named(name)
 
     def foreign(self, expr: ast.expr, name: str) -> Opaque:
-        self.barriers.append(Barrier("foreign", f"reads another frame, `{name}`"))
+        self.barriers.append(Barrier(BarrierKind.FOREIGN, f"reads another frame, `{name}`"))
         return Opaque(self.text_of(expr))
 
     def is_frame(self, expr: ast.expr) -> bool:

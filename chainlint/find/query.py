@@ -15,7 +15,7 @@ import bisect
 
 from collections.abc import Callable
 
-from chainlint.model import Barrier
+from chainlint.model import Barrier, BarrierKind
 from chainlint.find.converted import Converted, Dialect
 from chainlint.find.predicates import Converter, negate
 from chainlint.ir import Column, Member, Named, Node, Opaque, make_and, make_or
@@ -185,7 +185,7 @@ def convert_query(query: str, pandas: frozenset[str], pandas_functions: dict[str
         tree = ast.parse(text, mode="eval")
     except (SyntaxError, ValueError, RecursionError, MemoryError) as error:
         message = error.msg if isinstance(error, SyntaxError) else "too deeply nested"
-        return Converted(Opaque(query), [Barrier("opaque", f"the query text does not parse: {message}")])
+        return Converted(Opaque(query), [Barrier(BarrierKind.OPAQUE, f"the query text does not parse: {message}")])
     encoded = text.encode("utf-8")
     ascii_text = text.isascii()
 

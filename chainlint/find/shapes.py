@@ -12,6 +12,7 @@ from dataclasses import dataclass
 
 from chainlint.find.barriers import FRAME_ATTRIBUTES, NOT_COLUMNS
 from chainlint.find.bindings import dotted_name
+from chainlint.model import StepKind
 
 _MASK_TOPS = (ast.Compare, ast.BinOp, ast.UnaryOp, ast.Call)
 _LABELS = frozenset({"columns", "index", "values", "dtypes", "axes", "keys"})
@@ -97,14 +98,14 @@ def _peel_subscript(node: ast.Subscript, names: Names, masks: Masks) -> Shape | 
         key = key.elts[0]
     prefix = "loc_" if loc else "getitem_"
     if isinstance(key, ast.Lambda):
-        return Shape(prefix + "lambda", node, inner, key, selection)
+        return Shape(StepKind.subscript(loc, mask=False), node, inner, key, selection)
     if _column_mask(key.operand if isinstance(key, ast.UnaryOp) and isinstance(key.op, ast.Invert) else key, inner):
-        return Shape(prefix + "mask", node, inner, key, selection, flag=True)
+        return Shape(StepKind.subscript(loc, mask=True), node, inner, key, selection, flag=True)
     if isinstance(key, _MASK_TOPS) and is_mask_top(key) and mask_frames(key, names):
-        return Shape(prefix + "mask", node, inner, key, selection)
+        return Shape(StepKind.subscript(loc, mask=True), node, inner, key, selection)
     substituted = _substitute(key, masks) if masks else None
     if substituted is not None:
-        return Shape(prefix + "mask", node, inner, substituted, selection, written=key)
+        return Shape(StepKind.subscript(loc, mask=True), node, inner, substituted, selection, written=key)
     return None
 
 
@@ -189,7 +190,7 @@ def _peel_query(node: ast.Call) -> Shape | None:
     if arg is None or len(node.args) > 1:
         return None
     assert isinstance(node.func, ast.Attribute)
-    return Shape("query", node, node.func.value, arg)
+    return Shape(StepKind.QUERY, node, node.func.value, arg)
 
 
 def _peel_dropna(node: ast.Call) -> Shape | None:
@@ -198,7 +199,7 @@ def _peel_dropna(node: ast.Call) -> Shape | None:
     if truthy_or_unknown(keyword(node, "inplace")) or not rows_axis(node):
         return None
     assert isinstance(node.func, ast.Attribute)
-    return Shape("dropna", node, node.func.value, None)
+    return Shape(StepKind.DROPNA, node, node.func.value, None)
 
 
 def mask_frames(expr: ast.expr, names: Names) -> set[str]:

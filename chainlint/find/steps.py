@@ -8,7 +8,7 @@ import ast
 from collections.abc import Callable
 from dataclasses import dataclass
 
-from chainlint.model import Barrier, Span, Step
+from chainlint.model import Barrier, BarrierKind, MaskFrame, Span, Step, StepKind
 from chainlint.find.bindings import VALUE, VALUES, Resolved, dotted_name
 from chainlint.find.converted import Converted, Dialect, clip
 from chainlint.find.predicates import convert
@@ -44,31 +44,31 @@ def build_step(shape: Shape, context: StepContext) -> Step:
     """Convert a shaped step's predicate and classify whether it may move."""
     mask_frame = mask_name = mask_span = None
     extra: list[Barrier] = []
-    if shape.kind.endswith("lambda"):
+    if shape.kind.is_lambda:
         converted = _convert_lambda(shape.arg, context)
-    elif shape.kind.endswith("mask"):
+    elif shape.kind.is_mask:
         assert shape.arg is not None
         frame, mask_frame, extra = _choose_mask_frame(mask_frames(shape.arg, context.names), context)
         converted = convert(shape.arg, _dialect(frame, context), context.text_of)
         mask_name, mask_span = frame, context.span_of(shape.written or shape.arg)
         if shape.written is not None:
             reason = f"the mask `{clip(context.text_of(shape.written), 40)}` was computed before the chain, on `{frame}` as it was then"
-            extra = [Barrier("foreign", reason), *extra]
+            extra = [Barrier(BarrierKind.FOREIGN, reason), *extra]
         if shape.flag:
             converted = _flag(shape.arg, converted, _dialect(frame, context), context)
-    elif shape.kind == "query":
+    elif shape.kind is StepKind.QUERY:
         converted = _convert_query_step(shape, context)
     else:
         converted = _convert_dropna(shape, context)
     predicate, named = settle(converted.node, context.resolve, context.assigned)
     barriers = extra + converted.barriers + named
     if shape.inplace:
-        barriers.append(Barrier("frame", "an in-place `dropna` stays the statement it is, where it is written"))
+        barriers.append(Barrier(BarrierKind.FRAME, "an in-place `dropna` stays the statement it is, where it is written"))
     if shape.selection is not None:
         text = context.text_of(shape.selection)
-        barriers.append(Barrier("frame", f"also selects columns (`{clip(text, 40)}`): the selection stays where it is written"))
+        barriers.append(Barrier(BarrierKind.FRAME, f"also selects columns (`{clip(text, 40)}`): the selection stays where it is written"))
     if not barriers and not predicate.columns() and not isinstance(predicate, RowNulls):
-        barriers.append(Barrier("opaque", "reads no column of the frame it filters"))
+        barriers.append(Barrier(BarrierKind.OPAQUE, "reads no column of the frame it filters"))
     barrier = Converted(predicate, barriers).barrier
     return Step(
         kind=shape.kind,
@@ -96,20 +96,20 @@ def _dialect(frame: str | None, context: StepContext) -> Dialect:
 
 def _choose_mask_frame(candidates: set[str], context: StepContext) -> tuple[str, str, list[Barrier]]:
     if context.own in candidates:
-        return context.own, "own", []
+        return context.own, MaskFrame.OWN, []
     outer = sorted(candidates & context.outer)
     if outer:
         # Realigned by index: with duplicate labels the rows it keeps depend on the frame it
         # receives, so it stays in place (written as a lambda, it could move).
         reason = f"the mask is computed on `{outer[0]}` and realigned by index; write it as a lambda to let it move"
-        return outer[0], "outer", [Barrier("foreign", reason)]
+        return outer[0], MaskFrame.OUTER, [Barrier(BarrierKind.FOREIGN, reason)]
     frame = sorted(candidates)[0]
     if len(candidates) == 1:
         reason = f"the mask is computed on another frame, `{frame}`, and aligned by index"
     else:
         listed = ", ".join(f"`{c}`" for c in sorted(candidates))
         reason = f"the mask reads names that may be other frames ({listed})"
-    return frame, "foreign", [Barrier("foreign", reason)]
+    return frame, MaskFrame.FOREIGN, [Barrier(BarrierKind.FOREIGN, reason)]
 
 
 def _convert_lambda(arg: ast.expr | None, context: StepContext) -> Converted:
@@ -118,7 +118,7 @@ def _convert_lambda(arg: ast.expr | None, context: StepContext) -> Converted:
     positional = params.posonlyargs + params.args
     if len(positional) != 1 or params.vararg or params.kwarg or params.kwonlyargs or params.defaults:
         text = context.text_of(arg)
-        return Converted(Opaque(text), [Barrier("opaque", "the callable does not take exactly the frame")])
+        return Converted(Opaque(text), [Barrier(BarrierKind.OPAQUE, "the callable does not take exactly the frame")])
     return convert(arg.body, _dialect(positional[0].arg, context), context.text_of)
 
 
@@ -131,14 +131,14 @@ def _convert_query_step(shape: Shape, context: StepContext) -> Converted:
         converted = convert_query(arg.value, names.pandas, dict(names.pandas_functions))
         parser = keyword(shape.node, "parser")
         if parser is not None and not (isinstance(parser, ast.Constant) and parser.value == "pandas"):
-            converted.barriers.append(Barrier("opaque", "`parser=` other than 'pandas' reads `&` and `|` with another precedence"))
+            converted.barriers.append(Barrier(BarrierKind.OPAQUE, "`parser=` other than 'pandas' reads `&` and `|` with another precedence"))
         if scoped:
             reason = f"names in the query resolve through `{scoped[0]}=`, which chainlint does not follow"
-            converted.barriers.append(Barrier("foreign", reason))
+            converted.barriers.append(Barrier(BarrierKind.FOREIGN, reason))
         return converted
     assert arg is not None
     text = context.text_of(arg)
-    return Converted(Opaque(text), [Barrier("opaque", "the query text is built at run time")])
+    return Converted(Opaque(text), [Barrier(BarrierKind.OPAQUE, "the query text is built at run time")])
 
 
 def _convert_dropna(shape: Shape, context: StepContext) -> Converted:
@@ -148,14 +148,14 @@ def _convert_dropna(shape: Shape, context: StepContext) -> Converted:
     subset = keyword(node, "subset")
     how = keyword(node, "how")
     if how is not None and not (isinstance(how, ast.Constant) and how.value in ("any", "all")):
-        return Converted(Opaque(text), [Barrier("opaque", "`how=` is not a literal 'any' or 'all'")])
+        return Converted(Opaque(text), [Barrier(BarrierKind.OPAQUE, "`how=` is not a literal 'any' or 'all'")])
     how_text = how.value if how is not None else "any"  # type: ignore[attr-defined]
     thresh = keyword(node, "thresh")
     if thresh is not None and (how is not None or not (isinstance(thresh, ast.Constant) and type(thresh.value) is int)):
-        return Converted(Opaque(text), [Barrier("opaque", "`thresh=` is not a literal number given alone")])
+        return Converted(Opaque(text), [Barrier(BarrierKind.OPAQUE, "`thresh=` is not a literal number given alone")])
     barriers: list[Barrier] = []
     if truthy_or_unknown(keyword(node, "ignore_index")):
-        barriers.append(Barrier("frame", "renumbers the index (`ignore_index=True`)"))
+        barriers.append(Barrier(BarrierKind.FRAME, "renumbers the index (`ignore_index=True`)"))
     if subset is None:
         count = thresh.value if thresh is not None else None  # type: ignore[attr-defined]
         if context.selected is not None and count is None:
@@ -164,9 +164,9 @@ def _convert_dropna(shape: Shape, context: StepContext) -> Converted:
         return Converted(RowNulls(how_text, count), barriers)
     columns = _column_names(subset, context)
     if columns is None:
-        return Converted(Opaque(text), [Barrier("opaque", "`subset=` is not a literal list of column names")])
+        return Converted(Opaque(text), [Barrier(BarrierKind.OPAQUE, "`subset=` is not a literal list of column names")])
     if thresh is not None:
-        return Converted(Opaque(text), [Barrier("opaque", "`thresh=` with `subset=` is not modelled")])
+        return Converted(Opaque(text), [Barrier(BarrierKind.OPAQUE, "`thresh=` with `subset=` is not modelled")])
     tests = [NullTest(Column(c), True) for c in columns]
     predicate = make_or(tests) if how_text == "all" else make_and(tests)
     return Converted(predicate, barriers)
@@ -214,4 +214,4 @@ def _flag(key: ast.expr, converted: Converted, dialect: Dialect, context: StepCo
         return converted
     test: Node = Compare("==", column, Literal(True))
     reason = f"the column `{column.name}` itself is the mask: the code does not show that it holds booleans"
-    return Converted(Not(test) if negated else test, [Barrier("opaque", reason)])
+    return Converted(Not(test) if negated else test, [Barrier(BarrierKind.OPAQUE, reason)])

@@ -29,7 +29,7 @@ from chainlint.ir import (
     Range,
     StrTest,
 )
-from chainlint.model import Barrier
+from chainlint.model import Barrier, BarrierKind
 
 Resolver = Callable[[str], Resolved]
 _OPS = {"+": ast.Add(), "-": ast.Sub(), "*": ast.Mult(), "/": ast.Div(), "//": ast.FloorDiv(), "%": ast.Mod(), "**": ast.Pow()}
@@ -45,7 +45,7 @@ class _Settler:
         head = named.name.split(".")[0]
         if head in self.assigned:
             reason = f"reads `{head}`, which this run assigns: its value depends on where the step runs"
-            self.barriers.append(Barrier("frame", reason))
+            self.barriers.append(Barrier(BarrierKind.FRAME, reason))
             return True
         return False
 
@@ -63,7 +63,7 @@ class _Settler:
                 reason = f"`{node.name}` holds several values, which pandas compares position by position"
             else:
                 reason = f"`{node.name}` may be a Series or an array ({found.reason}); moved, it would meet other rows"
-            self.barriers.append(Barrier("foreign", reason))
+            self.barriers.append(Barrier(BarrierKind.FOREIGN, reason))
             return node
         if isinstance(node, Arith):
             left, right = self.single(node.left), self.single(node.right)

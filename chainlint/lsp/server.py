@@ -208,7 +208,7 @@ def plan_markdown(item: PlannedChain) -> str:
             predicate = step.predicate.canonical().replace("|", "\\|")
             lines.append(
                 f"| {name} | {estimate.step + 1} | `{predicate}` | {estimate.rows_in:,.0f} | {estimate.rows_out:,.0f} | "
-                f"{estimate.selectivity:.1%} | {estimate.basis} | {duration(estimate.seconds)} |"
+                f"{estimate.selectivity:.1%} | {estimate.basis.value} | {duration(estimate.seconds)} |"
             )
     return "\n".join(lines)
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from enum import Enum
 from typing import TYPE_CHECKING
 
 from chainlint.model.spans import Cell, Span
@@ -11,12 +12,77 @@ if TYPE_CHECKING:  # a step holds an IR node; the IR sits above the model (see D
     from chainlint.ir import Node
 
 
+class StepKind(Enum):
+    """The six written forms of a row filter; the value is how reports name the form."""
+
+    LOC_LAMBDA = "loc_lambda"
+    LOC_MASK = "loc_mask"
+    GETITEM_LAMBDA = "getitem_lambda"
+    GETITEM_MASK = "getitem_mask"
+    QUERY = "query"
+    DROPNA = "dropna"
+
+    @classmethod
+    def subscript(cls, loc: bool, mask: bool) -> StepKind:
+        """The form of `df.loc[key]` (`loc`) or `df[key]`, for a mask or a lambda key."""
+        if loc:
+            return cls.LOC_MASK if mask else cls.LOC_LAMBDA
+        return cls.GETITEM_MASK if mask else cls.GETITEM_LAMBDA
+
+    @property
+    def is_mask(self) -> bool:
+        return self in (StepKind.LOC_MASK, StepKind.GETITEM_MASK)
+
+    @property
+    def is_lambda(self) -> bool:
+        return self in (StepKind.LOC_LAMBDA, StepKind.GETITEM_LAMBDA)
+
+    @property
+    def is_getitem(self) -> bool:
+        return self in (StepKind.GETITEM_MASK, StepKind.GETITEM_LAMBDA)
+
+
+class BarrierKind(Enum):
+    """Why a step may not move: it reads the frame it receives, it is not understood, or it is a
+    mask computed on another frame."""
+
+    FRAME = "frame"
+    OPAQUE = "opaque"
+    FOREIGN = "foreign"
+
+
+class MaskFrame(Enum):
+    """Which frame a mask's columns come from: the one the step filters, the chain's first
+    frame, or another frame."""
+
+    OWN = "own"
+    OUTER = "outer"
+    FOREIGN = "foreign"
+
+
+class ChainForm(Enum):
+    """One expression (`df[a].query(b)`), a run of assignments (`x = df[a]` / `x = x[b]`), or
+    the conjuncts of one mask written in the code (`df[(df.a > 1) & (df.b == 2)]`)."""
+
+    METHOD = "method"
+    STATEMENTS = "statements"
+    MASK = "mask"
+
+
+class OriginKind(Enum):
+    """What the code says a chain's first frame is."""
+
+    READ = "read"
+    PARAMETER = "parameter"
+    ASSIGNED = "assigned"
+    UNKNOWN = "unknown"
+
+
 @dataclass(frozen=True)
 class Barrier:
-    """Why a step may not move: `frame` (reads the frame it receives), `opaque` (not understood)
-    or `foreign` (a mask computed on another frame)."""
+    """Why a step may not move, and the reason users read."""
 
-    kind: str
+    kind: BarrierKind
     reason: str
 
 
@@ -35,11 +101,11 @@ class Step:
     string of a `.query`), while `span` is the whole written step all its conjuncts share.
     """
 
-    kind: str
+    kind: StepKind
     span: Span
     predicate: Node
     barrier: Barrier | None = None
-    mask_frame: str | None = None
+    mask_frame: MaskFrame | None = None
     statement: int = 0
     own: str | None = None
     mask_name: str | None = None
@@ -59,16 +125,16 @@ class Step:
 class FrameOrigin:
     """What the code says about a chain's first frame.
 
-    `kind`: `read` (assigned from `pd.read_csv/read_parquet/read_feather/read_json`, `path`
-    the literal or module-constant path when there is one), `parameter` (a parameter of the
-    enclosing function), `assigned` (assigned from anything else) or `unknown`; `profile`: a
-    `# chainlint: profile=NAME` comment on the assigning statement; `read_options`: the
-    reader options the call passes as literals (`sep`, `header`, `na_values`, ...), lists as
+    `kind`: `read` (assigned from `pd.read_csv/read_parquet/read_feather/read_json`, the function
+    in `reader`, `path` the literal or module-constant path when there is one), `parameter` (a
+    parameter of the enclosing function), `assigned` (assigned from anything else) or `unknown`;
+    `profile`: a `# chainlint: profile=NAME` comment on the assigning statement; `read_options`:
+    the reader options the call passes as literals (`sep`, `header`, `na_values`, ...), lists as
     tuples and dictionaries as tuples of pairs.
     """
 
     name: str
-    kind: str
+    kind: OriginKind
     reader: str | None = None
     path: str | None = None
     profile: str | None = None
@@ -89,7 +155,7 @@ class Chain:
     path: str
     span: Span
     frame: str
-    form: str
+    form: ChainForm
     steps: tuple[Step, ...]
     origin: FrameOrigin | None = None
     profile_comment: str | None = None

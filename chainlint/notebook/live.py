@@ -14,7 +14,7 @@ from typing import Any
 import pyarrow as pa
 
 from chainlint.analysis.check import PlannedChain
-from chainlint.bind.binding import Binding
+from chainlint.bind.binding import Binding, BoundBy
 from chainlint.estimate.selectivity import Estimator
 from chainlint.model import Chain
 from chainlint.plan.chains import ChainPlan, plan_chain
@@ -59,7 +59,7 @@ def plan_on_frame(chain: Chain, frame: Any) -> LivePlan:
     # The frame's own dtypes judge how far steps may move: an object column of strings reads
     # as Arrow strings (`str` in a profile), but `.str` of it gives missing values that cannot mask.
     dtypes = {str(column): str(dtype) for column, dtype in frame.dtypes.items()}
-    plan = plan_chain(chain, Binding(name, "the kernel's frame"), Estimator(Profile.from_document(document)), len(frame), dtypes=dtypes)
+    plan = plan_chain(chain, Binding(name, BoundBy.KERNEL), Estimator(Profile.from_document(document)), len(frame), dtypes=dtypes)
     shown = replace(chain, path="cell")
     text = explain_text([PlannedChain(shown, plan.binding, replace(plan, chain=shown))])
     for predicate, reason in sorted(joint.skipped.items()):

@@ -19,7 +19,7 @@ from chainlint.estimate.cost import (
     predicate_cost,
     step_cost,
 )
-from chainlint.estimate.selectivity import Estimate, Estimator
+from chainlint.estimate.selectivity import Basis, Estimate, Estimator
 from chainlint.model import Chain
 from chainlint.plan.planner import EXACT_LIMIT, plan_segment
 from chainlint.plan.totality import ANY, LATER, STAYS, Limit, judge
@@ -31,7 +31,7 @@ class StepEstimate:
 
     step: int
     selectivity: float
-    basis: str
+    basis: Basis
     rows_in: float
     rows_out: float
     seconds: float
@@ -188,7 +188,7 @@ def _walk(order, estimates: list[Estimate], rows_after, cost, joint_steps: set[i
         kept = 1.0 if rows_in <= 0 else rows_out / rows_in
         seconds = cost(step, rows_in, kept) / 1e9
         if step in joint_steps:
-            out.append(StepEstimate(step, kept, "joint (exact)", rows_in, rows_out, seconds))
+            out.append(StepEstimate(step, kept, Basis.JOINT, rows_in, rows_out, seconds))
         else:
             out.append(StepEstimate(step, estimates[step].selectivity, estimates[step].basis, rows_in, rows_out, seconds))
     return tuple(out)

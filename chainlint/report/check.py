@@ -14,7 +14,7 @@ from pathlib import Path
 from typing import Any
 
 from chainlint.analysis.check import CheckResult
-from chainlint.model import Cell, FileError, Finding
+from chainlint.model import Cell, FileError, Finding, OriginKind
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import command_flags, options_from_code
 from chainlint.profile.store import StoreError, list_profiles
@@ -130,7 +130,7 @@ def unplanned_record(result: CheckResult) -> dict[str, Any] | None:
         summary = (f"{count} not planned: no profile in {where} describes {'them' if len(unbound) != 1 else 'it'} "
                    "(`chainlint explain` says why for each)")
     reads = {(c.chain.origin.path, c.chain.origin.read_options) for c in unbound
-             if c.chain.origin and c.chain.origin.kind == "read" and c.chain.origin.path}
+             if c.chain.origin and c.chain.origin.kind is OriginKind.READ and c.chain.origin.path}
     paths = sorted({path for path, _ in reads})
     commands = [_command(path, {options for p, options in reads if p == path}) for path in paths]
     if len(paths) < len(unbound) and not commands:

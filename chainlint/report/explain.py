@@ -9,7 +9,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from chainlint.analysis.check import PlannedChain
-from chainlint.model import Cell, Chain, FileAnalysis, FileError, Step
+from chainlint.model import Cell, Chain, ChainForm, FileAnalysis, FileError, Step
 from chainlint.plan.chains import ChainPlan
 from chainlint.plan.totality import ANY, LATER, STAYS, Limit
 from chainlint.ir import Node
@@ -23,13 +23,13 @@ def step_record(step: Step) -> dict[str, Any]:
         "column": step.span.column,
         "end_line": step.span.end_line,
         "end_column": step.span.end_column,
-        "kind": step.kind,
+        "kind": step.kind.value,
         "predicate": step.predicate.canonical(),
         "columns": list(step.columns),
         "movable": step.movable,
-        "barrier": step.barrier.kind if step.barrier else None,
+        "barrier": step.barrier.kind.value if step.barrier else None,
         "reason": step.barrier.reason if step.barrier else None,
-        "mask_frame": step.mask_frame,
+        "mask_frame": step.mask_frame.value if step.mask_frame else None,
     }
 
 
@@ -42,7 +42,7 @@ def chain_record(chain: Chain) -> dict[str, Any]:
         "end_line": chain.span.end_line,
         "end_column": chain.span.end_column,
         "frame": chain.frame,
-        "form": chain.form,
+        "form": chain.form.value,
         "steps": [step_record(step) for step in chain.steps],
     }
 
@@ -115,7 +115,7 @@ def _plan_text(item: PlannedChain) -> str:
         f"  written {duration(plan.written_seconds)}, planned {duration(plan.planned_seconds)} "
         f"({plan.speedup:.2f}x), fused into one mask {duration(plan.fused_seconds)}"
     )
-    if item.chain.form == "mask":
+    if item.chain.form is ChainForm.MASK:
         lines.append("  kept as written: its steps are the conjuncts of one mask, which the rewrite does not split yet")
     return "\n".join(lines) + "\n"
 
@@ -161,7 +161,7 @@ def _chain_text(chain: Chain, limits: Sequence[Limit | None] = ()) -> str:
         moves = ["yes" if step.movable else "no" for step in chain.steps]
         reasons = [step.barrier.reason if step.barrier else None for step in chain.steps]
     movable = sum(m != "no" for m in moves)
-    form = {"statements": "statement run", "mask": "one written mask"}.get(chain.form, "method chain")
+    form = {ChainForm.STATEMENTS: "statement run", ChainForm.MASK: "one written mask"}.get(chain.form, "method chain")
     head = printable(
         f"{chain.path}:{chain.span.line}:{chain.span.column}: {'' if chain.cell is None else f'cell {chain.cell.number}: '}"
         f"{form} on `{chain.frame}`, "
@@ -171,7 +171,7 @@ def _chain_text(chain: Chain, limits: Sequence[Limit | None] = ()) -> str:
     notes: dict[int, str] = {}
     for number, step in enumerate(chain.steps, start=1):
         at = step.conjunct or step.span
-        rows.append((str(number), f"{at.line}:{at.column}", step.kind, moves[number - 1], printable(readable(step.predicate))))
+        rows.append((str(number), f"{at.line}:{at.column}", step.kind.value, moves[number - 1], printable(readable(step.predicate))))
         if reasons[number - 1]:
             notes[number] = printable(reasons[number - 1])  # type: ignore[arg-type]
     widths = [max(len(row[i]) for row in rows) for i in range(4)]

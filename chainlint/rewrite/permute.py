@@ -19,7 +19,7 @@ import re
 from dataclasses import dataclass
 from functools import lru_cache
 
-from chainlint.model import Chain, Edit, Span, Step
+from chainlint.model import Chain, ChainForm, Edit, Span, Step
 from chainlint.parse.source import SourceText
 
 #: What may follow a step on its line for the line's comment to be the step's.
@@ -29,7 +29,7 @@ _DIRECTIVE = re.compile(r"#\s*chainlint:")
 _RUN_PREFIX = re.compile(r"[ \t]*[\w.]+[ \t]*=[ \t]*[\w.]+[ \t]*")
 #: The chain forms whose steps this edit can put in another order; the conjuncts of a written
 #: mask (form `mask`) need a rewrite that splits or joins masks.
-FORMS = frozenset({"method", "statements"})
+FORMS = frozenset({ChainForm.METHOD, ChainForm.STATEMENTS})
 
 
 class RewriteError(Exception):
@@ -43,7 +43,7 @@ def _offset(source: SourceText, line: int, column: int) -> int:
 def _render(source: SourceText, step: Step, slot: Step, start: int) -> str:
     """The text of `step` when it takes the place of `slot`."""
     text = source.text[_offset(source, step.span.line, step.span.column) : _offset(source, step.span.end_line, step.span.end_column)]
-    if not step.kind.endswith("mask"):
+    if not step.kind.is_mask:
         return text
     if step is slot or (step.mask_name is not None and step.mask_name == slot.own):
         return text
@@ -91,7 +91,7 @@ def _slots(source: SourceText, chain: Chain) -> list[_Slot]:
         slot = _Slot(start, end, _line_end(text, end))
         before_alone = index == 0 or steps[index - 1].span.end_line < step.span.line
         after_alone = index == len(steps) - 1 or steps[index + 1].span.line > step.span.end_line
-        if chain.form == "statements":
+        if chain.form is ChainForm.STATEMENTS:
             before_alone = before_alone and (index == 0 or steps[index - 1].statement != step.statement)
         match = _LINE_REST.fullmatch(text, end, slot.line_end)
         if match and after_alone:
@@ -103,8 +103,8 @@ def _slots(source: SourceText, chain: Chain) -> list[_Slot]:
                 slot.fixed = comment
         line_start = _line_start(text, start)
         prefix = text[line_start:start]
-        leads = not prefix.strip() if chain.form == "method" else _RUN_PREFIX.fullmatch(prefix) is not None
-        if before_alone and after_alone and leads and (step.span.line > chain.span.line or chain.form == "statements"):
+        leads = not prefix.strip() if chain.form is ChainForm.METHOD else _RUN_PREFIX.fullmatch(prefix) is not None
+        if before_alone and after_alone and leads and (step.span.line > chain.span.line or chain.form is ChainForm.STATEMENTS):
             lead_start = _lead_start(source, step.span.line)
             # Above a run's first statement, a `# chainlint:` comment over the comment lines
             # would start or stop applying to the run if they moved.

@@ -21,7 +21,7 @@ import libcst
 
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import find_seams
-from chainlint.model import Chain, Span
+from chainlint.model import Chain, ChainForm, Span
 from chainlint.parse.source import SourceError, SourceText, parse_tree, text_source
 from chainlint.rewrite.permute import RewriteError
 
@@ -35,7 +35,7 @@ class _Blank(ast.NodeTransformer):
         self.spans: set[tuple[int, int, int, int]] = set()
         self.runs: list[tuple[int, int]] = []
         for chain in chains:
-            if chain.form == "statements":
+            if chain.form is ChainForm.STATEMENTS:
                 self.runs.append((chain.span.line, chain.span.end_line))
             else:
                 span = chain.span
