@@ -18,7 +18,7 @@ import click
 from chainlint import __version__
 from chainlint.analysis.check import FAILING, RULES, Options, options_from, plan_results
 from chainlint.analysis.check import check as run_check
-from chainlint.model import FileError, Finding
+from chainlint.model import FileProblem, Finding
 from chainlint.analysis.run import analyse_files
 from chainlint.analysis.profiled import chains_for, code_read_options, project_chains
 from chainlint.cli_csv import csv_from, csv_options
@@ -123,7 +123,7 @@ def _read_store(config: Config) -> None:
 def _analyse(paths: Sequence[str], exclude: Sequence[str], max_file_size: float, jobs: int | None):  # type: ignore[no-untyped-def]
     found = discover(paths, exclude)
     results = analyse_files(found.files, jobs=jobs, max_bytes=int(max_file_size * 1024 * 1024))
-    return results, [FileError(e.path, 1, 1, e.message) for e in found.errors]
+    return results, [FileProblem(e.path, 1, 1, e.message) for e in found.errors]
 
 
 @main.command()

@@ -19,9 +19,10 @@ from pathlib import Path
 from typing import Any
 
 from chainlint.discover import pattern_problem
+from chainlint.model import ChainlintError
 
 
-class ConfigError(Exception):
+class ConfigError(ChainlintError):
     """A configuration file that cannot be used; the message names the file."""
 
 

@@ -23,6 +23,8 @@ import stat
 import time
 from dataclasses import dataclass
 
+from chainlint.model import ChainlintError
+
 _SUFFIX = ".chainlint"
 #: `.NAME.PID-TOKEN.chainlint`, and `.NAME.XXXXXXXX.chainlint` of earlier versions.
 _TEMPORARY = re.compile(r"^\.(?P<name>.+)\.(?:(?P<pid>\d+)-[0-9a-f]{8}|[a-z0-9_]{8})\.chainlint$")
@@ -30,13 +32,13 @@ _TEMPORARY = re.compile(r"^\.(?P<name>.+)\.(?:(?P<pid>\d+)-[0-9a-f]{8}|[a-z0-9_]
 _OLD_STYLE_AGE = 3600.0
 
 
-class WriteError(Exception):
+class WriteError(ChainlintError):
     """A file that was not written, and why; nothing was changed."""
 
+    path: str
+
     def __init__(self, path: str, reason: str) -> None:
-        super().__init__(f"{path}: {reason}")
-        self.path = path
-        self.reason = reason
+        super().__init__(reason, path=path)
 
 
 @dataclass(frozen=True)

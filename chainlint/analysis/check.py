@@ -10,7 +10,7 @@ from chainlint.bind.binding import Binding, bind_chain
 from chainlint.config import Config
 from chainlint.estimate.selectivity import Estimator
 from chainlint.estimate.stores import LoadedStores
-from chainlint.model import Chain, FileAnalysis, FileError, Finding
+from chainlint.model import Chain, FileAnalysis, FileProblem, Finding
 from chainlint.plan.chains import ChainPlan, plan_chain
 from chainlint.profile.sites import chain_site
 from chainlint.profile.store import find_store
@@ -75,19 +75,19 @@ class CheckResult:
 
     chains: tuple[PlannedChain, ...]
     findings: tuple[Finding, ...]
-    errors: tuple[FileError, ...]
+    errors: tuple[FileProblem, ...]
     files: int
     suppressed: tuple[Finding, ...] = ()
 
 
 def plan_results(results: Sequence[FileAnalysis], options: Options,
-                 stores: LoadedStores | None = None) -> tuple[list[PlannedChain], list[FileError]]:
+                 stores: LoadedStores | None = None) -> tuple[list[PlannedChain], list[FileProblem]]:
     """Bind and plan every chain; store and configuration problems become located errors.
 
     `stores` may be kept by a caller that plans again (the editor, after each change): a store
     whose files did not change is not read again, nor its estimators made again."""
     planned: list[PlannedChain] = []
-    errors: dict[str, FileError] = {}
+    errors: dict[str, FileProblem] = {}
     stores = LoadedStores() if stores is None else stores
     for result in results:
         if not result.chains:
@@ -95,8 +95,8 @@ def plan_results(results: Sequence[FileAnalysis], options: Options,
         store = (options.store or find_store(Path(result.path))).resolve()
         loaded = stores.load(store)
         profiles = loaded.profiles
-        for message in loaded.errors:
-            errors.setdefault(message, FileError(message.split(":")[0], 1, 1, message))
+        for error in loaded.errors:
+            errors.setdefault(error.message, error)
         for chain in result.chains:
             binding = bind_chain(chain, profiles, options.bindings)
             if binding.profile is None:

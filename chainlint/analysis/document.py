@@ -24,7 +24,7 @@ from pathlib import Path
 from typing import Any
 
 from chainlint.analysis.check import Options, PlannedChain, apply_rules, plan_results
-from chainlint.model import FileAnalysis, FileError, Finding, Span
+from chainlint.model import FileAnalysis, FileProblem, Finding, Span
 from chainlint.analysis.run import analyse_source
 from chainlint.estimate.stores import LoadedStores
 from chainlint.find.bindings import ModuleBindings, Resolved
@@ -48,7 +48,7 @@ class DocumentAnalysis:
 
     source: SourceText
     parts: tuple[tuple[int, tuple[PlannedChain, ...], tuple[Finding, ...]], ...] = ()
-    errors: tuple[FileError, ...] = ()
+    errors: tuple[FileProblem, ...] = ()
     statements: tuple[tuple[int, int], ...] = ()
     refusal: str | None = None
 
@@ -136,7 +136,7 @@ class DocumentAnalyser:
         try:
             tree = self._parser.parse(source)
         except SourceError as error:
-            return DocumentAnalysis(source, errors=(FileError(self.path, error.line, error.column, error.message),))
+            return DocumentAnalysis(source, errors=(FileProblem(self.path, error.line, error.column, error.message),))
         store = (options.store or find_store(Path(self.path))).resolve()
         setting = (options, store, self._stores.load(store), module_names(tree), _imports(source, tree))
         if self._setting is None or any(a is not b and a != b for a, b in zip(setting, self._setting)):
@@ -150,9 +150,9 @@ class DocumentAnalyser:
             try:
                 chains = find_chains(source, tree, seams.within([(first, last) for first, last, _, _ in stale]), asking)
             except SourceError as error:
-                return DocumentAnalysis(source, errors=(FileError(self.path, error.line, error.column, error.message),))
+                return DocumentAnalysis(source, errors=(FileProblem(self.path, error.line, error.column, error.message),))
             except RecursionError:
-                return DocumentAnalysis(source, errors=(FileError(self.path, 1, 1, "nesting too deep to analyse"),))
+                return DocumentAnalysis(source, errors=(FileProblem(self.path, 1, 1, "nesting too deep to analyse"),))
             planned, _ = plan_results([FileAnalysis(self.path, chains=tuple(chains))], options, self._stores)
             findings, _ = apply_rules(planned, options)
             firsts = [first for first, _, _, _ in stale]

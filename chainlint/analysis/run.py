@@ -11,7 +11,7 @@ from dataclasses import replace
 
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import find_seams
-from chainlint.model import Cell, CellLines, FileAnalysis, FileError
+from chainlint.model import Cell, CellLines, FileAnalysis, FileProblem
 from chainlint.notebook.cells import Notebook, is_notebook, notebook_from_text
 from chainlint.parse.source import (
     DEFAULT_MAX_BYTES,
@@ -34,10 +34,10 @@ def analyse_source(source: SourceText) -> FileAnalysis:
         tree = parse_tree(source)
         chains = find_chains(source, tree, seams)
     except SourceError as error:
-        return FileAnalysis(source.path, errors=(FileError(source.path, error.line, error.column, error.message),))
+        return FileAnalysis(source.path, errors=(FileProblem(source.path, error.line, error.column, error.message),))
     except RecursionError:
         message = "nesting too deep to analyse"
-        return FileAnalysis(source.path, errors=(FileError(source.path, 1, 1, message),))
+        return FileAnalysis(source.path, errors=(FileProblem(source.path, 1, 1, message),))
     return FileAnalysis(source.path, chains=tuple(chains), digest=text_digest(source.text))
 
 
@@ -51,7 +51,7 @@ def analyse_file(path: str, max_bytes: int = DEFAULT_MAX_BYTES) -> FileAnalysis:
         if is_notebook(path):
             return analyse_notebook(notebook_from_text(path, source.text))
     except SourceError as error:
-        return FileAnalysis(path, errors=(FileError(path, error.line, error.column, error.message),))
+        return FileAnalysis(path, errors=(FileProblem(path, error.line, error.column, error.message),))
     return analyse_source(source)
 
 
@@ -63,9 +63,9 @@ def analyse_notebook(notebook: Notebook) -> FileAnalysis:
     for line, column, message in [(e.line, e.column, e.message) for e in analysis.errors] + list(notebook.errors):
         cell = notebook.cell_at_line(line)
         if cell is None:
-            errors.append(FileError(notebook.path, 1, 1, message))
+            errors.append(FileProblem(notebook.path, 1, 1, message))
         else:
-            errors.append(FileError(notebook.path, line - cell.first_line + 1, column, message, Cell(cell.number, cell.id)))
+            errors.append(FileProblem(notebook.path, line - cell.first_line + 1, column, message, Cell(cell.number, cell.id)))
     return replace(analysis, errors=tuple(errors), cells=cells)
 
 

@@ -21,7 +21,9 @@ _SKIPPED_NAMES = frozenset({"__pycache__", "site-packages", "node_modules"})
 
 
 @dataclass(frozen=True)
-class DiscoveryError:
+class DiscoveryProblem:
+    """A path given or met that cannot be walked, and why."""
+
     path: str
     message: str
 
@@ -29,7 +31,7 @@ class DiscoveryError:
 @dataclass
 class Discovered:
     files: list[str] = field(default_factory=list)
-    errors: list[DiscoveryError] = field(default_factory=list)
+    errors: list[DiscoveryProblem] = field(default_factory=list)
 
 
 def _is_virtualenv(path: str, name: str) -> bool:
@@ -128,7 +130,7 @@ def discover(paths: Sequence[str], exclude: Iterable[str] = ()) -> Discovered:
                 message = f"cannot read this path: {error.strerror}"
             except OSError:
                 pass
-            found.errors.append(DiscoveryError(given, message))
+            found.errors.append(DiscoveryProblem(given, message))
             continue
         root = _repository_root(given)
         if rules.ignored(given, True, root):
@@ -136,7 +138,7 @@ def discover(paths: Sequence[str], exclude: Iterable[str] = ()) -> Discovered:
             root = os.path.abspath(given)
 
         def on_error(error: OSError, given: str = given) -> None:
-            found.errors.append(DiscoveryError(error.filename or given, f"cannot list folder: {error.strerror}"))
+            found.errors.append(DiscoveryProblem(error.filename or given, f"cannot list folder: {error.strerror}"))
 
         for folder, subfolders, files in os.walk(given, onerror=on_error):
             kept = []

@@ -10,6 +10,7 @@ from typing import Any
 
 from chainlint.estimate.calibrate import COST_MODEL_FILE, model_from_json
 from chainlint.estimate.cost import DEFAULT_MODEL, CostModel
+from chainlint.model import ChainlintError, FileProblem
 from chainlint.profile.documents import (
     SMALL_BYTES,
     Check,
@@ -46,12 +47,13 @@ def _share_costs(value: Any, field: str) -> None:
         raise FieldProblem(field, "must hold at least one [share, cost] pair")
 
 
-def load_cost_model(store: Path) -> tuple[CostModel, str | None]:
-    """The store's model, or the built-in one with a message naming the file and what is wrong."""
+def load_cost_model(store: Path) -> tuple[CostModel, FileProblem | None]:
+    """The store's model, or the built-in one with the problem, located in the file."""
     path = store / COST_MODEL_FILE
     if not path.exists():
         return DEFAULT_MODEL, None
     try:
         return model_from_json(check_cost_model(read_json(path, SMALL_BYTES), path)), None
     except (OSError, ValueError) as error:  # DocumentError is a ValueError
-        return DEFAULT_MODEL, f"{path}: cannot use the calibrated cost model: {str(error).removeprefix(f'{path}: ')}"
+        detail = error.detail if isinstance(error, ChainlintError) else str(error)
+        return DEFAULT_MODEL, FileProblem.of(ChainlintError(f"cannot use the calibrated cost model: {detail}", path=str(path)), str(path))

@@ -16,6 +16,7 @@ from chainlint.estimate.calibrate import COST_MODEL_FILE
 from chainlint.estimate.cost import DEFAULT_MODEL, CostModel
 from chainlint.estimate.model_file import load_cost_model
 from chainlint.estimate.selectivity import Estimator
+from chainlint.model import FileProblem
 from chainlint.profile.store import StoreError, list_profiles
 
 State = tuple[tuple[str, int, int], ...]
@@ -25,7 +26,7 @@ class LoadedStore:
     """One state of a store: its profiles, its cost model, every problem reading them, and one
     estimator per profile, made when a chain is first bound to it."""
 
-    def __init__(self, profiles: ProfileSet, model: CostModel = DEFAULT_MODEL, model_error: str | None = None,
+    def __init__(self, profiles: ProfileSet, model: CostModel = DEFAULT_MODEL, model_error: FileProblem | None = None,
                  state: State | None = None) -> None:
         self.profiles = profiles
         self.model = model
@@ -52,7 +53,7 @@ class LoadedStores:
         try:
             files = [*list_profiles(store), store / "config.json", store / COST_MODEL_FILE]
         except StoreError as error:
-            return LoadedStore(ProfileSet(store, errors=(str(error),)))
+            return LoadedStore(ProfileSet(store, errors=(FileProblem.of(error, str(store)),)))
         state = _state(files)
         loaded = self._stores.get(store)
         if loaded is None or loaded.state != state:

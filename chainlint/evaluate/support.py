@@ -7,11 +7,12 @@ profiler's pyarrow path never imports pandas).
 from __future__ import annotations
 
 from chainlint.ir import Literal, Named, Node, Opaque
+from chainlint.model import ChainlintError
 
 _INT64 = (-(2**63), 2**63 - 1)
 
 
-class NotEvaluable(Exception):
+class NotEvaluable(ChainlintError):
     """The predicate has a part chainlint cannot evaluate (the message says which)."""
 
 

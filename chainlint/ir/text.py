@@ -28,9 +28,10 @@ from chainlint.ir.nodes import (
     RowNulls,
     StrTest,
 )
+from chainlint.model import ChainlintError
 
 
-class PredicateSyntaxError(ValueError):
+class PredicateSyntaxError(ChainlintError, ValueError):
     """Raised for text that is not canonical predicate text; names the offset."""
 
 

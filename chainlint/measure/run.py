@@ -17,12 +17,12 @@ import pyarrow as pa
 
 from chainlint.evaluate.pandas_masks import apply_step
 from chainlint.evaluate.support import unevaluable
-from chainlint.model import Chain
+from chainlint.model import Chain, ChainlintError
 from chainlint.profile.read_options import CsvOptions
 from chainlint.profile.readers import open_dataset
 
 
-class MeasureError(Exception):
+class MeasureError(ChainlintError):
     """The measurement cannot be made or its result is wrong; the message says which."""
 
 

@@ -2,9 +2,27 @@
 imports a stage. Import them from here (`from chainlint.model import Chain, Finding`)."""
 
 from chainlint.model.chains import Barrier, BarrierKind, Chain, ChainForm, FrameOrigin, MaskFrame, OriginKind, Step, StepKind
-from chainlint.model.files import FileAnalysis, FileError
+from chainlint.model.errors import ChainlintError
+from chainlint.model.files import FileAnalysis, FileProblem
 from chainlint.model.findings import Edit, Finding
 from chainlint.model.spans import Cell, CellLines, Span
 
-__all__ = ["Barrier", "BarrierKind", "Cell", "CellLines", "Chain", "ChainForm", "Edit", "FileAnalysis", "FileError", "Finding", "FrameOrigin", "MaskFrame", "OriginKind", "Span", "Step",
-           "StepKind"]
+__all__ = [
+    "Barrier",
+    "BarrierKind",
+    "Cell",
+    "CellLines",
+    "Chain",
+    "ChainForm",
+    "ChainlintError",
+    "Edit",
+    "FileAnalysis",
+    "FileProblem",
+    "Finding",
+    "FrameOrigin",
+    "MaskFrame",
+    "OriginKind",
+    "Span",
+    "Step",
+    "StepKind",
+]

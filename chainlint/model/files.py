@@ -5,16 +5,26 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from chainlint.model.chains import Chain
+from chainlint.model.errors import ChainlintError
 from chainlint.model.spans import Cell, CellLines
 
 
 @dataclass(frozen=True)
-class FileError:
+class FileProblem:
+    """One file's failure, as reports show it (an error line, a JSON entry, a SARIF result);
+    `cell` for a notebook's code cell."""
+
     path: str
     line: int
     column: int
     message: str
     cell: Cell | None = None
+
+    @classmethod
+    def of(cls, error: ChainlintError, default_path: str) -> FileProblem:
+        """An error as a file's problem, at the place it names (`default_path`, line 1 when it
+        names none)."""
+        return cls(error.path or default_path, error.line or 1, error.column or 1, error.message)
 
 
 @dataclass(frozen=True)
@@ -29,6 +39,6 @@ class FileAnalysis:
 
     path: str
     chains: tuple[Chain, ...] = ()
-    errors: tuple[FileError, ...] = ()
+    errors: tuple[FileProblem, ...] = ()
     digest: str = ""
     cells: tuple[CellLines, ...] = ()

@@ -16,7 +16,7 @@ import pyarrow as pa
 from chainlint.analysis.check import PlannedChain
 from chainlint.bind.binding import Binding, BoundBy
 from chainlint.estimate.selectivity import Estimator
-from chainlint.model import Chain
+from chainlint.model import Chain, ChainlintError
 from chainlint.plan.chains import ChainPlan, plan_chain
 from chainlint.profile.build import profile_dataset
 from chainlint.profile.errors import DataError
@@ -29,7 +29,7 @@ from chainlint.profile.view import Profile
 from chainlint.report.explain import explain_text
 
 
-class MagicError(Exception):
+class MagicError(ChainlintError):
     """A problem to show the user in place of a plan."""
 
 

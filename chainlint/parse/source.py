@@ -17,6 +17,8 @@ import tokenize
 from dataclasses import dataclass
 from functools import cached_property
 
+from chainlint.model import ChainlintError
+
 #: Files larger than this are reported, not parsed: they are almost always generated.
 DEFAULT_MAX_BYTES = 4 * 1024 * 1024
 
@@ -24,14 +26,14 @@ _NEWLINE = re.compile(r"\r\n|\r|\n")
 _OTHER_BREAKS = re.compile("[\v\f\x1c\x1d\x1e\x85\u2028\u2029]")
 
 
-class SourceError(Exception):
+class SourceError(ChainlintError):
     """A file that could not be read or parsed, with the place to show the user."""
 
+    line: int
+    column: int
+
     def __init__(self, message: str, line: int = 1, column: int = 1) -> None:
-        super().__init__(message)
-        self.message = message
-        self.line = max(1, line)
-        self.column = max(1, column)
+        super().__init__(message, line=max(1, line), column=max(1, column))
 
 
 @dataclass(frozen=True)

@@ -19,6 +19,7 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
+from chainlint.model import ChainlintError
 from chainlint.profile.format import FORMAT_VERSION
 
 #: Size caps. A profile of 2,000 columns with full sketches and top lists is about 20 MB.
@@ -30,7 +31,7 @@ _NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,199}")
 _PATH = re.compile(r"[^\x00]{1,4096}")
 
 
-class DocumentError(ValueError):
+class DocumentError(ChainlintError, ValueError):
     """A store document that cannot be used; the message names the file and the field."""
 
 
@@ -59,33 +60,33 @@ def read_json(path: Path, limit: int) -> Any:
     except FileNotFoundError:
         raise
     except OSError as error:
-        raise DocumentError(f"{where}: cannot read: {error.strerror or error}") from None
+        raise DocumentError(f"cannot read: {error.strerror or error}", path=where) from None
     with open(descriptor, "rb") as handle:
         info = os.fstat(descriptor)
         if not stat.S_ISREG(info.st_mode):
-            raise DocumentError(f"{where}: not a regular file")
+            raise DocumentError("not a regular file", path=where)
         if info.st_size > limit:
-            raise DocumentError(f"{where}: {info.st_size:,} bytes, over the {limit:,}-byte limit")
+            raise DocumentError(f"{info.st_size:,} bytes, over the {limit:,}-byte limit", path=where)
         try:
             data = handle.read(limit + 1)
         except OSError as error:
-            raise DocumentError(f"{where}: cannot read: {error.strerror or error}") from None
+            raise DocumentError(f"cannot read: {error.strerror or error}", path=where) from None
     if len(data) > limit:
-        raise DocumentError(f"{where}: over the {limit:,}-byte limit")
+        raise DocumentError(f"over the {limit:,}-byte limit", path=where)
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError as error:
-        raise DocumentError(f"{where}: not UTF-8 text (byte {error.start})") from None
+        raise DocumentError(f"not UTF-8 text (byte {error.start})", path=where) from None
     try:
         document = json.loads(text, parse_constant=_constant, parse_int=_integer, parse_float=_float)
     except json.JSONDecodeError as error:
-        raise DocumentError(f"{where}:{error.lineno}:{error.colno}: not valid JSON: {error.msg}") from None
+        raise DocumentError(f"not valid JSON: {error.msg}", path=where, line=error.lineno, column=error.colno) from None
     except ValueError as error:
-        raise DocumentError(f"{where}: not valid JSON: {error}") from None
+        raise DocumentError(f"not valid JSON: {error}", path=where) from None
     except RecursionError:
-        raise DocumentError(f"{where}: nested too deeply") from None
+        raise DocumentError("nested too deeply", path=where) from None
     if _depth(document) > _MAX_DEPTH:
-        raise DocumentError(f"{where}: nested deeper than {_MAX_DEPTH} levels")
+        raise DocumentError(f"nested deeper than {_MAX_DEPTH} levels", path=where)
     return document
 
 
@@ -232,7 +233,7 @@ def validated(document: Any, path: Path | str, check: Check) -> Any:
     try:
         check(document, "")
     except FieldProblem as problem:
-        raise DocumentError(f"{path}: {problem}") from None
+        raise DocumentError(str(problem), path=str(path)) from None
     return document
 
 
@@ -292,11 +293,11 @@ _PROFILE = record(
 def check_profile(document: Any, path: Path | str) -> dict[str, Any]:
     """A parsed profile checked against docs/profile-format.md (versions 1 to FORMAT_VERSION)."""
     if not isinstance(document, dict) or document.get("format") != "chainlint-profile":
-        raise DocumentError(f"{path}: not a chainlint profile (field format must be \"chainlint-profile\")")
+        raise DocumentError("not a chainlint profile (field format must be \"chainlint-profile\")", path=str(path))
     version = document.get("format_version")
     if isinstance(version, int) and not isinstance(version, bool) and version > FORMAT_VERSION:
-        raise DocumentError(f"{path}: profile format version {version} is newer than this chainlint understands "
-                            f"({FORMAT_VERSION}); upgrade chainlint")
+        raise DocumentError(f"profile format version {version} is newer than this chainlint understands "
+                            f"({FORMAT_VERSION}); upgrade chainlint", path=str(path))
     return validated(document, path, _PROFILE)
 
 

@@ -1,5 +1,7 @@
 """The error every data reader raises."""
 
+from chainlint.model import ChainlintError
 
-class DataError(Exception):
+
+class DataError(ChainlintError):
     """Data that cannot be profiled; the message names the file (and line where known)."""

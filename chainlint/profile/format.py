@@ -13,12 +13,13 @@ from datetime import UTC, datetime
 from typing import Any
 
 from chainlint import __version__
+from chainlint.model import ChainlintError
 
 FORMAT_NAME = "chainlint-profile"
 FORMAT_VERSION = 2
 
 
-class ProfileError(Exception):
+class ProfileError(ChainlintError):
     """A profile file that cannot be used; the message names the file."""
 
 

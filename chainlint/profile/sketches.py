@@ -26,6 +26,7 @@ import numpy as np
 import pyarrow as pa
 
 from chainlint.arrays import to_numpy
+from chainlint.model import ChainlintError
 
 HLL_PRECISION = 12
 _STRING_BASE = np.uint64(0x100000001B3)
@@ -130,7 +131,7 @@ _REGISTER_BITS = 5  # ranks reach 32 - HLL_PRECISION + 1 = 21
 SEALED_BYTES = _TAG_BYTES + (1 << HLL_PRECISION) * _REGISTER_BITS // 8
 
 
-class SketchKeyError(ValueError):
+class SketchKeyError(ChainlintError, ValueError):
     """A sealed sketch that this key did not seal (or that was altered)."""
 
 

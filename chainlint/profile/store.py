@@ -13,6 +13,7 @@ import secrets
 from pathlib import Path
 from typing import Any
 
+from chainlint.model import ChainlintError
 from chainlint.profile.documents import (
     PROFILE_BYTES,
     SMALL_BYTES,
@@ -29,7 +30,7 @@ STORE_FOLDER = ".chainlint"
 _NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,199}")
 
 
-class StoreError(Exception):
+class StoreError(ChainlintError):
     """The store cannot be found, read or written."""
 
 
@@ -68,11 +69,11 @@ def write_atomic(path: Path, text: str) -> None:
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
     except OSError as error:
-        raise StoreError(f"{path.parent}: cannot write: {error.strerror}") from None
+        raise StoreError(f"cannot write: {error.strerror}", path=str(path.parent)) from None
     try:
         write_file(path, text.encode("utf-8"))
     except WriteError as error:
-        raise StoreError(str(error)) from None
+        raise StoreError(error.reason, path=error.path) from None
 
 
 def load_document(path: Path) -> dict[str, Any]:
@@ -81,9 +82,9 @@ def load_document(path: Path) -> dict[str, Any]:
     try:
         return check_profile(read_json(path, PROFILE_BYTES), path)
     except FileNotFoundError:
-        raise ProfileError(f"{path}: no such profile") from None
+        raise ProfileError("no such profile", path=str(path)) from None
     except DocumentError as error:
-        raise ProfileError(str(error)) from None
+        raise ProfileError(error.reason, path=error.path, line=error.line, column=error.column) from None
 
 
 def load_profile(path: Path) -> Profile:
@@ -118,7 +119,7 @@ def list_profiles(store: Path) -> list[Path]:
     try:
         names = os.listdir(folder)
     except OSError as error:
-        raise StoreError(f"{folder}: cannot list the profiles: {error.strerror or error}") from None
+        raise StoreError(f"cannot list the profiles: {error.strerror or error}", path=str(folder)) from None
     return sorted(folder / name for name in names if name.endswith(".json") and not name.startswith("."))
 
 
@@ -130,8 +131,8 @@ def redaction_key(store: Path, create: bool) -> bytes:
         try:
             config = check_store_config(read_json(config_path, SMALL_BYTES), config_path)
         except (OSError, DocumentError) as error:
-            detail = str(error).removeprefix(f"{config_path}: ")
-            raise StoreError(f"{config_path}: cannot read the store configuration: {detail}") from None
+            detail = error.detail if isinstance(error, DocumentError) else str(error)
+            raise StoreError(f"cannot read the store configuration: {detail}", path=str(config_path)) from None
     key = config.get("redaction_key")
     if isinstance(key, str) and re.fullmatch(r"[0-9a-f]{64}", key):
         return bytes.fromhex(key)
@@ -155,11 +156,11 @@ def sketch_key(store: Path, create: bool) -> bytes:
     except (FileNotFoundError, NotADirectoryError):
         text = ""
     except (OSError, UnicodeDecodeError) as error:
-        raise StoreError(f"{path}: cannot read the sketch key: {getattr(error, 'strerror', None) or error}") from None
+        raise StoreError(f"cannot read the sketch key: {getattr(error, 'strerror', None) or error}", path=str(path)) from None
     if re.fullmatch(r"[0-9a-f]{64}", text):
         return bytes.fromhex(text)
     if text:
-        raise StoreError(f"{path}: not a sketch key (64 hexadecimal digits expected)")
+        raise StoreError("not a sketch key (64 hexadecimal digits expected)", path=str(path))
     if not create:
         return b""
     key = secrets.token_hex(32)
@@ -169,6 +170,6 @@ def sketch_key(store: Path, create: bool) -> bytes:
     except FileExistsError:
         pass
     except OSError as error:
-        raise StoreError(f"{path}: cannot write: {error.strerror}") from None
+        raise StoreError(f"cannot write: {error.strerror}", path=str(path)) from None
     write_atomic(path, key + "\n")
     return bytes.fromhex(key)

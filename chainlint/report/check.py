@@ -14,7 +14,7 @@ from pathlib import Path
 from typing import Any
 
 from chainlint.analysis.check import CheckResult
-from chainlint.model import Cell, FileError, Finding, OriginKind
+from chainlint.model import Cell, FileProblem, Finding, OriginKind
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import command_flags, options_from_code
 from chainlint.profile.store import StoreError, list_profiles
@@ -26,7 +26,7 @@ def cell_prefix(cell: Cell | None) -> str:
     return "" if cell is None else f"cell {cell.number}: "
 
 
-def error_line(error: FileError) -> str:
+def error_line(error: FileProblem) -> str:
     return printable(f"{error.path}:{error.line}:{error.column}: error: {cell_prefix(error.cell)}{error.message}")
 
 

@@ -9,7 +9,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from chainlint.analysis.check import PlannedChain
-from chainlint.model import Cell, Chain, ChainForm, FileAnalysis, FileError, Step
+from chainlint.model import Cell, Chain, ChainForm, FileAnalysis, FileProblem, Step
 from chainlint.plan.chains import ChainPlan
 from chainlint.plan.totality import ANY, LATER, STAYS, Limit
 from chainlint.ir import Node
@@ -52,11 +52,11 @@ def cell_record(cell: Cell | None) -> dict[str, Any] | None:
     return None if cell is None else {"number": cell.number, "id": cell.id}
 
 
-def error_record(error: FileError) -> dict[str, Any]:
+def error_record(error: FileProblem) -> dict[str, Any]:
     return {"path": error.path, "cell": cell_record(error.cell), "line": error.line, "column": error.column, "message": error.message}
 
 
-def all_errors(results: Sequence[FileAnalysis], extra: Sequence[FileError] = ()) -> list[FileError]:
+def all_errors(results: Sequence[FileAnalysis], extra: Sequence[FileProblem] = ()) -> list[FileProblem]:
     return sorted([e for r in results for e in r.errors] + list(extra), key=lambda e: (e.path, e.line, e.column))
 
 
@@ -92,7 +92,7 @@ def planned_record(item: PlannedChain) -> dict[str, Any]:
     return record
 
 
-def explain_json(planned: Sequence[PlannedChain], errors: Sequence[FileError]) -> str:
+def explain_json(planned: Sequence[PlannedChain], errors: Sequence[FileProblem]) -> str:
     document = {
         "chains": [planned_record(item) for item in planned],
         "errors": [error_record(e) for e in sorted(errors, key=lambda e: (e.path, e.line, e.column))],

@@ -19,7 +19,7 @@ import re
 from dataclasses import dataclass
 from functools import lru_cache
 
-from chainlint.model import Chain, ChainForm, Edit, Span, Step
+from chainlint.model import Chain, ChainForm, ChainlintError, Edit, Span, Step
 from chainlint.parse.source import SourceText
 
 #: What may follow a step on its line for the line's comment to be the step's.
@@ -32,7 +32,7 @@ _RUN_PREFIX = re.compile(r"[ \t]*[\w.]+[ \t]*=[ \t]*[\w.]+[ \t]*")
 FORMS = frozenset({ChainForm.METHOD, ChainForm.STATEMENTS})
 
 
-class RewriteError(Exception):
+class RewriteError(ChainlintError):
     """A chain that cannot be rewritten safely; the message says why."""
 
 
