@@ -1,6 +1,8 @@
 """chainlint: keep every chain of pandas row filters in a cheap, result-preserving order."""
 
-__version__ = "0.1.0"
+from chainlint.version import __version__
+
+__all__ = ["__version__", "load_ipython_extension"]
 
 
 def load_ipython_extension(ipython):  # type: ignore[no-untyped-def]

@@ -15,7 +15,7 @@ from typing import NoReturn
 
 import click
 
-from chainlint import __version__
+from chainlint.version import __version__
 from chainlint.analysis.check import FAILING, RULES, Options, options_from, plan_results
 from chainlint.analysis.check import check as run_check
 from chainlint.model import FileProblem, Finding
@@ -24,7 +24,7 @@ from chainlint.analysis.profiled import chains_for, code_read_options, project_c
 from chainlint.cli_csv import csv_from, csv_options
 from chainlint.config import Config, ConfigError, as_toml, load_config, override
 from chainlint.discover import discover, pattern_problem
-from chainlint.notebook.locate import locate_planned, locate_result
+from chainlint.analysis.locate import locate_planned, locate_result
 from chainlint.estimate.calibrate import COST_MODEL_FILE, model_to_json
 from chainlint.estimate.calibrate import calibrate as measure_model
 from chainlint.plan.chains import plan_chain
@@ -210,7 +210,7 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
     elif output_format == "sarif":
         report = check_sarif(result, sorted(options.rules))
     elif show_diff:
-        from chainlint.rewrite.fixes import unified_diff
+        from chainlint.report.diff import unified_diff
 
         report = "".join(unified_diff(fixes[path]) for path in sorted(fixes) if fixes[path].new_text is not None)
     else:

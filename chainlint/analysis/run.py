@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import hashlib
 import multiprocessing
 import os
 from collections.abc import Iterable, Sequence
@@ -12,14 +11,8 @@ from dataclasses import replace
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import find_seams
 from chainlint.model import Cell, CellLines, FileAnalysis, FileProblem
-from chainlint.notebook.cells import Notebook, is_notebook, notebook_from_text
-from chainlint.parse.source import (
-    DEFAULT_MAX_BYTES,
-    SourceError,
-    SourceText,
-    parse_tree,
-    read_source,
-)
+from chainlint.parse.notebooks import Notebook, is_notebook, notebook_from_text
+from chainlint.parse.source import DEFAULT_MAX_BYTES, SourceError, SourceText, parse_tree, read_source, text_digest
 
 #: Below this many files a process pool costs more than it saves.
 _POOL_THRESHOLD = 16
@@ -39,10 +32,6 @@ def analyse_source(source: SourceText) -> FileAnalysis:
         message = "nesting too deep to analyse"
         return FileAnalysis(source.path, errors=(FileProblem(source.path, 1, 1, message),))
     return FileAnalysis(source.path, chains=tuple(chains), digest=text_digest(source.text))
-
-
-def text_digest(text: str) -> str:
-    return hashlib.sha256(text.encode("utf-8", "surrogatepass")).hexdigest()
 
 
 def analyse_file(path: str, max_bytes: int = DEFAULT_MAX_BYTES) -> FileAnalysis:

@@ -20,7 +20,7 @@ from chainlint.analysis.check import Options, PlannedChain, apply_rules, plan_re
 from chainlint.analysis.run import analyse_notebook
 from chainlint.estimate.stores import LoadedStores
 from chainlint.model import Edit, Finding, Span
-from chainlint.notebook.cells import notebook_from_cells
+from chainlint.parse.notebooks import notebook_from_cells
 from chainlint.parse.source import SourceText
 from chainlint.rewrite.fixes import fix_in_text
 from chainlint.rewrite.permute import RewriteError

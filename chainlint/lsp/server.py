@@ -19,7 +19,6 @@ from collections.abc import Sequence
 from lsprotocol import types
 from pygls.lsp.server import LanguageServer
 
-from chainlint import __version__
 from chainlint.analysis.check import PlannedChain
 from chainlint.lsp import notebooks
 from chainlint.lsp.documents import Documents, DocumentState, options_for
@@ -29,6 +28,7 @@ from chainlint.model import Span
 from chainlint.parse.source import DEFAULT_MAX_BYTES
 from chainlint.rules import LEVELS
 from chainlint.units import duration
+from chainlint.version import __version__
 
 DEBOUNCE_SECONDS = 0.025
 logger = logging.getLogger("chainlint.lsp")

@@ -20,8 +20,8 @@ from typing import Any
 
 from chainlint.analysis.run import analyse_source
 from chainlint.model import Chain, Edit
-from chainlint.notebook.cells import analysable
 from chainlint.notebook.live import MagicError, measure_text, plan_on_frame, profile_into_store
+from chainlint.parse.notebooks import analysable
 from chainlint.parse.source import text_source
 
 _PARSER = argparse.ArgumentParser(prog="%%chainlint", add_help=False, exit_on_error=False)

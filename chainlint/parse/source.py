@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import ast
 import bisect
+import hashlib
 import io
 import itertools
 import os
@@ -116,6 +117,11 @@ def decode_source(path: str, data: bytes) -> SourceText:
         column = nul - max(text.rfind("\n", 0, nul), text.rfind("\r", 0, nul))
         raise SourceError("file contains a NUL byte", line, column)
     return text_source(path, text, encoding)
+
+
+def text_digest(text: str) -> str:
+    """The digest that tells whether a file still holds the text analysed."""
+    return hashlib.sha256(text.encode("utf-8", "surrogatepass")).hexdigest()
 
 
 def text_source(path: str, text: str, encoding: str = "utf-8") -> SourceText:

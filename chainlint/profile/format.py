@@ -12,8 +12,8 @@ import math
 from datetime import UTC, datetime
 from typing import Any
 
-from chainlint import __version__
 from chainlint.model import ChainlintError
+from chainlint.version import __version__
 
 FORMAT_NAME = "chainlint-profile"
 FORMAT_VERSION = 2

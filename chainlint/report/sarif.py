@@ -19,11 +19,11 @@ from pathlib import Path
 from typing import Any
 from urllib.parse import quote
 
-from chainlint import __version__
 from chainlint.analysis.check import CheckResult
 from chainlint.model import Cell, Finding, Span
 from chainlint.report.escape import encodable
 from chainlint.rules import CATALOG, LEVELS
+from chainlint.version import __version__
 
 SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
 BASE = "SRCROOT"

@@ -9,18 +9,15 @@ meanwhile, or any check fails, nothing is written and the reason is given.
 
 from __future__ import annotations
 
-import difflib
 import os
 from collections import defaultdict
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
 
-from chainlint.analysis.run import text_digest
 from chainlint.model import Chain, Edit, FileAnalysis, Finding
-from chainlint.notebook.cells import is_notebook, notebook_from_text
-from chainlint.notebook.rewrite import rewrite_cells
-from chainlint.parse.source import SourceError, SourceText, decode_source, read_source, text_source
-from chainlint.report.escape import printable
+from chainlint.parse.notebooks import is_notebook, notebook_from_text
+from chainlint.parse.source import SourceError, SourceText, decode_source, read_source, text_digest, text_source
+from chainlint.rewrite.cells import rewrite_cells
 from chainlint.rewrite.permute import RewriteError, apply_edits, chain_edit
 from chainlint.rewrite.verify import verify
 from chainlint.writer import WriteError, read_snapshot, write_file
@@ -128,19 +125,6 @@ def _verified(source: SourceText, items: list[tuple[Finding, Chain, Edit]],
                 refusals[id(finding)] = replace(finding, fix_error=str(error))
         return []
     return items
-
-
-def unified_diff(fix: FileFix) -> str:
-    assert fix.source is not None and fix.new_text is not None
-    name = printable(os.path.relpath(fix.path))
-    return "".join(
-        difflib.unified_diff(
-            fix.source.text.splitlines(keepends=True),
-            fix.new_text.splitlines(keepends=True),
-            fromfile=f"a/{name}",
-            tofile=f"b/{name}",
-        )
-    )
 
 
 def write_fix(fix: FileFix) -> str | None:

@@ -14,7 +14,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 from chainlint.model import Edit
-from chainlint.notebook.cells import CodeCell, Notebook, cell_source
+from chainlint.parse.notebooks import CodeCell, Notebook, cell_source
 from chainlint.rewrite.permute import RewriteError
 
 _SPACE = " \t\r\n"
