@@ -2,19 +2,26 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import pytest
 from hypothesis import given, settings
 from strategies import ir_trees
 
 from chainlint.ir import (
+    NODE_TYPES,
+    Cases,
     Column,
     Compare,
     Literal,
     Member,
+    Node,
     Not,
+    Opaque,
     PredicateSyntaxError,
     Range,
     StrTest,
+    UnhandledNode,
     parse_predicate,
 )
 
@@ -58,3 +65,23 @@ def test_columns_are_listed() -> None:
 def test_bad_text_is_rejected(text: str) -> None:
     with pytest.raises(PredicateSyntaxError):
         parse_predicate(text)
+
+
+def test_a_function_over_the_ir_names_every_node_class() -> None:
+    """A missing case fails where the table is built, a node of a new class where it is met:
+    never a silent default."""
+    with pytest.raises(UnhandledNode, match="no case for .*Opaque"):
+        Cases("sample", {cls: str for cls in NODE_TYPES if cls is not Opaque})
+    partial = Cases("columns only", {Column: lambda node: node.name}, over=(Column,))
+    assert partial[Column("a")](Column("a")) == "a"
+    with pytest.raises(UnhandledNode, match="columns only: no case for Literal"):
+        partial[Literal(1)]
+
+    @dataclass(frozen=True, slots=True)
+    class Unknown(Node):
+        name: str
+
+    with pytest.raises(UnhandledNode, match="canonical text: no case for Unknown"):
+        Unknown("x").canonical()
+    with pytest.raises(UnhandledNode, match="children: no case for Unknown"):
+        Unknown("x").columns()

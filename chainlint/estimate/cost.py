@@ -17,16 +17,21 @@ calibration can replace them.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
 from chainlint.ir import (
     And,
     Arith,
+    Cases,
     Column,
     Compare,
+    Literal,
     Member,
+    Named,
     Node,
     Not,
     NullTest,
@@ -90,30 +95,36 @@ def shape_of(profile: Profile) -> FrameShape:
 
 def predicate_cost(node: Node, shape: FrameShape, model: CostModel = DEFAULT_MODEL) -> float:
     """Nanoseconds per input row to evaluate the predicate."""
-    if isinstance(node, (And, Or)):
-        return sum(predicate_cost(p, shape, model) for p in node.parts) + model.combine * (len(node.parts) - 1)
-    if isinstance(node, Not):
-        return predicate_cost(node.operand, shape, model) + model.combine
-    if isinstance(node, Opaque):
-        return model.opaque
-    if isinstance(node, Arith):
-        return model.arith + predicate_cost(node.left, shape, model) + predicate_cost(node.right, shape, model)
-    kind = _operand_kind(node, shape)
-    if isinstance(node, Compare):
-        extra = sum(predicate_cost(side, shape, model) for side in (node.left, node.right) if isinstance(side, (Arith, Opaque)))
-        return model.compare[kind] + extra
-    if isinstance(node, Member):
-        return model.member[kind]
-    if isinstance(node, Range):
-        return model.between if kind != "str" else 2 * model.compare["str"]
-    if isinstance(node, NullTest):
-        return model.null_test
-    if isinstance(node, StrTest):
-        return model.string_test
-    if isinstance(node, RowNulls):
-        columns = max(len(shape.kinds), 1)
-        return model.null_test * columns + model.combine * (columns - 1)
-    return 0.0
+    return _COST[node](node, shape, model)
+
+
+def _compare_cost(node: Compare, shape: FrameShape, model: CostModel) -> float:
+    extra = sum(predicate_cost(side, shape, model) for side in (node.left, node.right) if isinstance(side, (Arith, Opaque)))
+    return model.compare[_operand_kind(node, shape)] + extra
+
+
+def _range_cost(node: Range, shape: FrameShape, model: CostModel) -> float:
+    return model.between if _operand_kind(node, shape) != "str" else 2 * model.compare["str"]
+
+
+def _row_nulls_cost(node: RowNulls, shape: FrameShape, model: CostModel) -> float:
+    columns = max(len(shape.kinds), 1)
+    return model.null_test * columns + model.combine * (columns - 1)
+
+
+_COST: Cases[Callable[[Any, FrameShape, CostModel], float]] = Cases("predicate cost", {
+    (And, Or): lambda node, shape, model: sum(predicate_cost(p, shape, model) for p in node.parts) + model.combine * (len(node.parts) - 1),
+    Not: lambda node, shape, model: predicate_cost(node.operand, shape, model) + model.combine,
+    Opaque: lambda node, shape, model: model.opaque,
+    Arith: lambda node, shape, model: model.arith + predicate_cost(node.left, shape, model) + predicate_cost(node.right, shape, model),
+    Compare: _compare_cost,
+    Member: lambda node, shape, model: model.member[_operand_kind(node, shape)],
+    Range: _range_cost,
+    NullTest: lambda node, shape, model: model.null_test,
+    StrTest: lambda node, shape, model: model.string_test,
+    RowNulls: _row_nulls_cost,
+    (Column, Literal, Named): lambda node, shape, model: 0.0,  # read as part of the test that uses them
+})
 
 
 def _operand_kind(node: Node, shape: FrameShape) -> str:

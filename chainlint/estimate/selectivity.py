@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 from enum import Enum
 from typing import Any
@@ -25,6 +26,8 @@ import numpy as np
 from chainlint.estimate.cost import shape_of
 from chainlint.ir import (
     And,
+    Arith,
+    Cases,
     Column,
     Compare,
     Literal,
@@ -33,6 +36,7 @@ from chainlint.ir import (
     Node,
     Not,
     NullTest,
+    Opaque,
     Or,
     Range,
     RowNulls,
@@ -213,31 +217,29 @@ class Estimator:
         return any(texts <= positions.keys() for positions, _ in self.joint)
 
     def estimate(self, node: Node) -> Estimate:
-        if isinstance(node, Not):
-            inner = self.estimate(node.operand)
-            return Estimate(_clip(1.0 - inner.selectivity), inner.basis)
-        if isinstance(node, And):
-            parts = [self.estimate(p) for p in node.parts]
-            return Estimate(math.prod(p.selectivity for p in parts), _weakest(*(p.basis for p in parts)))
-        if isinstance(node, Or):
-            parts = [self.estimate(p) for p in node.parts]
-            keep = 1.0 - math.prod(1.0 - p.selectivity for p in parts)
-            return Estimate(keep, _weakest(*(p.basis for p in parts)))
+        return _ESTIMATE[node](self, node)
+
+    def _not(self, node: Not) -> Estimate:
+        inner = self.estimate(node.operand)
+        return Estimate(_clip(1.0 - inner.selectivity), inner.basis)
+
+    def _and(self, node: And) -> Estimate:
+        parts = [self.estimate(p) for p in node.parts]
+        return Estimate(math.prod(p.selectivity for p in parts), _weakest(*(p.basis for p in parts)))
+
+    def _or(self, node: Or) -> Estimate:
+        parts = [self.estimate(p) for p in node.parts]
+        keep = 1.0 - math.prod(1.0 - p.selectivity for p in parts)
+        return Estimate(keep, _weakest(*(p.basis for p in parts)))
+
+    def _null_test(self, node: NullTest) -> Estimate:
         stats = self._stats(node)
-        if isinstance(node, NullTest):
-            if stats is None:
-                return Estimate(1.0 - DEFAULT_EQ if node.negated else DEFAULT_EQ, Basis.DEFAULT)
-            return Estimate(1.0 - stats.null_share if node.negated else stats.null_share, Basis.EXACT)
-        if isinstance(node, Compare):
-            return self._compare(node, stats)
-        if isinstance(node, Member):
-            return self._member(node, stats)
-        if isinstance(node, Range):
-            return self._range(node, stats)
-        if isinstance(node, StrTest):
-            return self._string(node, stats)
-        if isinstance(node, RowNulls):
-            return self._row_nulls(node)
+        if stats is None:
+            return Estimate(1.0 - DEFAULT_EQ if node.negated else DEFAULT_EQ, Basis.DEFAULT)
+        return Estimate(1.0 - stats.null_share if node.negated else stats.null_share, Basis.EXACT)
+
+    def _not_a_test(self, node: Node) -> Estimate:
+        """A value or a part chainlint does not model where a test belongs: the default."""
         return Estimate(DEFAULT_INEQ, Basis.DEFAULT)
 
     def _row_nulls(self, node: RowNulls) -> Estimate:
@@ -334,3 +336,17 @@ def _string_test(node: StrTest):  # type: ignore[no-untyped-def]
         return None
     method = {"contains": compiled.search, "match": compiled.match, "fullmatch": compiled.fullmatch}[node.method]
     return lambda v: method(v) is not None
+
+
+_ESTIMATE: Cases[Callable[[Estimator, Any], Estimate]] = Cases("selectivity", {
+    Not: Estimator._not,
+    And: Estimator._and,
+    Or: Estimator._or,
+    NullTest: Estimator._null_test,
+    Compare: lambda estimator, node: estimator._compare(node, estimator._stats(node)),
+    Member: lambda estimator, node: estimator._member(node, estimator._stats(node)),
+    Range: lambda estimator, node: estimator._range(node, estimator._stats(node)),
+    StrTest: lambda estimator, node: estimator._string(node, estimator._stats(node)),
+    RowNulls: Estimator._row_nulls,
+    (Column, Literal, Named, Arith, Opaque): Estimator._not_a_test,
+})

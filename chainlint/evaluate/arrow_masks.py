@@ -8,6 +8,7 @@ The result is a boolean array without nulls. Only chainlint's IR is evaluated.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
@@ -19,16 +20,19 @@ from chainlint.evaluate.support import NotEvaluable, unevaluable
 from chainlint.ir import (
     And,
     Arith,
+    Cases,
     Column,
     Compare,
     Literal,
     Member,
+    Named,
     Node,
     Not,
     NullTest,
-    RowNulls,
+    Opaque,
     Or,
     Range,
+    RowNulls,
     StrTest,
 )
 
@@ -37,18 +41,26 @@ _ARITH = {"+": pc.add, "-": pc.subtract, "*": pc.multiply, "/": pc.divide, "**":
 
 
 def _value(batch: pa.RecordBatch, node: Node) -> Any:
-    if isinstance(node, Column):
-        array = batch.column(batch.schema.get_field_index(node.name))
-        if pa.types.is_dictionary(array.type):
-            array = array.cast(array.type.value_type)
-        return array
-    if isinstance(node, Literal):
-        return node.value
-    if isinstance(node, Arith) and node.op in _ARITH:
-        left, right = _value(batch, node.left), _value(batch, node.right)
-        if node.op == "/":
-            left = pc.cast(left, pa.float64()) if isinstance(left, pa.Array) else float(left)
-        return _ARITH[node.op](left, right)
+    return _VALUE[node](batch, node)
+
+
+def _column(batch: pa.RecordBatch, node: Column) -> Any:
+    array = batch.column(batch.schema.get_field_index(node.name))
+    if pa.types.is_dictionary(array.type):
+        array = array.cast(array.type.value_type)
+    return array
+
+
+def _arith(batch: pa.RecordBatch, node: Arith) -> Any:
+    if node.op not in _ARITH:
+        return _unevaluable(batch, node)
+    left, right = _value(batch, node.left), _value(batch, node.right)
+    if node.op == "/":
+        left = pc.cast(left, pa.float64()) if isinstance(left, pa.Array) else float(left)
+    return _ARITH[node.op](left, right)
+
+
+def _unevaluable(batch: pa.RecordBatch, node: Node) -> Any:
     raise NotEvaluable(unevaluable(node) or f"cannot evaluate {node.canonical()} with pyarrow")
 
 
@@ -88,48 +100,61 @@ def bit_mask(batch: pa.RecordBatch, node: Node) -> np.ndarray:
 
 def arrow_mask(batch: pa.RecordBatch, node: Node) -> pa.Array:
     """The rows of `batch` the predicate keeps, as a boolean array without nulls."""
-    if isinstance(node, (Compare, Member, Range, NullTest, StrTest)):
+    return _MASK[node](batch, node)
+
+
+def _column_test(case: Callable[[pa.RecordBatch, Any], pa.Array]) -> Callable[[pa.RecordBatch, Any], pa.Array]:
+    """A test of one column, answered through a dictionary column's values when it reads one."""
+    def test(batch: pa.RecordBatch, node: Node) -> pa.Array:
         dictionary = _dictionary_operand(batch, node)
-        if dictionary is not None:
-            return _through_dictionary(node, dictionary)
-    if isinstance(node, Compare):
-        result = _COMPARE[node.op](_value(batch, node.left), _value(batch, node.right))
-        return pc.fill_null(result, node.op == "!=")
-    if isinstance(node, Member):
-        values = [v.value for v in node.values if isinstance(v, Literal)]  # type: ignore[union-attr]
-        if len(values) != len(node.values):  # type: ignore[arg-type]
-            raise NotEvaluable(unevaluable(node) or "membership in names")
-        operand = _value(batch, node.operand)
-        found = pc.fill_null(pc.is_in(operand, value_set=pa.array(values, type=operand.type) if values else pa.array([], type=operand.type)), False)
-        return pc.invert(found) if node.negated else found
-    if isinstance(node, Range):
-        operand = _value(batch, node.operand)
-        low = (pc.greater_equal if node.inclusive in ("both", "left") else pc.greater)(operand, _value(batch, node.low))
-        high = (pc.less_equal if node.inclusive in ("both", "right") else pc.less)(operand, _value(batch, node.high))
-        return pc.fill_null(pc.and_(low, high), False)
-    if isinstance(node, NullTest):
-        missing = pc.is_null(_value(batch, node.operand), nan_is_null=True)
-        return pc.invert(missing) if node.negated else missing
-    if isinstance(node, StrTest):
-        return _string(batch, node)
-    if isinstance(node, RowNulls):
-        present = None
-        for column in batch.columns:
-            valid = pc.cast(pc.invert(pc.is_null(column, nan_is_null=True)), pa.int64())
-            present = valid if present is None else pc.add(present, valid)
-        if present is None:
-            raise NotEvaluable("a frame without columns")
-        need = node.thresh if node.thresh is not None else (batch.num_columns if node.how == "any" else 1)
-        return pc.greater_equal(present, need)
-    if isinstance(node, Not):
-        return pc.invert(arrow_mask(batch, node.operand))
-    if isinstance(node, (And, Or)):
-        combine = pc.and_ if isinstance(node, And) else pc.or_
+        return case(batch, node) if dictionary is None else _through_dictionary(node, dictionary)
+    return test
+
+
+def _compare(batch: pa.RecordBatch, node: Compare) -> pa.Array:
+    result = _COMPARE[node.op](_value(batch, node.left), _value(batch, node.right))
+    return pc.fill_null(result, node.op == "!=")
+
+
+def _member(batch: pa.RecordBatch, node: Member) -> pa.Array:
+    values = [v.value for v in node.values if isinstance(v, Literal)]  # type: ignore[union-attr]
+    if len(values) != len(node.values):  # type: ignore[arg-type]
+        raise NotEvaluable(unevaluable(node) or "membership in names")
+    operand = _value(batch, node.operand)
+    found = pc.fill_null(pc.is_in(operand, value_set=pa.array(values, type=operand.type) if values else pa.array([], type=operand.type)), False)
+    return pc.invert(found) if node.negated else found
+
+
+def _range(batch: pa.RecordBatch, node: Range) -> pa.Array:
+    operand = _value(batch, node.operand)
+    low = (pc.greater_equal if node.inclusive in ("both", "left") else pc.greater)(operand, _value(batch, node.low))
+    high = (pc.less_equal if node.inclusive in ("both", "right") else pc.less)(operand, _value(batch, node.high))
+    return pc.fill_null(pc.and_(low, high), False)
+
+
+def _null_test(batch: pa.RecordBatch, node: NullTest) -> pa.Array:
+    missing = pc.is_null(_value(batch, node.operand), nan_is_null=True)
+    return pc.invert(missing) if node.negated else missing
+
+
+def _row_nulls(batch: pa.RecordBatch, node: RowNulls) -> pa.Array:
+    present = None
+    for column in batch.columns:
+        valid = pc.cast(pc.invert(pc.is_null(column, nan_is_null=True)), pa.int64())
+        present = valid if present is None else pc.add(present, valid)
+    if present is None:
+        raise NotEvaluable("a frame without columns")
+    need = node.thresh if node.thresh is not None else (batch.num_columns if node.how == "any" else 1)
+    return pc.greater_equal(present, need)
+
+
+def _combined(combine: Callable[[Any, Any], Any]) -> Callable[[pa.RecordBatch, Any], pa.Array]:
+    def case(batch: pa.RecordBatch, node: And | Or) -> pa.Array:
         result = arrow_mask(batch, node.parts[0])
         for part in node.parts[1:]:
             result = combine(result, arrow_mask(batch, part))
         return result
-    raise NotEvaluable(unevaluable(node) or f"cannot evaluate {node.canonical()} with pyarrow")
+    return case
 
 
 def _string(batch: pa.RecordBatch, node: StrTest) -> pa.Array:
@@ -153,3 +178,24 @@ def _string(batch: pa.RecordBatch, node: StrTest) -> pa.Array:
             raise NotEvaluable(f"pyarrow's regular expressions do not take `{pattern}` ({error})") from None
     na = options.get("na")
     return pc.fill_null(result, bool(na) if isinstance(na, bool) else False)
+
+
+_VALUE: Cases[Callable[[pa.RecordBatch, Any], Any]] = Cases("pyarrow value", {
+    Column: _column,
+    Literal: lambda batch, node: node.value,
+    Arith: _arith,
+    (Named, Opaque, Compare, Member, Range, NullTest, StrTest, RowNulls, Not, And, Or): _unevaluable,
+})
+
+_MASK: Cases[Callable[[pa.RecordBatch, Any], pa.Array]] = Cases("pyarrow mask", {
+    Compare: _column_test(_compare),
+    Member: _column_test(_member),
+    Range: _column_test(_range),
+    NullTest: _column_test(_null_test),
+    StrTest: _column_test(_string),
+    RowNulls: _row_nulls,
+    Not: lambda batch, node: pc.invert(arrow_mask(batch, node.operand)),
+    And: _combined(pc.and_),
+    Or: _combined(pc.or_),
+    (Column, Literal, Named, Arith, Opaque): _unevaluable,
+})

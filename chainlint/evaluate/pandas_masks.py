@@ -8,6 +8,7 @@ user's code runs. A predicate with a part chainlint does not model cannot be eva
 from __future__ import annotations
 
 import operator
+from collections.abc import Callable
 from typing import Any
 
 import pandas as pd
@@ -16,16 +17,19 @@ from chainlint.evaluate.support import NotEvaluable, unevaluable
 from chainlint.ir import (
     And,
     Arith,
+    Cases,
     Column,
     Compare,
     Literal,
     Member,
+    Named,
     Node,
     Not,
     NullTest,
-    RowNulls,
+    Opaque,
     Or,
     Range,
+    RowNulls,
     StrTest,
 )
 
@@ -36,43 +40,59 @@ _ARITH = {"+": operator.add, "-": operator.sub, "*": operator.mul, "/": operator
 
 def mask(frame: pd.DataFrame, node: Node) -> Any:
     """The boolean mask (a Series aligned with `frame`) of `node`."""
-    if isinstance(node, Column):
-        return frame[node.name]
-    if isinstance(node, Literal):
-        return node.value
-    if isinstance(node, Arith):
-        return _ARITH[node.op](mask(frame, node.left), mask(frame, node.right))
-    if isinstance(node, Compare):
-        return _COMPARE[node.op](mask(frame, node.left), mask(frame, node.right))
-    if isinstance(node, Member):
-        values = [mask(frame, v) for v in node.values]  # type: ignore[union-attr]
-        test = mask(frame, node.operand).isin(values)
-        return ~test if node.negated else test
-    if isinstance(node, Range):
-        return mask(frame, node.operand).between(mask(frame, node.low), mask(frame, node.high), inclusive=node.inclusive)
-    if isinstance(node, NullTest):
-        column = mask(frame, node.operand)
-        return column.notna() if node.negated else column.isna()
-    if isinstance(node, RowNulls):
-        present = frame.notna().sum(axis=1)
-        need = node.thresh if node.thresh is not None else (frame.shape[1] if node.how == "any" else 1)
-        return present >= need
-    if isinstance(node, StrTest):
-        options = {key: mask(frame, value) for key, value in node.options}
-        return getattr(mask(frame, node.operand).str, node.method)(mask(frame, node.pattern), **options)
-    if isinstance(node, Not):
-        return ~mask(frame, node.operand)
-    if isinstance(node, And):
+    return _MASK[node](frame, node)
+
+
+def _member(frame: pd.DataFrame, node: Member) -> Any:
+    values = [mask(frame, v) for v in node.values]  # type: ignore[union-attr]
+    test = mask(frame, node.operand).isin(values)
+    return ~test if node.negated else test
+
+
+def _null_test(frame: pd.DataFrame, node: NullTest) -> Any:
+    column = mask(frame, node.operand)
+    return column.notna() if node.negated else column.isna()
+
+
+def _row_nulls(frame: pd.DataFrame, node: RowNulls) -> Any:
+    present = frame.notna().sum(axis=1)
+    need = node.thresh if node.thresh is not None else (frame.shape[1] if node.how == "any" else 1)
+    return present >= need
+
+
+def _str_test(frame: pd.DataFrame, node: StrTest) -> Any:
+    options = {key: mask(frame, value) for key, value in node.options}
+    return getattr(mask(frame, node.operand).str, node.method)(mask(frame, node.pattern), **options)
+
+
+def _combined(combine: Callable[[Any, Any], Any]) -> Callable[[pd.DataFrame, Any], Any]:
+    def case(frame: pd.DataFrame, node: And | Or) -> Any:
         result = mask(frame, node.parts[0])
         for part in node.parts[1:]:
-            result = result & mask(frame, part)
+            result = combine(result, mask(frame, part))
         return result
-    if isinstance(node, Or):
-        result = mask(frame, node.parts[0])
-        for part in node.parts[1:]:
-            result = result | mask(frame, part)
-        return result
+    return case
+
+
+def _unevaluable(frame: pd.DataFrame, node: Node) -> Any:
     raise NotEvaluable(unevaluable(node) or f"cannot evaluate {node.canonical()}")
+
+
+_MASK: Cases[Callable[[pd.DataFrame, Any], Any]] = Cases("pandas mask", {
+    Column: lambda frame, node: frame[node.name],
+    Literal: lambda frame, node: node.value,
+    Arith: lambda frame, node: _ARITH[node.op](mask(frame, node.left), mask(frame, node.right)),
+    Compare: lambda frame, node: _COMPARE[node.op](mask(frame, node.left), mask(frame, node.right)),
+    Member: _member,
+    Range: lambda frame, node: mask(frame, node.operand).between(mask(frame, node.low), mask(frame, node.high), inclusive=node.inclusive),
+    NullTest: _null_test,
+    RowNulls: _row_nulls,
+    StrTest: _str_test,
+    Not: lambda frame, node: ~mask(frame, node.operand),
+    And: _combined(operator.and_),
+    Or: _combined(operator.or_),
+    (Named, Opaque): _unevaluable,
+})
 
 
 def apply_step(frame: pd.DataFrame, node: Node) -> pd.DataFrame:

@@ -13,11 +13,14 @@ from __future__ import annotations
 
 import ast
 from collections.abc import Callable
+from typing import Any
 
 from chainlint.find.bindings import SCALAR, VALUE, VALUES, Resolved, fold
 from chainlint.ir import (
     And,
     Arith,
+    Cases,
+    Column,
     Compare,
     Literal,
     Member,
@@ -25,8 +28,10 @@ from chainlint.ir import (
     Node,
     Not,
     NullTest,
+    Opaque,
     Or,
     Range,
+    RowNulls,
     StrTest,
 )
 from chainlint.model import Barrier, BarrierKind
@@ -51,28 +56,30 @@ class _Settler:
 
     def single(self, node: Node) -> Node:
         """A value that must be one value: resolved, kept as a proven name, or a barrier."""
-        if isinstance(node, Named):
-            if self.assigned_here(node):
-                return node
-            found = self.resolve(node.name)
-            if found.kind == VALUE:
-                return Literal(found.value)  # type: ignore[arg-type]
-            if found.kind == SCALAR:
-                return node
-            if found.kind == VALUES:
-                reason = f"`{node.name}` holds several values, which pandas compares position by position"
-            else:
-                reason = f"`{node.name}` may be a Series or an array ({found.reason}); moved, it would meet other rows"
-            self.barriers.append(Barrier(BarrierKind.FOREIGN, reason))
+        return _VALUE[node](self, node)
+
+    def named(self, node: Named) -> Node:
+        if self.assigned_here(node):
             return node
-        if isinstance(node, Arith):
-            left, right = self.single(node.left), self.single(node.right)
-            if isinstance(left, Literal) and isinstance(right, Literal):
-                folded = fold(_OPS[node.op], left.value, right.value)
-                if folded is not None:
-                    return Literal(folded)  # type: ignore[arg-type]
-            return Arith(node.op, left, right)
-        return self.mask(node)
+        found = self.resolve(node.name)
+        if found.kind == VALUE:
+            return Literal(found.value)  # type: ignore[arg-type]
+        if found.kind == SCALAR:
+            return node
+        if found.kind == VALUES:
+            reason = f"`{node.name}` holds several values, which pandas compares position by position"
+        else:
+            reason = f"`{node.name}` may be a Series or an array ({found.reason}); moved, it would meet other rows"
+        self.barriers.append(Barrier(BarrierKind.FOREIGN, reason))
+        return node
+
+    def arith(self, node: Arith) -> Node:
+        left, right = self.single(node.left), self.single(node.right)
+        if isinstance(left, Literal) and isinstance(right, Literal):
+            folded = fold(_OPS[node.op], left.value, right.value)
+            if folded is not None:
+                return Literal(folded)  # type: ignore[arg-type]
+        return Arith(node.op, left, right)
 
     def values(self, values: tuple[Node, ...] | Named) -> tuple[Node, ...] | Named:
         if not isinstance(values, Named):
@@ -85,22 +92,35 @@ class _Settler:
         return values
 
     def mask(self, node: Node) -> Node:
-        if isinstance(node, Compare):
-            return Compare(node.op, self.single(node.left), self.single(node.right))
-        if isinstance(node, Member):
-            return Member(self.single(node.operand), self.values(node.values), node.negated)
-        if isinstance(node, Range):
-            return Range(self.single(node.operand), self.single(node.low), self.single(node.high), node.inclusive)
-        if isinstance(node, NullTest):
-            return NullTest(self.single(node.operand), node.negated)
-        if isinstance(node, StrTest):
-            options = tuple((key, self.single(value)) for key, value in node.options)
-            return StrTest(self.single(node.operand), node.method, self.single(node.pattern), options)
-        if isinstance(node, Not):
-            return Not(self.mask(node.operand))
-        if isinstance(node, (And, Or)):
-            return type(node)(tuple(self.mask(p) for p in node.parts))
-        return node
+        return _MASK[node](self, node)
+
+    def str_test(self, node: StrTest) -> Node:
+        options = tuple((key, self.single(value)) for key, value in node.options)
+        return StrTest(self.single(node.operand), node.method, self.single(node.pattern), options)
+
+
+def _unchanged(settler: _Settler, node: Node) -> Node:
+    return node
+
+
+#: A node where one value is expected (an operand): names resolved, arithmetic folded.
+_VALUE: Cases[Callable[[_Settler, Any], Node]] = Cases("settle a value", {
+    Named: _Settler.named,
+    Arith: _Settler.arith,
+    (Column, Literal, Opaque, Compare, Member, Range, NullTest, StrTest, RowNulls, Not, And, Or): _Settler.mask,
+})
+
+#: A node where a mask is expected: its operands settled, its parts in turn.
+_MASK: Cases[Callable[[_Settler, Any], Node]] = Cases("settle a mask", {
+    Compare: lambda settler, node: Compare(node.op, settler.single(node.left), settler.single(node.right)),
+    Member: lambda settler, node: Member(settler.single(node.operand), settler.values(node.values), node.negated),
+    Range: lambda settler, node: Range(settler.single(node.operand), settler.single(node.low), settler.single(node.high), node.inclusive),
+    NullTest: lambda settler, node: NullTest(settler.single(node.operand), node.negated),
+    StrTest: _Settler.str_test,
+    Not: lambda settler, node: Not(settler.mask(node.operand)),
+    (And, Or): lambda settler, node: type(node)(tuple(settler.mask(p) for p in node.parts)),
+    (Column, Literal, Named, Arith, Opaque, RowNulls): _unchanged,
+})
 
 
 def settle(node: Node, resolve: Resolver, assigned: frozenset[str]) -> tuple[Node, list[Barrier]]:

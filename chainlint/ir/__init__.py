@@ -2,9 +2,11 @@
 
 from chainlint.ir.build import make_and, make_compare, make_or
 from chainlint.ir.nodes import (
+    NODE_TYPES,
     PREDICATE_TYPES,
     And,
     Arith,
+    Cases,
     Column,
     Compare,
     Literal,
@@ -18,13 +20,16 @@ from chainlint.ir.nodes import (
     Range,
     RowNulls,
     StrTest,
+    UnhandledNode,
 )
 from chainlint.ir.text import PredicateSyntaxError, parse_predicate
 
 __all__ = [
+    "NODE_TYPES",
     "PREDICATE_TYPES",
     "And",
     "Arith",
+    "Cases",
     "Column",
     "Compare",
     "Literal",
@@ -39,6 +44,7 @@ __all__ = [
     "Range",
     "RowNulls",
     "StrTest",
+    "UnhandledNode",
     "make_and",
     "make_compare",
     "make_or",

@@ -10,8 +10,9 @@ from __future__ import annotations
 
 import keyword
 import math
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
-from typing import Union
+from typing import Any, Generic, TypeVar, Union
 
 LiteralValue = Union[str, int, float, bool, None]
 
@@ -43,7 +44,7 @@ class Node:
 
     def children(self) -> tuple[Node, ...]:
         """The nodes directly below this one (values, operands, parts, options)."""
-        return _children(self)
+        return _CHILDREN[self](self)
 
     def canonical(self) -> str:
         return _print(self)
@@ -170,22 +171,6 @@ def _same_value(a: LiteralValue, b: LiteralValue) -> bool:
     return a == b
 
 
-def _children(node: Node) -> tuple[Node, ...]:
-    if isinstance(node, (Arith, Compare)):
-        return (node.left, node.right)
-    if isinstance(node, Member):
-        return (node.operand, *node.values) if isinstance(node.values, tuple) else (node.operand, node.values)
-    if isinstance(node, Range):
-        return (node.operand, node.low, node.high)
-    if isinstance(node, (NullTest, Not)):
-        return (node.operand,)
-    if isinstance(node, StrTest):
-        return (node.operand, node.pattern, *(value for _, value in node.options))
-    if isinstance(node, (And, Or)):
-        return node.parts
-    return ()
-
-
 def is_plain_name(name: str) -> bool:
     """Whether a column name prints bare (else it is quoted in backticks)."""
     return name.isidentifier() and not keyword.iskeyword(name) and name not in RESERVED
@@ -220,49 +205,110 @@ def _bool_part(node: Node, parent: type) -> str:
     return text
 
 
+def _member(node: Member) -> str:
+    word = "not in" if node.negated else "in"
+    if isinstance(node.values, Named):
+        values = _print(node.values)
+    elif len(node.values) == 1:
+        values = f"({_print(node.values[0])},)"
+    else:
+        values = "(" + ", ".join(_print(v) for v in node.values) + ")"
+    return f"{_operand(node.operand)} {word} {values}"
+
+
+def _range(node: Range) -> str:
+    text = f"{_operand(node.operand)} between {_operand(node.low)} and {_operand(node.high)}"
+    if node.inclusive != "both":
+        text += f" inclusive {node.inclusive!r}"
+    return text
+
+
+def _str_test(node: StrTest) -> str:
+    args = [_print(node.pattern)] + [f"{key}={_print(value)}" for key, value in node.options]
+    return f"{_operand(node.operand)}.str.{node.method}({', '.join(args)})"
+
+
+def _row_nulls(node: RowNulls) -> str:
+    if node.thresh is not None:
+        return f"notnull(*, thresh={node.thresh})"
+    return "notnull(*)" if node.how == "any" else "notnull(*, how='all')"
+
+
+def _not(node: Not) -> str:
+    inner = _print(node.operand)
+    return f"not ({inner})" if isinstance(node.operand, (And, Or)) else f"not {inner}"
+
+
 def _print(node: Node) -> str:
-    if isinstance(node, Column):
-        return format_column(node.name)
-    if isinstance(node, Literal):
-        return format_literal(node.value)
-    if isinstance(node, Named):
-        return "@" + node.name
-    if isinstance(node, Opaque):
-        return f"opaque({node.text!r})"
-    if isinstance(node, Arith):
-        return f"{_operand(node.left)} {node.op} {_operand(node.right)}"
-    if isinstance(node, Compare):
-        return f"{_operand(node.left)} {node.op} {_operand(node.right)}"
-    if isinstance(node, Member):
-        word = "not in" if node.negated else "in"
-        if isinstance(node.values, Named):
-            values = _print(node.values)
-        elif len(node.values) == 1:
-            values = f"({_print(node.values[0])},)"
-        else:
-            values = "(" + ", ".join(_print(v) for v in node.values) + ")"
-        return f"{_operand(node.operand)} {word} {values}"
-    if isinstance(node, Range):
-        text = f"{_operand(node.operand)} between {_operand(node.low)} and {_operand(node.high)}"
-        if node.inclusive != "both":
-            text += f" inclusive {node.inclusive!r}"
-        return text
-    if isinstance(node, NullTest):
-        return f"{_operand(node.operand)} is {'not ' if node.negated else ''}null"
-    if isinstance(node, StrTest):
-        args = [_print(node.pattern)] + [f"{key}={_print(value)}" for key, value in node.options]
-        return f"{_operand(node.operand)}.str.{node.method}({', '.join(args)})"
-    if isinstance(node, RowNulls):
-        if node.thresh is not None:
-            return f"notnull(*, thresh={node.thresh})"
-        return "notnull(*)" if node.how == "any" else "notnull(*, how='all')"
-    if isinstance(node, Not):
-        inner = _print(node.operand)
-        if isinstance(node.operand, (And, Or)):
-            inner = f"({inner})"
-        return f"not {inner}"
-    if isinstance(node, And):
-        return " and ".join(_bool_part(part, And) for part in node.parts)
-    if isinstance(node, Or):
-        return " or ".join(_bool_part(part, Or) for part in node.parts)
-    raise TypeError(f"not an IR node: {node!r}")
+    return _PRINT[node](node)
+
+
+#: Every node class; a `Cases` table must name each of them (or say which it is limited to).
+NODE_TYPES: tuple[type[Node], ...] = (Column, Literal, Named, Arith, Compare, Member, Range, NullTest, StrTest, RowNulls, Not, And,
+                                      Or, Opaque)
+
+F = TypeVar("F", bound=Callable[..., Any])
+
+
+class UnhandledNode(TypeError):
+    """A node class a function over the IR has no case for: a new node type was added without
+    saying what each function does with it."""
+
+
+class Cases(Generic[F]):
+    """One function over IR nodes written as a case per node class: `cases[node]` is the case
+    for the node's class. The table must name every class of `NODE_TYPES` (or of `over`, for a
+    function defined on part of the IR): a missing case fails where the table is built, never
+    with a silent default; a node of another class fails where it is looked up."""
+
+    def __init__(self, name: str, table: Mapping[type[Node] | tuple[type[Node], ...], F],
+                 over: tuple[type[Node], ...] = NODE_TYPES) -> None:
+        self.name = name
+        self.table: dict[type[Node], F] = {}
+        for key, case in table.items():
+            for cls in key if isinstance(key, tuple) else (key,):
+                self.table[cls] = case
+        missing = [cls.__name__ for cls in over if cls not in self.table]
+        if missing:
+            raise UnhandledNode(f"{name}: no case for {', '.join(missing)}")
+
+    def __getitem__(self, node: Node) -> F:
+        try:
+            return self.table[type(node)]
+        except KeyError:
+            raise UnhandledNode(f"{self.name}: no case for {type(node).__name__}") from None
+
+
+def _no_children(node: Node) -> tuple[Node, ...]:
+    return ()
+
+
+def _member_children(node: Member) -> tuple[Node, ...]:
+    return (node.operand, *node.values) if isinstance(node.values, tuple) else (node.operand, node.values)
+
+
+_CHILDREN: Cases[Callable[[Any], tuple[Node, ...]]] = Cases("children", {
+    (Column, Literal, Named, Opaque, RowNulls): _no_children,
+    (Arith, Compare): lambda node: (node.left, node.right),
+    Member: _member_children,
+    Range: lambda node: (node.operand, node.low, node.high),
+    (NullTest, Not): lambda node: (node.operand,),
+    StrTest: lambda node: (node.operand, node.pattern, *(value for _, value in node.options)),
+    (And, Or): lambda node: node.parts,
+})
+
+_PRINT: Cases[Callable[[Any], str]] = Cases("canonical text", {
+    Column: lambda node: format_column(node.name),
+    Literal: lambda node: format_literal(node.value),
+    Named: lambda node: "@" + node.name,
+    Opaque: lambda node: f"opaque({node.text!r})",
+    (Arith, Compare): lambda node: f"{_operand(node.left)} {node.op} {_operand(node.right)}",
+    Member: _member,
+    Range: _range,
+    NullTest: lambda node: f"{_operand(node.operand)} is {'not ' if node.negated else ''}null",
+    StrTest: _str_test,
+    RowNulls: _row_nulls,
+    Not: _not,
+    And: lambda node: " and ".join(_bool_part(part, And) for part in node.parts),
+    Or: lambda node: " or ".join(_bool_part(part, Or) for part in node.parts),
+})

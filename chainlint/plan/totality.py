@@ -17,12 +17,14 @@ Unknown means not total: every dtype or form not listed here is judged by its wo
 from __future__ import annotations
 
 import re
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
+from typing import Any
 
 from chainlint.ir import (
     And,
     Arith,
+    Cases,
     Column,
     Compare,
     Literal,
@@ -31,8 +33,10 @@ from chainlint.ir import (
     Node,
     Not,
     NullTest,
+    Opaque,
     Or,
     Range,
+    RowNulls,
     StrTest,
 )
 
@@ -114,54 +118,37 @@ class _Judge:
 
     # -- masks -----------------------------------------------------------------------------
     def mask(self, node: Node) -> None:
-        if isinstance(node, (And, Or)):
-            for part in node.parts:
-                self.mask(part)
-        elif isinstance(node, Not):
-            self.mask(node.operand)
-        elif isinstance(node, Compare):
-            self.compare(node.op, node.left, node.right)
-        elif isinstance(node, Range):
-            self.compare(">=", node.operand, node.low)
-            self.compare("<=", node.operand, node.high)
-        elif isinstance(node, Member):
-            self.member(node)
-        elif isinstance(node, NullTest):
-            self.value(node.operand)  # isna never raises; only the operand's own arithmetic may
-        elif isinstance(node, StrTest):
-            self.string_test(node)
-        elif isinstance(node, Column):
-            if self.value(node) != _BOOL:
-                self.note(LATER, f"`{node.name}` as a mask must hold booleans only")
-        else:
-            self.note(STAYS, f"`{node.canonical()}` is not modelled")
+        _MASK[node](self, node)
+
+    def parts(self, node: And | Or) -> None:
+        for part in node.parts:
+            self.mask(part)
+
+    def range(self, node: Range) -> None:
+        self.compare(">=", node.operand, node.low)
+        self.compare("<=", node.operand, node.high)
+
+    def column_mask(self, node: Column) -> None:
+        if self.value(node) != _BOOL:
+            self.note(LATER, f"`{node.name}` as a mask must hold booleans only")
+
+    def not_modelled(self, node: Node) -> str:
+        self.note(STAYS, f"`{node.canonical()}` is not modelled")
+        return _OTHER
 
     # -- values ----------------------------------------------------------------------------
     def value(self, node: Node) -> str:
         """The kind of an operand (a column, a literal, a name or arithmetic)."""
-        if isinstance(node, Column):
-            kind = column_kind(self.dtypes.get(node.name))
-            if kind is None:
-                self.note(STAYS, f"reads `{node.name}`, which profile `{self.profile}` does not hold as a plain column", prefixed=False)
-                return _OTHER
-            if kind == _SIZED:
-                self.note(STAYS, f"`{node.name}` is {self.dtypes[node.name]}, which pandas computes with numexpr on large frames and numpy on small ones")
-            return kind
-        if isinstance(node, Literal):
-            value = node.value
-            if isinstance(value, bool):
-                return "literal bool"
-            if isinstance(value, (int, float)):
-                return "literal number"
-            if isinstance(value, str):
-                return "literal str"
-            return "literal none"
-        if isinstance(node, Named):
-            return "named"
-        if isinstance(node, Arith):
-            return self.arith(node)
-        self.note(STAYS, f"`{node.canonical()}` is not modelled")
-        return _OTHER
+        return _VALUE[node](self, node)
+
+    def column(self, node: Column) -> str:
+        kind = column_kind(self.dtypes.get(node.name))
+        if kind is None:
+            self.note(STAYS, f"reads `{node.name}`, which profile `{self.profile}` does not hold as a plain column", prefixed=False)
+            return _OTHER
+        if kind == _SIZED:
+            self.note(STAYS, f"`{node.name}` is {self.dtypes[node.name]}, which pandas computes with numexpr on large frames and numpy on small ones")
+        return kind
 
     def arith(self, node: Arith) -> str:
         left, right = self.value(node.left), self.value(node.right)
@@ -263,3 +250,35 @@ class _Judge:
             return
         if _REGEX_UNSAFE.search(node.pattern.value):
             self.note(LATER, f"`{text}` uses regular-expression syntax that pyarrow's engine may refuse")
+
+
+def _literal_kind(node: Literal) -> str:
+    value = node.value
+    if isinstance(value, bool):
+        return "literal bool"
+    if isinstance(value, (int, float)):
+        return "literal number"
+    if isinstance(value, str):
+        return "literal str"
+    return "literal none"
+
+
+_MASK: Cases[Callable[[_Judge, Any], object]] = Cases("totality of a mask", {
+    (And, Or): _Judge.parts,
+    Not: lambda judge, node: judge.mask(node.operand),
+    Compare: lambda judge, node: judge.compare(node.op, node.left, node.right),
+    Range: _Judge.range,
+    Member: _Judge.member,
+    NullTest: lambda judge, node: judge.value(node.operand),  # isna never raises; only the operand's own arithmetic may
+    StrTest: _Judge.string_test,
+    Column: _Judge.column_mask,
+    (Literal, Named, Arith, Opaque, RowNulls): _Judge.not_modelled,
+})
+
+_VALUE: Cases[Callable[[_Judge, Any], str]] = Cases("kind of an operand", {
+    Column: _Judge.column,
+    Literal: lambda judge, node: _literal_kind(node),
+    Named: lambda judge, node: "named",
+    Arith: _Judge.arith,
+    (Opaque, Compare, Member, Range, NullTest, StrTest, RowNulls, Not, And, Or): _Judge.not_modelled,
+})

@@ -9,7 +9,6 @@ meanwhile, or any check fails, nothing is written and the reason is given.
 
 from __future__ import annotations
 
-import os
 from collections import defaultdict
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
