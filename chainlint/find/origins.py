@@ -38,11 +38,18 @@ def profile_comment(line: str) -> str | None:
 
 def near(lines: tuple[str, ...], line: int, read: Callable[[str], T | None]) -> T | None:
     """What `read` finds in a comment on line `line` (1-based) or, failing that, the line above."""
+    found = directive_near(lines, line, read)
+    return None if found is None else found[1]
+
+
+def directive_near(lines: tuple[str, ...], line: int, read: Callable[[str], T | None]) -> tuple[int, T] | None:
+    """The one walk over a chain's line and the line above it for a `# chainlint:` directive:
+    the number of the line where `read` finds one, and what it says."""
     for number in (line, line - 1):
         if 0 < number <= len(lines):
             found = read(lines[number - 1])
             if found is not None:
-                return found
+                return number, found
     return None
 
 

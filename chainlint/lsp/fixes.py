@@ -19,7 +19,7 @@ from typing import Any
 
 from chainlint.analysis.check import PlannedChain
 from chainlint.analysis.document import DocumentAnalysis
-from chainlint.find.origins import KEEP_COMMENT, keep_comment
+from chainlint.find.origins import KEEP_COMMENT, directive_near, keep_comment
 from chainlint.model import Chain, Edit, Finding, Span
 from chainlint.parse.source import SourceText
 from chainlint.rewrite.fixes import fix_in_text
@@ -161,13 +161,12 @@ def _value(text: str) -> Any:
 def _keep_fix(analysis: DocumentAnalysis, chain: Chain, rule: str) -> Fix | None:
     source = analysis.source
     line = chain.span.line
-    for number in (line, line - 1):  # a keep comment the finder already reads: add the rule
-        text = source.lines[number - 1] if number >= 1 else ""
-        match = KEEP_COMMENT.search(text)
-        if match is not None and keep_comment(text):
-            at = _offset(source, number, 1) + match.start(1) + len(match.group(1).rstrip())
-            edit = _edit(source, at, at, " " + rule)
-            break
+    # A keep comment the finder already reads that names rules: add this one to them.
+    named = directive_near(source.lines, line, lambda text: KEEP_COMMENT.search(text) if keep_comment(text) else None)
+    if named is not None:
+        number, match = named
+        at = _offset(source, number, 1) + match.start(1) + len(match.group(1).rstrip())
+        edit = _edit(source, at, at, " " + rule)
     else:
         first = source.lines[line - 1]
         indent = first[: len(first) - len(first.lstrip(" \t"))]
