@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 from enum import Enum
 from typing import TYPE_CHECKING
@@ -164,15 +165,19 @@ class Chain:
 
     def segments(self) -> tuple[tuple[int, ...], ...]:
         """Indices of the movable steps, grouped into the runs between barriers."""
-        groups: list[tuple[int, ...]] = []
-        current: list[int] = []
-        for index, step in enumerate(self.steps):
-            if step.movable:
-                current.append(index)
-            else:
-                if current:
-                    groups.append(tuple(current))
-                current = []
-        if current:
-            groups.append(tuple(current))
-        return tuple(groups)
+        steps = self.steps
+        runs = consecutive_runs(len(steps), lambda before, index: steps[before].movable and steps[index].movable)
+        return tuple(tuple(run) for run in runs if steps[run[0]].movable)
+
+
+def consecutive_runs(count: int, joins: Callable[[int, int], bool]) -> list[list[int]]:
+    """The indices `0..count-1` cut into runs of neighbours: `joins(before, index)` says whether
+    `index` continues the run that `before`, the index just before it, is in. The one walk over
+    a chain's runs of steps (movable between barriers, planned together, fused)."""
+    runs: list[list[int]] = []
+    for index in range(count):
+        if runs and joins(index - 1, index):
+            runs[-1].append(index)
+        else:
+            runs.append([index])
+    return runs

@@ -20,7 +20,7 @@ from chainlint.estimate.cost import (
     step_cost,
 )
 from chainlint.estimate.selectivity import Basis, Estimate, Estimator
-from chainlint.model import Chain
+from chainlint.model import Chain, consecutive_runs
 from chainlint.plan.planner import EXACT_LIMIT, plan_segment
 from chainlint.plan.totality import ANY, LATER, STAYS, Limit, judge
 
@@ -137,13 +137,7 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
 
 def plan_segments(limits: tuple[Limit | None, ...]) -> list[list[int]]:
     """The chain's steps in runs planned together: a step that may not move is a run alone."""
-    runs: list[list[int]] = []
-    for step, limit in enumerate(limits):
-        if limit is None or limit.moves == STAYS or not runs or not _moves(limits[runs[-1][-1]]):
-            runs.append([step])
-        else:
-            runs[-1].append(step)
-    return runs
+    return consecutive_runs(len(limits), lambda before, step: _moves(limits[step]) and _moves(limits[before]))
 
 
 def precedence(segment: list[int], limits: tuple[Limit | None, ...]) -> dict[int, int]:
@@ -200,12 +194,8 @@ def _fused_seconds(limits: tuple[Limit | None, ...], estimates: list[Estimate], 
     fused mask evaluates every part on all the rows it receives)."""
     total = 0.0
     rows_in = float(rows)
-    runs: list[list[int]] = []
-    for step, limit in enumerate(limits):
-        if runs and limit is not None and limit.moves == ANY and _moves(limits[runs[-1][-1]]):
-            runs[-1].append(step)
-        else:
-            runs.append([step])
+    runs = consecutive_runs(len(limits), lambda before, step: limits[step] is not None and limits[step].moves == ANY  # type: ignore[union-attr]
+                            and _moves(limits[before]))
     for segment in runs:
         kept = math.prod(estimates[i].selectivity for i in segment)
         predicate = sum(predicates[i] for i in segment) + model.combine * (len(segment) - 1)
