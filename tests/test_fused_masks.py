@@ -18,7 +18,7 @@ from test_check import project  # noqa: F401  (the flights project: data and its
 from chainlint.analysis.run import analyse_source
 from chainlint.cli import main
 from chainlint.evaluate.pandas_masks import apply_step
-from chainlint.model import ChainForm
+from chainlint.model import ChainForm, StepKind
 from chainlint.parse.source import decode_source
 
 MASKS = '''import pandas as pd
@@ -68,9 +68,9 @@ def _split(chain, order) -> str:
     steps = [chain.steps[i] for i in order]
     kind = steps[0].kind
     texts = [_text(MASKS, step.conjunct) for step in steps]
-    if kind == "query":
+    if kind is StepKind.QUERY:
         return chain.frame + "".join(f".query({text!r})" for text in texts)
-    if kind == "loc_lambda":
+    if kind is StepKind.LOC_LAMBDA:
         return chain.frame + "".join(f".loc[lambda d: {text}]" for text in texts)
     return chain.frame + "".join(f"[{text}]" for text in texts)
 

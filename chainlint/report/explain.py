@@ -70,7 +70,7 @@ def planned_record(item: PlannedChain) -> dict[str, Any]:
         for step in record["steps"]:
             step.update(moves=None, limit=None, selectivity=None, basis=None, rows_in=None, rows_out=None, seconds=None)
         return record
-    record["binding"] = {"profile": item.binding.profile, "how": item.binding.how}
+    record["binding"] = {"profile": item.binding.profile, "how": item.binding.how.value if item.binding.how else None}
     record.update(
         order=list(plan.order),
         speedup=round(plan.speedup, 4),
@@ -84,7 +84,7 @@ def planned_record(item: PlannedChain) -> dict[str, Any]:
             moves=limit.moves if limit else "stays",
             limit=limit.reason if limit else step["reason"],
             selectivity=round(estimate.selectivity, 6),
-            basis=estimate.basis,
+            basis=estimate.basis.value,
             rows_in=round(estimate.rows_in),
             rows_out=round(estimate.rows_out),
             seconds=round(estimate.seconds, 6),
@@ -108,7 +108,7 @@ def _plan_text(item: PlannedChain) -> str:
     plan = item.plan
     if plan is None:
         return f"  no plan: {printable(item.binding.reason)}\n"
-    lines = [f"  profile `{plan.binding.profile}` (by {plan.binding.how}), {plan.rows:,} rows"]
+    lines = [f"  profile `{plan.binding.profile}` (by {plan.binding.how.value if plan.binding.how else None}), {plan.rows:,} rows"]
     lines += _order_table("written", plan, plan.written)
     lines += _order_table("planned", plan, plan.planned)
     lines.append(
@@ -137,7 +137,7 @@ def _order_table(title: str, plan: ChainPlan, estimates) -> list[str]:  # type: 
             f"{estimate.rows_in:,.0f}",
             f"{estimate.rows_out:,.0f}",
             f"{estimate.selectivity:.2%}",
-            estimate.basis,
+            estimate.basis.value,
             duration(estimate.seconds),
         ))
     widths = [max(len(r[i]) for r in rows) for i in range(6)]
