@@ -32,6 +32,7 @@ from chainlint.profile.build import profile_dataset
 from chainlint.profile.format import ProfileError, dumps
 from chainlint.profile.joint import JointCounter
 from chainlint.profile.merge import merge_profiles
+from chainlint.profile.pieces import Plan, plan_pieces
 from chainlint.profile.read_options import CsvOptions, command_flags
 from chainlint.profile.errors import DataError
 from chainlint.profile.files import fingerprint_state
@@ -312,9 +313,12 @@ def _fail(message: str) -> NoReturn:
 @click.option("--for", "sources", multiple=True, type=click.Path(), metavar="SRC",
               help="Count how the predicates of the chains in SRC (bound to NAME) combine on the data (default: the whole project); repeatable.")
 @click.option("--no-joint", is_flag=True, help="Count no joint statistics: column statistics only.")
+@click.option("--dask", metavar="ADDRESS", help="Count on a Dask cluster: a scheduler address (tcp://host:8786), "
+              "or local[:N] for N worker processes here (needs chainlint[dask]).")
 @csv_options
 def profile(data: Sequence[str], name: str, store: str | None, min_count: int, redact: Sequence[str],
-            distinct_cap: int, top: int, batch_rows: int, sources: Sequence[str], no_joint: bool, **reader: str | None) -> None:
+            distinct_cap: int, top: int, batch_rows: int, sources: Sequence[str], no_joint: bool, dask: str | None,
+            **reader: str | None) -> None:
     """Gather column statistics from DATA (CSV, Parquet, Feather/Arrow, JSON Lines) into a profile, with
     exact joint counts of the filters of the project's chains that it describes."""
     folder = _store(store)
@@ -327,7 +331,7 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
         csv = csv_from(**reader)  # type: ignore[arg-type]
         code = [] if no_joint else project_chains(sources or [str(root)])
         csv = _code_options(csv, code, data)
-        dataset = open_dataset(data, batch_rows=batch_rows, csv=csv)
+        dataset = plan_pieces(data, batch_rows, csv) if dask else open_dataset(data, batch_rows=batch_rows, csv=csv)
         joint = None
         if not no_joint:
             config = _config(list(sources or [str(root)]))
@@ -335,9 +339,12 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
             joint = JointCounter(chains, set(dataset.schema.names), frozenset(redact), root)
             for text, reason in sorted(joint.skipped.items()):
                 click.echo(f"skipped `{text}`: {reason}", err=True)
-        progress = _Progress(sys.stderr.isatty())
-        document = profile_dataset(dataset, name, settings, progress, joint)
-        progress.done()
+        if dask:
+            document = _on_cluster(dask, dataset, name, settings, joint)  # type: ignore[arg-type]
+        else:
+            progress = _Progress(sys.stderr.isatty())
+            document = profile_dataset(dataset, name, settings, progress, joint)  # type: ignore[arg-type]
+            progress.done()
         path, changed = save_profile(folder, document)
     except (DataError, StoreError, ProfileError) as error:
         _fail(str(error))
@@ -347,6 +354,19 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
     if joint is not None:
         extra = f", joint counts for {len(made.joint or ())} predicate sets from {joint.chains} chain{'s' if joint.chains != 1 else ''}"
     click.echo(f"profile {name}: {made.rows:,} rows, {len(made.columns)} columns{extra} -> {shown_path(path)} ({state})")
+
+
+def _on_cluster(address: str, plan: Plan, name: str, settings: Settings, joint: JointCounter | None) -> dict:  # type: ignore[type-arg]
+    """The profile counted on a Dask cluster (the `chainlint[dask]` extra, imported only here)."""
+    try:
+        from chainlint.cluster.run import ClusterError, TaskProgress, connect, profile_on_cluster
+    except ImportError as error:
+        _fail(f"--dask needs Dask ({error.name} is not installed): pip install 'chainlint[dask]'")
+    try:
+        with connect(address) as client:
+            return profile_on_cluster(client, plan, name, settings, joint, TaskProgress(sys.stderr))
+    except ClusterError as error:
+        _fail(str(error))
 
 
 def _code_options(given: CsvOptions, chains: Sequence, data: Sequence[str]) -> CsvOptions:  # type: ignore[type-arg]

@@ -67,6 +67,19 @@ def files_of(path: str) -> list[str]:
     return [path]
 
 
+def dataset_files(arguments: Sequence[str]) -> tuple[str, list[str], list[str], list[SourceFile]]:
+    """(the data format, the paths given with patterns expanded, every file, each described);
+    DataError for missing, unreadable or mixed data."""
+    paths = expand(arguments)
+    if not paths:
+        raise DataError("no data given")
+    kinds = {data_format(p) for p in paths}
+    if len(kinds) > 1:
+        raise DataError(f"mixed data formats ({', '.join(sorted(kinds))}); profile one format at a time")
+    found = [f for p in paths for f in files_of(p)]
+    return kinds.pop(), paths, found, [describe(path) for path in found]
+
+
 def describe(path: str) -> SourceFile:
     """A data file's size and modification time; DataError when it cannot be read."""
     try:

@@ -18,7 +18,7 @@ import pyarrow as pa
 
 from chainlint.profile.csv_reader import column_names, open_csv
 from chainlint.profile.errors import DataError
-from chainlint.profile.files import SourceFile, data_format, describe, expand, files_of, sha256_of
+from chainlint.profile.files import SourceFile, dataset_files, sha256_of
 from chainlint.profile.formats import open_arrow, open_jsonl, open_parquet, open_parquet_dataset, table_batches
 from chainlint.profile.read_options import CsvOptions
 
@@ -48,15 +48,7 @@ class Dataset:
 def open_dataset(arguments: Sequence[str], batch_rows: int = BATCH_ROWS, csv: CsvOptions | None = None) -> Dataset:
     """Open DATA arguments as one dataset (CSV as `pd.read_csv(path, ...)` with `csv`'s
     options reads it); raises DataError naming the file on bad input."""
-    paths = expand(arguments)
-    if not paths:
-        raise DataError("no data given")
-    kinds = {data_format(p) for p in paths}
-    if len(kinds) > 1:
-        raise DataError(f"mixed data formats ({', '.join(sorted(kinds))}); profile one format at a time")
-    kind = kinds.pop()
-    files: list[str] = [f for p in paths for f in files_of(p)]
-    described = [describe(path) for path in files]
+    kind, paths, files, described = dataset_files(arguments)
     # Fingerprinting starts first: it reads every file once, alongside the parse.
     pool = ThreadPoolExecutor(max_workers=1)
     digests = [pool.submit(sha256_of, path) for path in files]

@@ -1,0 +1,214 @@
+"""Partial profiles: the counting state of a piece of a dataset, merged exactly, finished once.
+
+A partial holds what the profilers hold before `finish`: every value counted exactly with its
+count (rare ones too), the distinct-count registers, the weighted sample, the value changes
+and the first and last values, and the joint counts of every pattern however small. The
+privacy rule (min-count, folded complements, safe bounds, redaction, sealed sketches) applies
+to the merged counts only, in `partial_document`, exactly as the local path applies it to its
+one pass. That is why a partial leaves its process only sealed (`seal_partial`): encrypted
+and authenticated under a key made for the run, held in memory by the client and passed to
+the tasks with their arguments, never written to a file; the store's redaction and sketch keys
+never leave the client.
+
+Merging is exact where the local profile is exact: counts add, the value changes add plus
+one where the later piece's first value differs from the earlier piece's last, registers take
+their maximum (a set function: the distinct estimate is the local one), joint counts add. A
+column past the distinct cap switches to its summaries, as the local path does; its weighted
+sample is the union of the pieces' samples (drawn with the whole dataset's stride), so it
+differs from the local one only by where the pieces start, within the stated rank error.
+"""
+
+from __future__ import annotations
+
+import copy
+import hashlib
+import hmac
+import os
+import pickle
+from dataclasses import dataclass, replace
+from typing import Any
+
+import numpy as np
+
+from chainlint.profile.build import count_batches, new_profilers, profile_document
+from chainlint.profile.columns import ColumnProfiler
+from chainlint.profile.errors import DataError
+from chainlint.profile.joint import JointCounter
+from chainlint.profile.settings import Settings
+from chainlint.profile.pieces import Layout, Piece, piece_batches
+
+_NONCE_BYTES = 16
+_TAG_BYTES = 32
+
+
+class PartialKeyError(ValueError):
+    """A sealed partial that the run's key did not seal, or that was altered."""
+
+
+class PieceProfiler(ColumnProfiler):
+    """The local profiler, also keeping the piece's first value: a merge needs it to count the
+    value change where one piece ends and the next begins."""
+
+    first: Any = None
+
+    def count_changes(self, comparable: Any, first: Any, last: Any) -> None:
+        if self.last is None:
+            self.first = first
+        super().count_changes(comparable, first, last)
+
+
+@dataclass
+class Partial:
+    rows: int
+    profilers: list[PieceProfiler]
+    joint: JointCounter | None
+
+
+def worker_settings(settings: Settings) -> Settings:
+    """The settings a task counts with: without the store's keys (counting never needs them)."""
+    return replace(settings, redaction_key=b"", sketch_key=b"")
+
+
+def count_piece(piece: Piece, layout: Layout, settings: Settings, expected_rows: int,
+                joint: JointCounter | None = None) -> Partial:
+    """A piece counted by the local path's own loop (`count_batches`); `expected_rows`: the
+    whole dataset's, so that every piece samples with the local profile's stride."""
+    profilers = new_profilers(layout.schema, worker_settings(settings), expected_rows, PieceProfiler)
+    own = copy.deepcopy(joint)
+    rows = count_batches(piece_batches(piece, layout), profilers, own)
+    for profiler in profilers:
+        if profiler.exact:
+            len(profiler.counter)  # fold the last Parquet dictionary's counts: only values counted travel
+    return Partial(rows, profilers, own)  # type: ignore[arg-type]
+
+
+def merge_partials(earlier: Partial, later: Partial) -> Partial:
+    """The partial of two pieces, `earlier` before `later` in row order (changes `earlier`)."""
+    for into, other in zip(earlier.profilers, later.profilers):
+        _merge_column(into, other)
+    if earlier.joint is not None and later.joint is not None:
+        _merge_joint(earlier.joint, later.joint)
+    earlier.rows += later.rows
+    return earlier
+
+
+def _merge_column(into: PieceProfiler, other: PieceProfiler) -> None:
+    into.rows += other.rows
+    into.nulls += other.nulls
+    if into.kind == "other" or other.kind == "other":
+        into.kind, into.exact = "other", False
+        into.unsummarised = into.unsummarised or other.unsummarised
+        return
+    if other.last is not None:
+        if into.last is not None and other.first != into.last:
+            into.changes += 1
+        if into.last is None:
+            into.first = other.first
+        into.last = other.last
+    into.changes += other.changes
+    if into.exact and other.exact:
+        other.counter.fold()  # its values in the order counted: `add` needs no sorted input
+        if other.counter.values is not None:
+            into.counter.add(other.counter.values, other.counter.counts)
+        if len(into.counter) > into.settings.distinct_cap:
+            into.start_summaries()
+        return
+    for profiler in (into, other):
+        if profiler.exact:
+            profiler.start_summaries()
+    assert into.sample is not None and other.sample is not None
+    into.hll = into.hll.merge(other.hll)
+    into.sample.rank_error = max(into.sample.rank_error, other.sample.rank_error)
+    into.sample.stride = max(into.sample.stride, other.sample.stride)
+    for points, weights in other.sample.chunks:
+        into.sample.add_weighted(points, weights)
+
+
+def _merge_joint(into: JointCounter, other: JointCounter) -> None:
+    for text, reason in other.skipped.items():
+        into.skipped.setdefault(text, reason)
+    for texts in list(into.targets):
+        if texts not in other.targets:  # a piece could not evaluate it: the local path drops it too
+            del into.targets[texts]
+        else:
+            into.targets[texts].subsets += other.targets[texts].subsets
+
+
+def partial_document(partial: Partial, name: str, settings: Settings, source: dict[str, Any]) -> dict[str, Any]:
+    """The profile document of the merged partial: finished with the store's settings and keys,
+    on the client."""
+    if partial.rows == 0:
+        raise DataError(f"{source['files'][0]['path']}: no data rows (header only or empty)")
+    for profiler in partial.profilers:
+        profiler.settings = settings
+    return profile_document(name, settings, source, partial.profilers, partial.rows, partial.joint)  # type: ignore[arg-type]
+
+
+class Sealed:
+    """A partial as a task returns it: the partial itself while it stays in the worker's
+    memory, sealed whenever it is pickled (sent to another worker or the client, or spilled to
+    disk). Each partial feeds one merge, which may change it in place."""
+
+    __slots__ = ("_partial", "_key", "_sealed")
+
+    def __init__(self, partial: Partial | None, key: bytes, sealed: bytes | None = None) -> None:
+        self._partial, self._key, self._sealed = partial, key, sealed
+
+    def __reduce__(self) -> tuple[Any, tuple[bytes]]:
+        assert self._partial is not None or self._sealed is not None
+        return _arrived, (self._sealed if self._sealed is not None else seal_partial(self._partial, self._key),)  # type: ignore[arg-type]
+
+    def open(self, key: bytes) -> Partial:
+        if self._partial is not None:
+            return self._partial
+        assert self._sealed is not None
+        return open_partial(self._sealed, key)
+
+    def __sizeof__(self) -> int:
+        """About the bytes held (for Dask's memory accounting)."""
+        if self._partial is None:
+            return len(self._sealed or b"")
+        held = 0
+        for profiler in self._partial.profilers:
+            counter = profiler.counter
+            held += counter.counts.nbytes * 2 + (counter.values.nbytes if counter.values is not None else 0)
+            if profiler.sample is not None:
+                held += sum(values.nbytes + weights.nbytes for values, weights in profiler.sample.chunks)
+        return held + 4096
+
+
+def _arrived(sealed: bytes) -> Sealed:
+    return Sealed(None, b"", sealed)
+
+
+def seal_partial(partial: Partial, key: bytes) -> bytes:
+    """The partial encrypted (SHAKE-256 keystream from the key and a random nonce) and
+    authenticated (HMAC-SHA256 over nonce and ciphertext) under the run's key."""
+    plain = pickle.dumps(partial, protocol=pickle.HIGHEST_PROTOCOL)
+    nonce = os.urandom(_NONCE_BYTES)
+    body = _xor(plain, _keystream(key, nonce, len(plain)))
+    return nonce + _tag(key, nonce, body) + body
+
+
+def open_partial(sealed: bytes, key: bytes) -> Partial:
+    """A sealed partial's contents; PartialKeyError when `key` did not seal it."""
+    nonce, tag, body = sealed[:_NONCE_BYTES], sealed[_NONCE_BYTES:_NONCE_BYTES + _TAG_BYTES], sealed[_NONCE_BYTES + _TAG_BYTES:]
+    if len(nonce) != _NONCE_BYTES or not hmac.compare_digest(tag, _tag(key, nonce, body)):
+        raise PartialKeyError("a partial profile was not sealed with this run's key")
+    return pickle.loads(_xor(body, _keystream(key, nonce, len(body))))  # authenticated: sealed by this run
+
+
+def _subkey(key: bytes, purpose: bytes) -> bytes:
+    return hmac.new(key, b"chainlint partial " + purpose, hashlib.sha256).digest()
+
+
+def _tag(key: bytes, nonce: bytes, body: bytes) -> bytes:
+    return hmac.new(_subkey(key, b"tag"), nonce + body, hashlib.sha256).digest()
+
+
+def _keystream(key: bytes, nonce: bytes, size: int) -> bytes:
+    return hashlib.shake_256(_subkey(key, b"stream") + nonce).digest(size)
+
+
+def _xor(data: bytes, stream: bytes) -> bytes:
+    return (np.frombuffer(data, dtype=np.uint8) ^ np.frombuffer(stream, dtype=np.uint8)).tobytes()

@@ -1,0 +1,279 @@
+"""A dataset cut into pieces that can be counted apart: Parquet row groups, CSV byte ranges that
+end on record boundaries, whole JSON Lines, Arrow and compressed CSV files.
+
+Each piece is read with the local path's own readers, so that its batches are the rows the
+local profile counts, in the same order; `count_piece` counts them with the local path's
+own loop. Nothing here knows how pieces are scheduled (see `chainlint.cluster`).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import mmap
+import os
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass
+from datetime import UTC, datetime
+from typing import Any
+
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from chainlint.profile import formats, readers
+from chainlint.profile.files import data_format, dataset_files, sha256_of
+from chainlint.profile.csv_reader import CsvFile, _compressed, _mapped_pieces, open_csv
+from chainlint.profile.errors import DataError
+from chainlint.profile.read_options import CsvOptions
+from chainlint.profile.files import SourceFile
+from chainlint.profile.formats import table_batches
+from chainlint.profile.readers import BATCH_ROWS
+
+_ARROW_ERRORS = (pa.ArrowException, OSError)
+
+
+@dataclass(frozen=True)
+class Piece:
+    """One task's share of the data. `path` is absolute (workers may start elsewhere)."""
+
+    kind: str
+    path: str
+    group: int | None = None  # a Parquet row group
+    start: int = 0  # a CSV byte range [start, end) of whole records; end 0: the whole file
+    end: int = 0
+    quoted: bool = False  # the range holds a quote (values may hold line breaks)
+    fragment: Any = None  # a row group of a Parquet folder (pyarrow dataset fragment)
+
+    def where(self) -> str:
+        """The piece as an error message names it."""
+        if self.group is not None:
+            return f"row group {self.group} of {self.path}"
+        if self.end:
+            return f"bytes {self.start}-{self.end} of {self.path}"
+        return self.path
+
+
+@dataclass(frozen=True)
+class Layout:
+    """What every piece's reader needs besides its piece: the dataset's schema as profiled, the
+    schema a Parquet folder is scanned with, the reader options and the batch length."""
+
+    schema: pa.Schema
+    scan_schema: pa.Schema | None
+    csv: CsvOptions
+    batch_rows: int
+    first_path: str
+
+
+@dataclass
+class Plan:
+    """A dataset's schema, files (as given, for the profile's `source`), and pieces in row order."""
+
+    layout: Layout
+    kind: str
+    files: list[SourceFile]
+    pieces: list[Piece]
+    expected_rows: int | None
+
+    @property
+    def schema(self) -> pa.Schema:
+        return self.layout.schema
+
+    def locations(self) -> list[str]:
+        """Where a worker reads each file: absolute paths (workers may start in another folder)
+        or URLs."""
+        return [f.path if _is_url(f.path) else os.path.abspath(f.path) for f in self.files]
+
+
+def plan_pieces(arguments: Sequence[str], batch_rows: int = BATCH_ROWS, csv: CsvOptions | None = None) -> Plan:
+    """Cut DATA arguments into pieces, reading only what the cut needs: Parquet footers, the
+    first CSV piece (it decides the types) and the CSV files' quote parity, the first JSON
+    Lines block. Raises DataError naming the file, as the local path does."""
+    csv = csv or CsvOptions()
+    if any(_is_url(argument) for argument in arguments):
+        return _url_plan(arguments, batch_rows, csv)
+    kind, paths, files, described = dataset_files(arguments)
+    scan_schema = None
+    if kind == "parquet" and any(os.path.isdir(p) for p in paths):
+        schema, scan_schema, pieces, expected = _folder_pieces(paths)
+    elif kind == "parquet":
+        schema, pieces, expected = _parquet_pieces(files)
+    elif kind == "csv":
+        schema, first, rows = open_csv(files[0], csv)
+        first.close()
+        sizes = [d.bytes for d in described]
+        expected = None if rows is None else round(rows * sum(sizes) / max(sizes[0], 1))
+        pieces = [piece for path in files for piece in _csv_pieces(path)]
+    else:
+        opener = formats.open_arrow if kind == "arrow" else formats.open_jsonl
+        schema, _, expected = opener(files[0], batch_rows)
+        pieces = [Piece(kind, os.path.abspath(path)) for path in files]
+    readers._check_columns(schema, files[0])
+    return Plan(Layout(schema, scan_schema, csv, batch_rows, files[0]), kind, described, pieces, expected)
+
+
+def _is_url(path: str) -> bool:
+    return "://" in path
+
+
+def _filesystem(url: str) -> tuple[Any, str]:
+    """The fsspec filesystem of a URL and the path within it."""
+    try:
+        import fsspec  # installed with the dask extra; other implementations (s3fs, ...) as the data needs
+    except ImportError:
+        raise DataError(f"{url}: reading URLs needs fsspec (pip install 'chainlint[dask]')") from None
+    try:
+        return fsspec.core.url_to_fs(url)
+    except (ImportError, ValueError) as error:
+        raise DataError(f"{url}: no fsspec implementation for this URL ({error})") from None
+
+
+def _url_plan(arguments: Sequence[str], batch_rows: int, csv: CsvOptions) -> Plan:
+    """Parquet files behind fsspec URLs (a file, a glob, or a folder of files), a piece per row
+    group, read where the task runs; other formats are read from paths only."""
+    described, pieces, schema, rows = [], [], None, 0
+    for argument in arguments:
+        if not _is_url(argument):
+            raise DataError(f"{argument}: give every DATA as a URL or none (mixed with {arguments[0]})")
+        fs, inner = _filesystem(argument)
+        try:
+            found = sorted(fs.glob(inner)) if any(c in inner for c in "*?[") else [inner]
+            found = [f for path in found for f in (sorted(fs.find(path)) if fs.isdir(path) else [path])]
+        except OSError as error:
+            raise DataError(f"{argument}: cannot list: {error}") from None
+        if not found:
+            raise DataError(f"{argument}: no file matches this pattern")
+        for path in found:
+            url = fs.unstrip_protocol(path)
+            if data_format(url) != "parquet":
+                raise DataError(f"{url}: only Parquet is read from URLs; give CSV, JSON Lines and Arrow files as paths")
+            info = fs.info(path)
+            handle = _parquet_handle(path, fs, url)
+            other = formats._plain_schema(handle.schema_arrow)
+            if schema is None:
+                schema, first = other, url
+            elif not other.equals(schema):
+                raise DataError(readers._differs(url, first))
+            modified = datetime.fromtimestamp(info.get("mtime", 0), UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+            described.append(SourceFile(url, int(info["size"]), modified))
+            pieces.extend(Piece("parquet", url, group) for group in range(handle.metadata.num_row_groups))
+            rows += handle.metadata.num_rows
+    assert schema is not None
+    readers._check_columns(schema, described[0].path)
+    return Plan(Layout(schema, None, csv, batch_rows, described[0].path), "parquet", described, pieces, rows)
+
+
+def file_digest(path: str) -> str:
+    """A file's sha256 (a path or an fsspec URL), for the profile's fingerprint."""
+    if not _is_url(path):
+        return sha256_of(path)
+    fs, inner = _filesystem(path)
+    digest = hashlib.sha256()
+    with fs.open(inner, "rb") as handle:
+        for chunk in iter(lambda: handle.read(1 << 20), b""):
+            digest.update(chunk)
+    return digest.hexdigest()
+
+
+def _parquet_pieces(files: list[str]) -> tuple[pa.Schema, list[Piece], int]:
+    schema = None
+    pieces, rows = [], 0
+    for path in files:
+        other, _, count = formats.open_parquet(path, 1)
+        if schema is None:
+            schema = other
+        elif not other.equals(schema):
+            raise DataError(readers._differs(path, files[0]))
+        groups = pq.ParquetFile(path).metadata.num_row_groups
+        pieces.extend(Piece("parquet", os.path.abspath(path), group) for group in range(groups))
+        rows += count or 0
+    assert schema is not None
+    return schema, pieces, rows
+
+
+def _folder_pieces(paths: Sequence[str]) -> tuple[pa.Schema, pa.Schema, list[Piece], int]:
+    import pyarrow.dataset as pads  # imports pandas: loaded only for folders of Parquet files
+
+    try:
+        parts = [pads.dataset(os.path.abspath(p), format="parquet", partitioning="hive") for p in paths]
+        dataset = parts[0] if len(parts) == 1 else pads.dataset(parts)
+        rows = dataset.count_rows()
+        fragments = [group for fragment in dataset.get_fragments() for group in fragment.split_by_row_group()]
+    except _ARROW_ERRORS as error:
+        raise DataError(f"{paths[0]}: not a readable Parquet dataset ({str(error).splitlines()[0]})") from None
+    pieces = [Piece("parquet", f.path, f.row_groups[0].id, fragment=f) for f in fragments]
+    return formats._plain_schema(dataset.schema), dataset.schema, pieces, rows
+
+
+def _csv_pieces(path: str) -> list[Piece]:
+    """The CSV reader's own cut: pieces of whole records, at line ends outside quotes."""
+    absolute = os.path.abspath(path)
+    if _compressed(path):
+        return [Piece("csv", absolute)]
+    if os.path.getsize(path) == 0:
+        raise DataError(f"{path}: empty file")
+    return [Piece("csv", absolute, None, start, start + len(buffer), quoted)
+            for buffer, start, quoted in _mapped_pieces(path)]
+
+
+def piece_batches(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
+    """The piece's rows as the local path's batches; errors name the file and the piece."""
+    try:
+        yield from _batches(piece, layout)
+    except DataError as error:
+        raise DataError(f"{error} (in the task reading {piece.where()})") from None
+    except _ARROW_ERRORS as error:
+        raise DataError(f"{piece.where()}: {str(error).splitlines()[0]}") from None
+
+
+def _batches(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
+    rows = layout.batch_rows
+    if piece.fragment is not None:
+        for batch in piece.fragment.to_batches(schema=layout.scan_schema, batch_size=rows, use_threads=False):
+            yield pa.Table.from_batches([batch])
+        return
+    if piece.group is not None:
+        yield from _row_group(piece.path, piece.group, rows)
+        return
+    if piece.kind == "csv" and piece.end:
+        yield from _csv_range(piece, layout)
+        return
+    opener = {"csv": lambda p, _: open_csv(p, layout.csv), "arrow": formats.open_arrow, "jsonl": formats.open_jsonl}[piece.kind]
+    schema, stream, _ = opener(piece.path, rows)
+    _same_schema(schema, piece.path, layout)
+    for table in stream:
+        yield from table_batches(table, rows)
+
+
+def _parquet_handle(inner: str, fs: Any, shown: str) -> pq.ParquetFile:
+    """A Parquet file opened as the local reader opens it: strings as dictionaries."""
+    try:
+        handle = pq.ParquetFile(inner, filesystem=fs)
+        strings = [f.name for f in handle.schema_arrow if pa.types.is_string(f.type) or pa.types.is_large_string(f.type)]
+        return pq.ParquetFile(inner, read_dictionary=strings, filesystem=fs) if strings else handle
+    except _ARROW_ERRORS as error:
+        raise DataError(f"{shown}: not a readable Parquet file ({str(error).splitlines()[0]})") from None
+
+
+def _row_group(path: str, group: int, rows: int) -> Iterator[pa.Table]:
+    fs, inner = _filesystem(path) if _is_url(path) else (None, path)
+    handle = _parquet_handle(inner, fs, path)
+    for batch in handle.iter_batches(batch_size=rows, row_groups=[group]):
+        yield pa.Table.from_batches([batch])
+
+
+def _csv_range(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
+    reader = CsvFile(piece.path, layout.csv)
+    with open(piece.path, "rb") as handle:
+        mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
+    buffer = pa.py_buffer(mapped).slice(piece.start, piece.end - piece.start)
+    if piece.start == 0:
+        table = reader.parse_first(buffer, piece.quoted)
+        _same_schema(table.schema, piece.path, layout)
+    else:
+        table = reader.parse(buffer, piece.start, piece.quoted, {f.name: f.type for f in layout.schema})
+    yield from table_batches(table, layout.batch_rows)
+
+
+def _same_schema(schema: pa.Schema, path: str, layout: Layout) -> None:
+    if not schema.equals(layout.schema):
+        raise DataError(readers._differs(path, layout.first_path))

@@ -1,0 +1,96 @@
+"""Partial profiles without a cluster: pieces counted apart and merged give the local profile
+byte for byte (exact columns), and a partial leaves its process only sealed."""
+
+from __future__ import annotations
+
+import pickle
+import secrets
+from pathlib import Path
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+
+from chainlint.profile.build import profile_dataset
+from chainlint.profile.columns import Settings
+from chainlint.profile.format import dumps
+from chainlint.profile.partial import (
+    PartialKeyError,
+    count_piece,
+    merge_partials,
+    open_partial,
+    partial_document,
+    seal_partial,
+)
+from chainlint.profile.pieces import plan_pieces
+from chainlint.profile.readers import open_dataset
+
+SETTINGS = Settings(min_count=3, sketch_key=b"s" * 32, redaction_key=b"r" * 32, redact=frozenset({"code"}))
+
+
+def _tree(path: Path, settings: Settings = SETTINGS, batch_rows: int = 7) -> dict:
+    """Pieces counted one by one, sealed, and merged pairwise level by level, as on a cluster."""
+    plan = plan_pieces([str(path)], batch_rows=batch_rows)
+    key = secrets.token_bytes(32)
+    level = [seal_partial(count_piece(piece, plan.layout, settings, plan.expected_rows or 0), key) for piece in plan.pieces]
+    while len(level) > 1:
+        pairs = [merge_partials(open_partial(a, key), open_partial(b, key)) for a, b in zip(level[::2], level[1::2])]
+        level = [seal_partial(p, key) for p in pairs] + level[len(pairs) * 2:]
+    files = [{"path": f.path, "bytes": f.bytes, "modified": f.modified} for f in plan.files]
+    return partial_document(open_partial(level[0], key), "t", settings, {"kind": plan.kind, "files": files, "fingerprint": "-"})
+
+
+def _local(path: Path, settings: Settings = SETTINGS, batch_rows: int = 7) -> dict:
+    document = profile_dataset(open_dataset([str(path)], batch_rows=batch_rows), "t", settings)
+    document["source"]["fingerprint"] = "-"
+    return document
+
+
+def test_row_group_boundaries_nulls_and_runs_merge_to_the_local_profile(tmp_path: Path) -> None:
+    # Runs of equal values that cross row-group boundaries or end at one, a group of nulls
+    # only, NaN, rare values and a redacted column: every part of `finish` sees merged counts.
+    runs = ["a"] * 9 + ["b"] * 6 + [None] * 10 + ["b"] * 4 + ["c"] * 11 + ["rare"]
+    table = pa.table({
+        "city": runs,
+        "depot": pa.array(runs, pa.string()).dictionary_encode(),
+        "weight": [float(i % 7) if i % 5 else float("nan") for i in range(len(runs))],
+        "stop": list(range(len(runs))),
+        "code": [f"c{i % 4}" for i in range(len(runs))],
+        "when": pa.array(np.datetime64("2025-01-01T00:00", "us") + np.arange(len(runs)) // 8 * np.timedelta64(1, "D")),
+    })
+    path = tmp_path / "t.parquet"
+    pq.write_table(table, path, row_group_size=5)
+    merged, local = _tree(path), _local(path)
+    merged["created"] = local["created"]
+    assert dumps(merged) == dumps(local)
+    assert local["columns"]["city"]["clustering"] > 0  # the runs were seen
+
+
+def test_estimated_columns_merge_deterministically(tmp_path: Path) -> None:
+    rng = np.random.default_rng(7)
+    path = tmp_path / "wide.parquet"
+    pq.write_table(pa.table({"id": rng.integers(0, 10**9, 20_000), "few": rng.integers(0, 5, 20_000)}), path, row_group_size=3_000)
+    settings = Settings(distinct_cap=500, sketch_key=b"s" * 32)
+    first, second, local = _tree(path, settings, 1000), _tree(path, settings, 1000), _local(path, settings, 1000)
+    second["created"] = first["created"]
+    assert dumps(first) == dumps(second)
+    assert first["columns"]["few"] == local["columns"]["few"]
+    assert first["columns"]["id"]["distinct"] == local["columns"]["id"]["distinct"]  # the same registers
+
+
+def test_a_partial_travels_sealed(tmp_path: Path) -> None:
+    path = tmp_path / "t.parquet"
+    pq.write_table(pa.table({"name": ["parcel-7f3a9"] + ["common"] * 20}), path)
+    plan = plan_pieces([str(path)])
+    partial = count_piece(plan.pieces[0], plan.layout, SETTINGS, 21)
+    assert b"parcel-7f3a9" in pickle.dumps(partial)  # the rare value is in the partial's counts
+    key = secrets.token_bytes(32)
+    sealed = seal_partial(partial, key)
+    assert b"parcel-7f3a9" not in sealed and b"common" not in sealed
+    assert SETTINGS.sketch_key not in pickle.dumps(partial)  # the store's keys stay on the client
+    assert open_partial(sealed, key).rows == 21
+    with pytest.raises(PartialKeyError):
+        open_partial(sealed, secrets.token_bytes(32))
+    with pytest.raises(PartialKeyError):
+        open_partial(sealed[:-1] + bytes([sealed[-1] ^ 1]), key)
