@@ -28,6 +28,7 @@ from chainlint.analysis.locate import locate_planned, locate_result
 from chainlint.estimate.calibrate import COST_MODEL_FILE, model_to_json
 from chainlint.estimate.calibrate import calibrate as measure_model
 from chainlint.plan.chains import plan_chain
+from chainlint.plan.groups import describe
 from chainlint.profile.build import profile_dataset
 from chainlint.profile.format import ProfileError, dumps
 from chainlint.profile.joint import JointCounter
@@ -204,7 +205,7 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
     for finding in result.findings:
         if _fixed(finding, written):
             click.echo(printable(f"{finding.path}:{finding.span.line}:{finding.span.column}: fixed: reorder: "
-                                 f"{cell_prefix(finding.cell)}steps now run as {', '.join(str(i + 1) for i in finding.order or ())}"))
+                                 f"{cell_prefix(finding.cell)}now runs as {describe(finding.groups or ())}"))
     fixed = len(result.findings) - len(remaining)
     if output_format == "json":
         report = check_json(result)
@@ -550,7 +551,7 @@ def measure(target: str, data: Sequence[str], repeat: int, rows: int | None, col
                 click.echo(f"\r  chain at line {line}: run {done}/{total}", nl=False, err=True)
 
         try:
-            measurements.append(measure_chain(frame, item.chain, plan.order, plan.speedup, repeat, progress))
+            measurements.append(measure_chain(frame, item.chain, plan.groups, plan.speedup, repeat, progress, plan.single))
         except DataMismatch as error:
             needs = "columns " + ", ".join(sorted({c for step in item.chain.steps for c in step.columns}))
             if item.binding.profile:

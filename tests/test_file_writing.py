@@ -38,8 +38,9 @@ def _check(*args: str):
 
 
 def _fixed(text: str) -> bool:
-    """Whether the demo's first chain is in its planned order (the rare status first)."""
-    return text.index('"damaged"') < text.index('"WEST"') < text.index('"weight_kg"] > 0.5')
+    """Whether the demo's first chain is in its planned form (the rare status first, then the
+    other two steps as one mask)."""
+    return '"damaged"' in text and text.index('"damaged"') < text.find('(d["weight_kg"] > 0.5) & (d["depot"] == "WEST")')
 
 
 def _dead_pid() -> int:

@@ -44,7 +44,7 @@ def test_rows_after_each_step_match_pandas(project: Path) -> None:
     step3 = step2[step2.dest == "MIA"]
     assert measurement["written"]["rows_after"] == [len(step1), len(step2), len(step3)]
     assert measurement["planned"]["rows_after"][-1] == len(step3)
-    assert measurement["planned"]["order"][0] == 2
+    assert 2 in measurement["planned"]["groups"][0]
     assert measurement["same_result"] is True
     assert measurement["measured_speedup"] > 0 and measurement["estimated_speedup"] > 1
     assert "no profile" in result.stderr and "cannot measure" in result.stderr and "mean()" in result.stderr
@@ -54,7 +54,7 @@ def test_one_chain_by_line_and_text_output(project: Path) -> None:
     result = CliRunner().invoke(main, ["measure", f"{project / 'pipeline.py'}:2", "--data", str(project / "flights.parquet"),
                                        "--repeat", "1", "--rows", "5000"])
     assert result.exit_code == 0, result.output
-    assert "5,000 rows" in result.stdout and "both orders return the same frame" in result.stdout
+    assert "5,000 rows" in result.stdout and "return the same frame" in result.stdout
     assert result.stdout.count("measured speedup") == 1
 
 
@@ -124,7 +124,8 @@ def test_f_measure_says_when_only_the_index_class_differs(tmp_path: Path) -> Non
                                        "--repeat", "1", "--format", "json"])
     assert result.exit_code == 0, result.output
     (measurement,) = json.loads(result.stdout)["measurements"]
-    assert measurement["planned"]["order"] == [1, 0]
+    # Either plan keeps the every-hundredth positions in one mask: a RangeIndex (pandas).
+    assert measurement["planned"]["groups"] in ([[1], [0]], [[0, 1]])
     assert measurement["same_result"] is True and measurement["same_index_type"] is False
     text = CliRunner().invoke(main, ["measure", str(tmp_path / "pipeline.py"), "--data", str(tmp_path / "evenly.parquet"), "--repeat", "1"])
     assert "same frame, but with another index class or freq" in text.stdout

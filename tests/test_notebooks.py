@@ -77,7 +77,7 @@ def test_check_locates_findings_in_cells(project: Path) -> None:
     assert result.exit_code == 1, result.output
     lines = result.stdout.splitlines()
     # The line counts within the cell; the cell is named first in the message (GNU form kept).
-    assert lines[0].startswith("tour.ipynb:2:5: reorder: cell 3: run `")
+    assert lines[0].startswith("tour.ipynb:2:5: reorder: cell 3: would run about ")
     assert lines[1].startswith("tour.ipynb:2:10: never-matches: cell 4: `parcel_size` never holds 'XXL'")
     records = json.loads(_check("--format", "json", "tour.ipynb").stdout)["findings"]
     assert [(r["cell"], r["line"], r["column"]) for r in records] == [
@@ -192,16 +192,17 @@ def test_fix_changes_only_the_cell_source_and_validates(project: Path) -> None:
     original = _write(path, document).read_text(encoding="utf-8")
     diff = _check("--diff", "tour.ipynb")
     assert diff.exit_code == 1 and diff.stdout.startswith("--- a/tour.ipynb\n+++ b/tour.ipynb\n")
-    moved = "    \"    .loc[lambda d: d.status == 'damaged']\\n\",\n"
-    assert "-" + moved in diff.stdout and "+" + moved in diff.stdout
+    fused = "    \"    .loc[lambda d: (d.weight_kg > 0.5) & (d.status == 'damaged')]\\n\",\n"
+    assert "-    \"    .loc[lambda d: d.status == 'damaged']\\n\",\n" in diff.stdout and "+" + fused in diff.stdout
     result = _check("--fix", "tour.ipynb")
-    assert "tour.ipynb:2:5: fixed: reorder: cell 3: steps now run as 2, 1" in result.stdout
+    assert "tour.ipynb:2:5: fixed: reorder: cell 3: now runs as one mask of steps 1 and 2" in result.stdout
     new = path.read_text(encoding="utf-8")
     nbformat.validate(nbformat.reads(new, as_version=nbformat.NO_CONVERT))
-    # Byte for byte: only the two swapped lines of cell 3's source changed.
-    changed = [(a, b) for a, b in zip(original.splitlines(), new.splitlines()) if a != b]
-    assert len(original.splitlines()) == len(new.splitlines()) and len(changed) == 2
-    assert all(a.strip().startswith('"    .loc') for pair in changed for a in pair)
+    # Byte for byte: only the two lines of cell 3's source fused into one changed.
+    removed = [line for line in original.splitlines() if line not in new.splitlines()]
+    added = [line for line in new.splitlines() if line not in original.splitlines()]
+    assert len(original.splitlines()) == len(new.splitlines()) + 1 and len(removed) == 2 and len(added) == 1
+    assert all(line.strip().startswith('"    .loc') for line in removed + added)
     before, after = json.loads(original), json.loads(new)
     source = "".join(after["cells"][2]["source"])
     before["cells"][2]["source"] = after["cells"][2]["source"]
@@ -229,7 +230,7 @@ def test_fix_keeps_another_layout_byte_for_byte(project: Path) -> None:
     new = path.read_text(encoding="utf-8")
     expected = text.replace(json.dumps(CHAIN), json.dumps(CHAIN.replace(
         "    .loc[lambda d: d.weight_kg > 0.5]\n    .loc[lambda d: d.status == 'damaged']",
-        "    .loc[lambda d: d.status == 'damaged']\n    .loc[lambda d: d.weight_kg > 0.5]",
+        "    .loc[lambda d: (d.weight_kg > 0.5) & (d.status == 'damaged')]",
     )))
     assert new == expected and expected != text
 

@@ -145,7 +145,7 @@ def test_steps_in_a_method_or_already_lambdas_still_move() -> None:
 # -- H: chains that share a start, and nested chains ---------------------------------------
 def _findings(path: Path, order_of) -> tuple[list[Finding], list]:
     result = analyse_file(str(path))
-    findings = [Finding("reorder", str(path), c.span, "", order=order_of(c)) for c in result.chains]
+    findings = [Finding("reorder", str(path), c.span, "", order=order_of(c), groups=tuple((i,) for i in order_of(c))) for c in result.chains]
     return findings, [result]
 
 

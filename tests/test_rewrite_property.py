@@ -6,8 +6,9 @@ categoricals ordered and not, booleans, nullable Int64 with NA, naive and tz-awa
 object columns of Decimal values with zeros, of mixed types and of mixed tz-aware and naive
 timestamps; a unique, duplicate, unsorted or MultiIndex row index) and random chains in every
 form (outer masks included, which are barriers; guards and the steps they guard, which may
-raise) are rendered to source, permuted by the rewriter in any order the planner may choose
-for the frame's dtypes (`chainlint.plan.totality`), and both sources are executed on the
+raise) are rendered to source, rewritten into any plan the planner may choose for the frame's
+dtypes (`chainlint.plan.totality`): an order, with neighbours fused into one mask where the
+planner lets them join (`&` in a lambda, `and` in a query), and both sources are executed on the
 frame. pandas is the reference: `pandas.testing.assert_frame_equal` with strict dtypes; the
 index's class and `freq` are the documented exception (README: the index after a reorder).
 Inputs on which the written chain raises are kept: they show the rewrite may raise there
@@ -26,9 +27,10 @@ from hypothesis import strategies as st
 
 from chainlint.analysis.run import analyse_source
 from chainlint.parse.source import text_source
-from chainlint.plan.chains import plan_segments, precedence
+from chainlint.plan.chains import may_join, plan_segments, precedence
 from chainlint.plan.totality import judge
-from chainlint.rewrite.permute import apply_edits, chain_edit
+from chainlint.rewrite.fuse import plan_edit
+from chainlint.rewrite.permute import apply_edits
 from chainlint.rewrite.verify import verify
 
 _TIMES = pd.Timestamp("2026-01-01") + pd.to_timedelta(np.arange(10), unit="D")
@@ -160,22 +162,29 @@ def _run(source: str, frame: pd.DataFrame) -> pd.DataFrame | Exception:
     return scope["out"]
 
 
-def _planner_order(chain, dtypes, data) -> tuple[int, ...]:  # type: ignore[no-untyped-def]
-    """Any order the planner may choose for these dtypes: runs between the steps that stay,
-    each step after the steps its precedence limit keeps in front of it."""
+def _planner_groups(chain, dtypes, data) -> tuple[tuple[int, ...], ...]:  # type: ignore[no-untyped-def]
+    """Any plan the planner may choose for these dtypes: runs between the steps that stay,
+    each step in a group after the groups holding the steps its precedence limit keeps in front
+    of it, and steps joined into one mask only where the planner lets them join."""
     limits = tuple(judge(step.predicate, dtypes, "frame") if step.movable else None for step in chain.steps)
-    order: list[int] = []
+    joinable = may_join(chain, limits, dtypes)
+    groups: list[tuple[int, ...]] = []
     done = 0
     for segment in plan_segments(limits):
         before = precedence(segment, limits)
         remaining = list(segment)
         while remaining:
             ready = [s for s in remaining if not before.get(s, 0) & ~done]
-            step = data.draw(st.sampled_from(ready))
-            remaining.remove(step)
-            order.append(step)
-            done |= 1 << step
-    return tuple(order)
+            group = [data.draw(st.sampled_from(ready))]
+            for other in ready:
+                if other not in group and joinable(sum(1 << s for s in [*group, other])) and data.draw(st.booleans()):
+                    group.append(other)
+            group.sort()
+            for step in group:
+                remaining.remove(step)
+                done |= 1 << step
+            groups.append(tuple(group))
+    return tuple(groups)
 
 
 @settings(max_examples=500, deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
@@ -186,13 +195,13 @@ def test_rewritten_chain_keeps_the_promise(frame, case, data) -> None:
     (chain,) = analyse_source(text).chains
     assert len(chain.steps) == count, source
     dtypes = {name: str(dtype) for name, dtype in frame.dtypes.items()}
-    order = _planner_order(chain, dtypes, data)
+    groups = _planner_groups(chain, dtypes, data)
     written = _run(source, frame)
-    if order == tuple(range(count)):
+    if groups == tuple((i,) for i in range(count)):
         return
-    edit = chain_edit(text, chain, order)
+    edit = plan_edit(text, chain, groups)
     rewritten = apply_edits(source, [edit])
-    verify(text, rewritten, [(chain, order)])
+    verify(text, rewritten, [(chain, groups)])
     planned = _run(rewritten, frame)
     if isinstance(written, Exception):
         return  # where the written code raises, the rewrite may raise or not

@@ -14,7 +14,6 @@ from chainlint.model import Chain, FileAnalysis, FileProblem, Finding
 from chainlint.plan.chains import ChainPlan, plan_chain
 from chainlint.profile.sites import chain_site
 from chainlint.profile.store import find_store
-from chainlint.rewrite.permute import FORMS as REWRITTEN
 from chainlint.rules import (
     CATALOG,
     RuleContext,
@@ -114,10 +113,9 @@ def plan_results(results: Sequence[FileAnalysis], options: Options,
 def keep_written(plan: ChainPlan, context: RuleContext) -> ChainPlan:
     """The written order stays the plan unless the planned one clears the thresholds under the
     cost model in force: an order already applied does not flip on a small change of the model
-    (a recalibration on another machine) or of the estimates. A chain the rewrite cannot write
-    in another order (one written mask) keeps its written form: nothing is proposed for it."""
-    if plan.chain.form in REWRITTEN and (plan.order == tuple(range(len(plan.chain.steps))) or (
-            plan.speedup >= context.min_gain and plan.written_seconds - plan.planned_seconds >= context.min_saving)):
+    (a recalibration on another machine) or of the estimates."""
+    if plan.as_written or (
+            plan.speedup >= context.min_gain and plan.written_seconds - plan.planned_seconds >= context.min_saving):
         return plan
     return replace(plan, planned=plan.written)
 

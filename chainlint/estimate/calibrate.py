@@ -1,8 +1,11 @@
 """Re-measure the cost model on this machine (`chainlint calibrate`), in a few seconds.
 
 Builds a frame of numeric and pyarrow string columns, times the predicate kinds and the take
-of masks that keep different shares, and fits the figures `CostModel` holds. Every timing is
-the minimum of a few repeats, which is the least disturbed by other work on the machine.
+of masks that keep different shares, and fits the figures `CostModel` holds; then frames of
+nullable, categorical and object columns, for how dear a kept row of each kind is against its
+family (wide frames from joins hold many of them), and the `&` of a fused group's masks, plain
+and nullable booleans (a comparison on a nullable column gives a nullable mask). Every timing
+is the minimum of a few repeats, which is the least disturbed by other work on the machine.
 """
 
 from __future__ import annotations
@@ -59,7 +62,9 @@ def calibrate(rows: int = 400_000, seed: int = 1) -> CostModel:
         "category": cost(lambda: cat.isin(five)),
     }
     a, b = n > 0.5, numbers["n1"] > 0.5
-    combine = cost(lambda: a & b)
+    nullable = pd.Series(pd.array(integers, dtype="Int64")) > 50
+    # A group's masks are joined with `&`: plain booleans, and nullable ones (Kleene logic).
+    combine = (cost(lambda: a & b) + cost(lambda: a & nullable)) / 2
     between = cost(lambda: n.between(0.2, 0.7))
     string_test = cost(lambda: s.str.contains("bel1", regex=False))
     null_test = cost(lambda: n.isna())
@@ -78,6 +83,7 @@ def calibrate(rows: int = 400_000, seed: int = 1) -> CostModel:
             kept = int(mask.sum())
             seconds = _best(lambda frame=frame, mask=mask: frame[mask])
             points.append((share, max((seconds * 1e9 - base * rows) / (kept * _COLUMNS), 0.0)))
+    weights = _take_weights(pd, rng, rows, labels, numbers, strings)
     tiny = numbers.iloc[:10]
     tiny_mask = np.ones(10, dtype=bool)
     tiny_mask[0] = False
@@ -97,7 +103,28 @@ def calibrate(rows: int = 400_000, seed: int = 1) -> CostModel:
         numeric_take_kept=_curve(numeric_points),
         string_take_kept=_curve(string_points),
         fixed=fixed,
+        take_weight=weights,
     )
+
+
+def _take_weights(pd, rng, rows: int, labels, numbers, strings) -> dict[str, float]:  # type: ignore[no-untyped-def]
+    """A kept row of each kind against its family's (numeric or string), at 30% kept."""
+    mask = rng.random(rows) < 0.30
+    nothing = np.zeros(rows, dtype=bool)
+
+    def kept(frame) -> float:  # type: ignore[no-untyped-def]
+        return max(_best(lambda: frame[mask]) - _best(lambda: frame[nothing]), 1e-12)
+
+    frames = {
+        "nullable": pd.DataFrame({f"m{i}": pd.array(rng.integers(0, 100, rows), dtype="Int64") for i in range(_COLUMNS)}),
+        "category": pd.DataFrame({f"k{i}": pd.Categorical(labels[rng.integers(0, 50, rows)]) for i in range(_COLUMNS)}),
+        "object": strings.astype(object),
+    }
+    numeric, string = kept(numbers), kept(strings)
+    weights = {"numeric": 1.0, "str": 1.0}
+    for kind, frame in frames.items():
+        weights[kind] = kept(frame) / (string if kind == "object" else numeric)
+    return weights
 
 
 def _curve(points: list[tuple[float, float]]) -> tuple[tuple[float, float], ...]:

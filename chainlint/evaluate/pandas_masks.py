@@ -98,3 +98,12 @@ _MASK: Cases[Callable[[pd.DataFrame, Any], Any]] = Cases("pandas mask", {
 def apply_step(frame: pd.DataFrame, node: Node) -> pd.DataFrame:
     """One filter step as pandas runs it: a boolean mask, then the rows it keeps."""
     return frame[mask(frame, node)]
+
+
+def apply_group(frame: pd.DataFrame, nodes: list[Node]) -> pd.DataFrame:
+    """Steps fused into one mask as pandas runs it: each mask on every row, joined with `&`,
+    then the rows the joined mask keeps."""
+    keep = mask(frame, nodes[0])
+    for node in nodes[1:]:
+        keep = keep & mask(frame, node)
+    return frame[keep]

@@ -22,10 +22,13 @@ from chainlint.find.steps import StepContext, build_step, selected_columns
 from chainlint.parse.source import SourceText
 
 
-def find_chains(source: SourceText, tree: ast.Module, seams: Seams, bindings: ModuleBindings | None = None) -> list[Chain]:
+def find_chains(source: SourceText, tree: ast.Module, seams: Seams, bindings: ModuleBindings | None = None,
+                least: int = 2) -> list[Chain]:
     """All chains of the module, in source order (`bindings`: the module's, when the caller
-    wants to see what the finder asks of them)."""
+    wants to see what the finder asks of them); `least`: the fewest steps of a method chain
+    (1 for the rewriter, to find a chain fused into one mask again)."""
     finder = _Finder(source, seams, module_names(tree), bindings or ModuleBindings(tree))
+    finder.least = least
     finder.block(tree.body)
     return sorted(finder.chains, key=lambda c: (c.span.line, c.span.column))
 
@@ -87,6 +90,7 @@ class _Finder:
         self.seams = seams
         self.names = names
         self.chains: list[Chain] = []
+        self.least = 2
         self.absorbed: set[int] = set()
         self.origins = Origins(names.pandas, source.lines, bindings, lambda: self.scope)
         self.positions = Positions(source)
@@ -183,6 +187,8 @@ class _Finder:
                 self.chains.append(self.method_chain(node, decomposed))
             elif id(node) not in self.absorbed and (fused := self.fused_mask(node, decomposed)) is not None:
                 self.chains.append(fused)
+            elif id(node) not in self.absorbed and len(decomposed.shapes) >= self.least:
+                self.chains.append(self.method_chain(node, decomposed))
             stack.append((decomposed.base, self.scope))
             for shape in decomposed.shapes:
                 lambda_scope = shape.arg if isinstance(shape.arg, ast.Lambda) else self.scope

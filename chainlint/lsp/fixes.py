@@ -38,9 +38,9 @@ def fixes_for(analysis: DocumentAnalysis, finding: Finding) -> list[Fix]:
     """Every quick fix of one finding, best first."""
     planned = _chain_of(analysis.planned, finding)
     found: list[Fix] = []
-    if finding.rule == "reorder" and finding.order is not None and planned is not None:
+    if finding.rule == "reorder" and finding.groups is not None and planned is not None:
         try:
-            edit = fix_in_text(analysis.source, planned.chain, finding.order)
+            edit = fix_in_text(analysis.source, planned.chain, finding.groups)
         except RewriteError:
             pass
         else:

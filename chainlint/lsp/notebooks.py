@@ -93,10 +93,10 @@ def cell_fix(state: CellState, finding: Finding) -> Edit | None:
     """The verified rewrite of the finding's chain, as an edit of the cell's own text (cell
     positions), or None when there is none."""
     chain = next((p.chain for p in state.planned if p.chain.span == finding.span), None)
-    if chain is None or finding.order is None:
+    if chain is None or finding.groups is None:
         return None
     try:
-        edit = fix_in_text(state.source, chain, finding.order)
+        edit = fix_in_text(state.source, chain, finding.groups)
     except RewriteError:
         return None
     span = state.local(edit.span)

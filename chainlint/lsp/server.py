@@ -204,10 +204,11 @@ def plan_markdown(item: PlannedChain) -> str:
     ]
     for name, estimates in (("written", plan.written), ("planned", plan.planned)):
         for estimate in estimates:
-            step = chain.steps[estimate.step]
-            predicate = step.predicate.canonical().replace("|", "\\|")
+            predicate = " & ".join(f"({chain.steps[i].predicate.canonical()})" if len(estimate.steps) > 1
+                                   else chain.steps[i].predicate.canonical() for i in estimate.steps).replace("|", "\\|")
+            numbers = " & ".join(str(i + 1) for i in estimate.steps)
             lines.append(
-                f"| {name} | {estimate.step + 1} | `{predicate}` | {estimate.rows_in:,.0f} | {estimate.rows_out:,.0f} | "
+                f"| {name} | {numbers} | `{predicate}` | {estimate.rows_in:,.0f} | {estimate.rows_out:,.0f} | "
                 f"{estimate.selectivity:.1%} | {estimate.basis.value} | {duration(estimate.seconds)} |"
             )
     return "\n".join(lines)

@@ -9,13 +9,20 @@ from chainlint.measure.run import Measurement, OrderTiming
 from chainlint.units import duration
 
 
-def _order_record(timing: OrderTiming) -> dict:
+def _order_record(timing: OrderTiming | None) -> dict | None:
+    if timing is None:
+        return None
     return {
         "order": list(timing.order),
+        "groups": [list(g) for g in timing.groups],
         "seconds": round(timing.seconds, 6),
         "step_seconds": [round(s, 6) for s in timing.step_seconds],
         "rows_after": list(timing.rows_after),
     }
+
+
+#: What ran fastest, when it is not the planned form.
+_FASTEST = {"written": "the written form", "single order": "the cheapest order of single steps"}
 
 
 def measure_json(measurements: Sequence[Measurement]) -> str:
@@ -28,6 +35,8 @@ def measure_json(measurements: Sequence[Measurement]) -> str:
                 "rows": m.rows,
                 "written": _order_record(m.written),
                 "planned": _order_record(m.planned),
+                "single_order": _order_record(m.single),
+                "fastest": m.fastest,
                 "measured_speedup": round(m.measured_speedup, 4),
                 "estimated_speedup": round(m.estimated_speedup, 4),
                 "same_result": m.same_result,
@@ -43,8 +52,9 @@ def measure_text(measurements: Sequence[Measurement]) -> str:
     blocks = []
     for m in measurements:
         lines = [f"{m.chain.path}:{m.chain.span.line}:{m.chain.span.column}: chain on `{m.chain.frame}`, {m.rows:,} rows"]
-        for name, timing in (("written", m.written), ("planned", m.planned)):
-            steps = ", ".join(str(i + 1) for i in timing.order)
+        forms = [("written", m.written), ("planned", m.planned)] + ([("single", m.single)] if m.single else [])
+        for name, timing in forms:
+            steps = ", ".join("(" + " & ".join(str(i + 1) for i in g) + ")" if len(g) > 1 else str(g[0] + 1) for g in timing.groups)
             rows = " -> ".join(f"{r:,}" for r in timing.rows_after)
             per_step = ", ".join(duration(s) for s in timing.step_seconds)
             lines.append(f"  {name:8} steps {steps:<14} {duration(timing.seconds):>10}  (per step: {per_step})  rows: {rows}")
@@ -54,6 +64,8 @@ def measure_text(measurements: Sequence[Measurement]) -> str:
             verdict = "same frame"
         else:
             verdict = "same frame, but with another index class or freq (README: the index after a reorder)"
-        lines.append(f"  measured speedup {m.measured_speedup:.2f}x, estimated {m.estimated_speedup:.2f}x; both orders return the {verdict}")
+        every = "both orders" if m.single is None else "all three forms"
+        lines.append(f"  measured speedup {m.measured_speedup:.2f}x, estimated {m.estimated_speedup:.2f}x; {every} return the {verdict}"
+                     + ("" if m.fastest == "planned" else f"; {_FASTEST[m.fastest]} ran fastest"))
         blocks.append("\n".join(lines))
     return "\n\n".join(blocks) + ("\n" if blocks else "")

@@ -1,8 +1,10 @@
-"""Measure a chain's written and planned order on real data (`chainlint measure`).
+"""Measure a chain's written form, its planned form and its best single order on real data
+(`chainlint measure`).
 
-Both orders are built from chainlint's own IR (never the user's code) and run as pandas runs a
-filter: a boolean mask, then the rows it keeps. After a warm-up, the two orders alternate for
-`repeat` runs; medians are reported, per step and in all. Both must return the same frame.
+Every form is built from chainlint's own IR (never the user's code) and run as pandas runs a
+filter: a boolean mask (for a group of steps, their masks joined with `&`), then the rows it
+keeps. After a warm-up, the forms alternate for `repeat` runs; medians are reported, per group
+and in all. All must return the same frame.
 """
 
 from __future__ import annotations
@@ -15,7 +17,7 @@ from dataclasses import dataclass
 import pandas as pd
 import pyarrow as pa
 
-from chainlint.evaluate.pandas_masks import apply_step
+from chainlint.evaluate.pandas_masks import apply_group
 from chainlint.evaluate.support import unevaluable
 from chainlint.model import Chain, ChainlintError
 from chainlint.profile.read_options import CsvOptions
@@ -32,10 +34,17 @@ class DataMismatch(MeasureError):
 
 @dataclass(frozen=True)
 class OrderTiming:
-    order: tuple[int, ...]
+    """One form timed: its groups of steps (each run as one mask), in order; per group its
+    median time and the rows left after it."""
+
+    groups: tuple[tuple[int, ...], ...]
     seconds: float
     step_seconds: tuple[float, ...]
     rows_after: tuple[int, ...]
+
+    @property
+    def order(self) -> tuple[int, ...]:
+        return tuple(i for group in self.groups for i in group)
 
 
 @dataclass(frozen=True)
@@ -49,10 +58,20 @@ class Measurement:
     #: The index's class and `freq` agree too (pandas derives them from the path the rows
     #: took; README: "The index after a reorder").
     same_index_type: bool = True
+    #: The cheapest order of single steps (no fused masks), when the plan is not one.
+    single: OrderTiming | None = None
 
     @property
     def measured_speedup(self) -> float:
         return self.written.seconds / self.planned.seconds if self.planned.seconds > 0 else 1.0
+
+    @property
+    def fastest(self) -> str:
+        """`written`, `planned` or `single order`: the form measured fastest."""
+        timings = {"planned": self.planned, "written": self.written}
+        if self.single is not None:
+            timings["single order"] = self.single
+        return min(timings, key=lambda name: timings[name].seconds)
 
 
 def load_table(data: Sequence[str], rows: int | None, columns: Sequence[str] | None, csv: CsvOptions | None = None) -> pa.Table:
@@ -99,12 +118,15 @@ def measurable(chain: Chain) -> str | None:
     return None
 
 
-def _run(frame: pd.DataFrame, chain: Chain, order: Sequence[int]) -> tuple[pd.DataFrame, list[float], list[int]]:
+Groups = tuple[tuple[int, ...], ...]
+
+
+def _run(frame: pd.DataFrame, chain: Chain, groups: Groups) -> tuple[pd.DataFrame, list[float], list[int]]:
     seconds, rows = [], []
     current = frame
-    for index in order:
+    for group in groups:
         start = time.perf_counter()
-        current = apply_step(current, chain.steps[index].predicate)
+        current = apply_group(current, [chain.steps[i].predicate for i in group])
         seconds.append(time.perf_counter() - start)
         rows.append(len(current))
     return current, seconds, rows
@@ -113,16 +135,23 @@ def _run(frame: pd.DataFrame, chain: Chain, order: Sequence[int]) -> tuple[pd.Da
 def measure_chain(
     frame: pd.DataFrame,
     chain: Chain,
-    planned: tuple[int, ...],
+    planned: Sequence[Sequence[int]],
     estimated_speedup: float,
     repeat: int = 5,
     progress: Callable[[int, int], None] | None = None,
+    single: Sequence[int] | None = None,
 ) -> Measurement:
+    """Time the written form, the `planned` groups and (when given and another form) the
+    `single` order of single steps."""
     reason = measurable(chain)
     if reason:
         raise MeasureError(reason)
-    written = tuple(range(len(chain.steps)))
-    orders = (written, planned)
+    written = tuple((i,) for i in range(len(chain.steps)))
+    planned = tuple(tuple(group) for group in planned)
+    orders: tuple[Groups, ...] = (written, planned)
+    alone = tuple((i,) for i in single) if single is not None else None
+    if alone is not None and alone not in orders:
+        orders += (alone,)
     missing = sorted({c for step in chain.steps for c in step.predicate.columns()} - set(frame.columns))
     if missing:
         raise DataMismatch(f"the data has no column {', '.join(f'`{c}`' for c in missing)}, which the chain reads")
@@ -130,10 +159,11 @@ def measure_chain(
         results = [_run(frame, chain, order)[0] for order in orders]  # warm-up, and the results
     except (KeyError, TypeError, ValueError) as error:
         raise DataMismatch(f"pandas raises on this data: {type(error).__name__}: {error}") from None
-    same, same_index_type = compare_results(results[1], results[0])
-    totals: dict[tuple[int, ...], list[float]] = {order: [] for order in orders}
-    steps: dict[tuple[int, ...], list[list[float]]] = {order: [] for order in orders}
-    rows: dict[tuple[int, ...], list[int]] = {}
+    checked = [compare_results(result, results[0]) for result in results[1:]]
+    same, same_index_type = all(c[0] for c in checked), all(c[1] for c in checked)
+    totals: dict[Groups, list[float]] = {order: [] for order in orders}
+    steps: dict[Groups, list[list[float]]] = {order: [] for order in orders}
+    rows: dict[Groups, list[int]] = {}
     for run in range(repeat):
         for order in orders if run % 2 == 0 else orders[::-1]:
             _, seconds, rows[order] = _run(frame, chain, order)
@@ -142,11 +172,12 @@ def measure_chain(
         if progress is not None:
             progress(run + 1, repeat)
 
-    def timing(order: tuple[int, ...]) -> OrderTiming:
+    def timing(order: Groups) -> OrderTiming:
         per_step = tuple(statistics.median(run[k] for run in steps[order]) for k in range(len(order)))
         return OrderTiming(order, statistics.median(totals[order]), per_step, tuple(rows[order]))
 
-    return Measurement(chain, len(frame), timing(written), timing(planned), estimated_speedup, same, same_index_type)
+    return Measurement(chain, len(frame), timing(written), timing(planned), estimated_speedup, same, same_index_type,
+                       timing(alone) if alone is not None and alone not in (written, planned) else None)
 
 
 def compare_results(planned: pd.DataFrame, written: pd.DataFrame) -> tuple[bool, bool]:

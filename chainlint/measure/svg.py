@@ -40,7 +40,7 @@ def measurement_svg(measurements: Sequence[Measurement]) -> str:
 def _panel(m: Measurement, top: int) -> tuple[str, int]:
     chain = m.chain
     orders = {"written": m.written, "planned": m.planned}
-    title = (f"{chain.path}:{chain.span.line} — chain on `{chain.frame}`, {m.rows:,} rows — planned order "
+    title = (f"{chain.path}:{chain.span.line} — chain on `{chain.frame}`, {m.rows:,} rows — planned form "
              f"{m.measured_speedup:.2f}x faster measured, {m.estimated_speedup:.2f}x estimated")
     plot_top = top + 60
     parts = [_text(20, top + 24, title, size=14, weight="bold"),
@@ -51,7 +51,7 @@ def _panel(m: Measurement, top: int) -> tuple[str, int]:
     legend_y = plot_top + _PLOT_HEIGHT + 50
     for offset, (name, timing) in enumerate(orders.items()):
         x = 20 + offset * 470
-        steps = ", ".join(str(i + 1) for i in timing.order)
+        steps = ", ".join(_label(g) for g in timing.groups)
         parts.append(f'<rect x="{x}" y="{legend_y - 10}" width="12" height="12" fill="{_COLOURS[name]}"/>')
         parts.append(_text(x + 18, legend_y, f"{name}: steps {steps} — {duration(timing.seconds)} in all"))
     y = legend_y
@@ -90,11 +90,11 @@ def _rows_plot(m: Measurement, orders: dict[str, OrderTiming], top: int) -> list
         points += [(_ROWS_LEFT + (k + 1) * x_step, y_of(rows)) for k, rows in enumerate(timing.rows_after)]
         path = " ".join(f"{x:.1f},{y:.1f}" for x, y in points)
         parts.append(f'<polyline points="{path}" fill="none" stroke="{_COLOURS[name]}" stroke-width="2"/>')
-        for (x, y), index, rows in zip(points[1:], timing.order, timing.rows_after):
-            parts.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3" fill="{_COLOURS[name]}"><title>{name}, step {index + 1}: '
+        for (x, y), group, rows in zip(points[1:], timing.groups, timing.rows_after):
+            parts.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3" fill="{_COLOURS[name]}"><title>{name}, step {_label(group)}: '
                          f'{rows:,} rows left</title></circle>')
             dy = -8 if offset == 0 else 16
-            parts.append(_text(x + 4, y + dy, str(index + 1), colour=_COLOURS[name]))
+            parts.append(_text(x + 4, y + dy, _label(group), colour=_COLOURS[name]))
     return parts
 
 
@@ -110,20 +110,25 @@ def _time_plot(orders: dict[str, OrderTiming], top: int) -> list[str]:
         parts.append(f'<line x1="{_TIME_LEFT - 4}" y1="{y:.1f}" x2="{_TIME_RIGHT}" y2="{y:.1f}" stroke="#ddd"/>')
         parts.append(_text(_TIME_LEFT - 6, y + 4, f"{value:g}", anchor="end"))
         value += tick
-    steps = len(orders["written"].order)
+    steps = max(len(t.groups) for t in orders.values())
     group = (_TIME_RIGHT - _TIME_LEFT) / 2
     bar = min(40.0, group / (steps + 1))
     for offset, (name, timing) in enumerate(orders.items()):
         start = _TIME_LEFT + offset * group + (group - bar * steps) / 2
         parts.append(_text(_TIME_LEFT + offset * group + group / 2, bottom + 32, name, anchor="middle",
                            colour=_COLOURS[name]))
-        for k, (index, seconds) in enumerate(zip(timing.order, timing.step_seconds)):
+        for k, (members, seconds) in enumerate(zip(timing.groups, timing.step_seconds)):
             tall = _PLOT_HEIGHT * seconds * 1e3 / ceiling
             x = start + k * bar
             parts.append(f'<rect x="{x + 2:.1f}" y="{bottom - tall:.1f}" width="{bar - 4:.1f}" height="{tall:.1f}" '
-                         f'fill="{_COLOURS[name]}"><title>{name}, step {index + 1}: {duration(seconds)}</title></rect>')
-            parts.append(_text(x + bar / 2, bottom + 16, f"step {index + 1}", anchor="middle", size=10))
+                         f'fill="{_COLOURS[name]}"><title>{name}, step {_label(members)}: {duration(seconds)}</title></rect>')
+            parts.append(_text(x + bar / 2, bottom + 16, f"step {_label(members)}", anchor="middle", size=10))
     return parts
+
+
+def _label(group: tuple[int, ...]) -> str:
+    """A group's step numbers: `3`, or `1+2` for steps run as one mask."""
+    return "+".join(str(i + 1) for i in group)
 
 
 def _axes(left: float, right: float, top: float) -> list[str]:

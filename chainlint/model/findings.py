@@ -31,6 +31,9 @@ class Finding:
     current_seconds: float | None = None
     planned_seconds: float | None = None
     order: tuple[int, ...] | None = None
+    #: The planned plan of a `reorder` finding: groups of steps, each run as one mask, in order
+    #: (`order` is the same steps flattened).
+    groups: tuple[tuple[int, ...], ...] | None = None
     fix: Edit | None = None
     fix_error: str | None = None
     cell: Cell | None = None

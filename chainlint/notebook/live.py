@@ -73,7 +73,7 @@ def measure_text(frame: Any, plan: ChainPlan, repeat: int) -> str:
     from chainlint.measure.run import MeasureError, measure_chain
 
     try:
-        measured = measure_chain(frame, plan.chain, plan.order, plan.speedup, max(1, repeat))
+        measured = measure_chain(frame, plan.chain, plan.groups, plan.speedup, max(1, repeat), single=plan.single)
     except MeasureError as error:
         return f"  cannot time this chain: {error}\n"
     lines = render([replace(measured, chain=replace(plan.chain, path="cell"))]).splitlines()[1:]

@@ -127,9 +127,9 @@ def plan_cell(shell: Any, line: str, cell: str) -> str:
         parts.append(item.text)
         if options.time:
             parts.append(measure_text(frame, item.plan, options.repeat))
-        if item.plan.order != tuple(range(len(chain.steps))):
+        if not item.plan.as_written:
             try:
-                edits.append(fix_in_text(source, chain, item.plan.order))
+                edits.append(fix_in_text(source, chain, item.plan.groups))
             except RewriteError as error:
                 parts.append(f"  the planned form cannot be written: {error}\n")
     if options.replace:

@@ -9,6 +9,7 @@ raise on rows an earlier step removes never moving before the steps written befo
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 from chainlint.bind.binding import Binding
@@ -20,7 +21,10 @@ from chainlint.estimate.cost import (
     step_cost,
 )
 from chainlint.estimate.selectivity import Basis, Estimate, Estimator
-from chainlint.model import Chain, consecutive_runs
+from chainlint.ir import And, Column, Compare, Member, Node, Not, NullTest, Or, Range, StrTest
+from chainlint.model import Chain, ChainForm, Step, StepKind, consecutive_runs
+from chainlint.plan.groups import EXACT_LIMIT as GROUP_LIMIT
+from chainlint.plan.groups import plan_groups
 from chainlint.plan.planner import EXACT_LIMIT, plan_segment
 from chainlint.plan.totality import ANY, LATER, STAYS, Limit, judge
 
@@ -35,6 +39,12 @@ class StepEstimate:
     rows_in: float
     rows_out: float
     seconds: float
+    #: In a planned order: the steps run with it as one mask (`step` is the first of them).
+    group: tuple[int, ...] = ()
+
+    @property
+    def steps(self) -> tuple[int, ...]:
+        return self.group or (self.step,)
 
 
 @dataclass(frozen=True)
@@ -48,10 +58,23 @@ class ChainPlan:
     #: How far each step may move (None for a barrier the finder set).
     limits: tuple[Limit | None, ...] = ()
     rows_from: str = "profile"
+    #: The cheapest order of single steps (no fused masks), for `measure` to time beside the plan.
+    single: tuple[int, ...] = ()
+
+    @property
+    def groups(self) -> tuple[tuple[int, ...], ...]:
+        """The planned plan: groups of steps, each run as one mask, in order."""
+        return tuple(e.steps for e in self.planned)
+
+    @property
+    def as_written(self) -> bool:
+        """Whether the plan is the chain as written (every step alone in the written order; one
+        mask of every conjunct for a mask written whole)."""
+        return self.groups == written_groups(self.chain)
 
     @property
     def order(self) -> tuple[int, ...]:
-        return tuple(e.step for e in self.planned)
+        return tuple(s for e in self.planned for s in e.steps)
 
     @property
     def written_seconds(self) -> float:
@@ -112,27 +135,45 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
     dtypes = dtypes if dtypes is not None else profile.dtypes()
     limits = tuple(judge(step.predicate, dtypes, binding.profile or "") if step.movable else None for step in chain.steps)
 
-    def cost(step: int, rows_in: float, kept: float) -> float:
-        return step_cost(rows_in, predicates[step], kept, shape, model, clustered[step])
+    joinable = may_join(chain, limits, dtypes)
 
-    planned: list[int] = []
+    per_mask: dict[int, tuple[float, float]] = {}
+
+    def cost(mask: int, rows_in: float, kept: float) -> float:
+        known = per_mask.get(mask)
+        if known is None:
+            members = _bits(mask)
+            known = per_mask[mask] = (sum(predicates[i] for i in members) + model.combine * (len(members) - 1),
+                                      min(clustered[i] for i in members))
+        return step_cost(rows_in, known[0], kept, shape, model, known[1])
+
+    def single_cost(step: int, rows_in: float, kept: float) -> float:
+        return cost(1 << step, rows_in, kept)
+
+    planned: list[tuple[int, ...]] = []
+    single: list[int] = []
     done = 0
-    index = 0
     for segment in plan_segments(limits):
         base = done
 
         def segment_rows(mask: int, base: int = base) -> float:
             return rows_after(base | mask)
 
-        order, _ = plan_segment(segment, segment_rows, cost, precedence(segment, limits))
-        planned.extend(order)
+        before = precedence(segment, limits, chain)
+        order = plan_segment(segment, segment_rows, single_cost, before)[0]
+        single.extend(order)
+        if any(joinable(1 << a | 1 << b) for a, b in zip(order, order[1:])) or (
+                len(segment) <= GROUP_LIMIT and any(joinable(1 << a | 1 << b) for a in segment for b in segment if a < b)):
+            planned.extend(plan_groups(segment, segment_rows, cost, before, joinable, order)[0])
+        else:  # nothing may join: the plan is the order
+            planned.extend((step,) for step in order)
         for step in segment:
             done |= 1 << step
-    written = _walk(range(len(chain.steps)), estimates, rows_after, cost, joint_steps)
+    written = _walk(written_groups(chain), estimates, rows_after, cost, joint_steps)
     planned_estimates = _walk(planned, estimates, rows_after, cost, joint_steps)
     fused = _fused_seconds(limits, estimates, predicates, total_rows, shape, model, clustered)
     return ChainPlan(chain, binding, total_rows, written, planned_estimates, fused, limits,
-                     rows_from if rows else "profile")
+                     rows_from if rows else "profile", tuple(single))
 
 
 def plan_segments(limits: tuple[Limit | None, ...]) -> list[list[int]]:
@@ -140,10 +181,20 @@ def plan_segments(limits: tuple[Limit | None, ...]) -> list[list[int]]:
     return consecutive_runs(len(limits), lambda before, step: _moves(limits[step]) and _moves(limits[before]))
 
 
-def precedence(segment: list[int], limits: tuple[Limit | None, ...]) -> dict[int, int]:
-    """For each step that may only move later, the bit mask of the segment's steps written
-    before it: they must still run before it."""
-    return {step: sum(1 << s for s in segment[:position])
+def written_groups(chain: Chain) -> tuple[tuple[int, ...], ...]:
+    """The chain's steps as written, as groups: each step alone, or, for one mask written whole
+    (`df[(a) & (b)]`, form `mask`), all its conjuncts in one group."""
+    if chain.form is ChainForm.MASK:
+        return (tuple(range(len(chain.steps))),)
+    return tuple((i,) for i in range(len(chain.steps)))
+
+
+def precedence(segment: list[int], limits: tuple[Limit | None, ...], chain: Chain | None = None) -> dict[int, int]:
+    """For each step that may only move later, the bit mask of the segment's steps that ran
+    before it as written (in an earlier group: the conjuncts of one written mask see the same
+    rows): they must still run in a group before it."""
+    group = {s: n for n, g in enumerate(written_groups(chain)) for s in g} if chain is not None else {s: s for s in segment}
+    return {step: sum(1 << s for s in segment[:position] if group[s] < group[step])
             for position, step in enumerate(segment) if limits[step] is not None and limits[step].moves == LATER}  # type: ignore[union-attr]
 
 
@@ -170,22 +221,65 @@ def _joint_steps(chain: Chain, estimator: Estimator, texts: list[str]) -> set[in
     return covered
 
 
-def _walk(order, estimates: list[Estimate], rows_after, cost, joint_steps: set[int]) -> tuple[StepEstimate, ...]:  # type: ignore[no-untyped-def]
-    """Each step's rows and time in `order`; its selectivity is the share of its own input it
-    keeps there (conditional on the steps before it when joint counts say so)."""
+def _walk(groups, estimates: list[Estimate], rows_after, cost, joint_steps: set[int]) -> tuple[StepEstimate, ...]:  # type: ignore[no-untyped-def]
+    """Each group's rows and time when `groups` run in turn; a single step's selectivity is the
+    share of its own input it keeps there (conditional on the steps before it when joint
+    counts say so), a group's the share the whole mask keeps."""
     out = []
     mask = 0
-    for step in order:
+    for group in groups:
         rows_in = rows_after(mask)
-        mask |= 1 << step
+        added = sum(1 << step for step in group)
+        mask |= added
         rows_out = rows_after(mask)
         kept = 1.0 if rows_in <= 0 else rows_out / rows_in
-        seconds = cost(step, rows_in, kept) / 1e9
-        if step in joint_steps:
+        seconds = cost(added, rows_in, kept) / 1e9
+        step = group[0]
+        members = tuple(group) if len(group) > 1 else ()
+        if len(group) > 1:
+            # The weakest of its steps' bases: a group's share is as good as its worst estimate.
+            basis = Basis.JOINT if set(group) <= joint_steps else max((estimates[i].basis for i in group), key=list(Basis).index)
+            out.append(StepEstimate(step, kept, basis, rows_in, rows_out, seconds, members))
+        elif step in joint_steps:
             out.append(StepEstimate(step, kept, Basis.JOINT, rows_in, rows_out, seconds))
         else:
             out.append(StepEstimate(step, estimates[step].selectivity, estimates[step].basis, rows_in, rows_out, seconds))
     return tuple(out)
+
+
+def may_join(chain: Chain, limits: tuple[Limit | None, ...], dtypes: dict[str, str]) -> Callable[[int], bool]:
+    """Whether the steps of a bit mask may run as one mask: all of one form (lambdas and masks,
+    or queries) in a method chain or one mask written whole, none of them a step that stays,
+    and each predicate boolean-valued whatever the rows (see `_family`)."""
+    families = [_family(step, limit, dtypes) for step, limit in zip(chain.steps, limits)]
+
+    def joinable(mask: int) -> bool:
+        kinds = {families[i] for i in _bits(mask)}
+        return chain.form in (ChainForm.METHOD, ChainForm.MASK) and len(kinds) == 1 and None not in kinds
+
+    return joinable
+
+
+def _family(step: Step, limit: Limit | None, dtypes: dict[str, str]) -> str | None:
+    """Which form of mask the step may join (`mask` for lambdas and masks, `query`), or None
+    when it must run alone: a step that stays or a `dropna`, or a predicate whose value may
+    not be booleans (a column used as a mask that is not of a boolean dtype: `&` of integers
+    is a bitwise integer, not a mask)."""
+    if limit is None or limit.moves == STAYS or not _boolean(step.predicate, dtypes):
+        return None
+    if step.kind is StepKind.QUERY:
+        return "query"
+    return None if step.kind is StepKind.DROPNA else "mask"
+
+
+def _boolean(node: Node, dtypes: dict[str, str]) -> bool:
+    if isinstance(node, (And, Or)):
+        return all(_boolean(part, dtypes) for part in node.parts)
+    if isinstance(node, Not):
+        return _boolean(node.operand, dtypes)
+    if isinstance(node, Column):
+        return dtypes.get(node.name) in ("bool", "boolean")
+    return isinstance(node, (Compare, Member, Range, NullTest, StrTest))
 
 
 def _fused_seconds(limits: tuple[Limit | None, ...], estimates: list[Estimate], predicates: list[float], rows: float,

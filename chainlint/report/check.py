@@ -44,6 +44,7 @@ def finding_record(finding: Finding) -> dict[str, Any]:
         "current_seconds": None if finding.current_seconds is None else round(finding.current_seconds, 6),
         "planned_seconds": None if finding.planned_seconds is None else round(finding.planned_seconds, 6),
         "order": None if finding.order is None else list(finding.order),
+        "groups": None if finding.groups is None else [list(g) for g in finding.groups],
         "fix": None if finding.fix is None else {
             "line": finding.fix.span.line,
             "column": finding.fix.span.column,

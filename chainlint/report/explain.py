@@ -66,13 +66,14 @@ def planned_record(item: PlannedChain) -> dict[str, Any]:
     if plan is None:
         record["binding"] = None
         record["reason"] = item.binding.reason
-        record.update(order=None, speedup=None, rows=None, written_seconds=None, planned_seconds=None, fused_seconds=None)
+        record.update(order=None, groups=None, speedup=None, rows=None, written_seconds=None, planned_seconds=None, fused_seconds=None)
         for step in record["steps"]:
             step.update(moves=None, limit=None, selectivity=None, basis=None, rows_in=None, rows_out=None, seconds=None)
         return record
     record["binding"] = {"profile": item.binding.profile, "how": item.binding.how.value if item.binding.how else None}
     record.update(
         order=list(plan.order),
+        groups=[list(g) for g in plan.groups],
         speedup=round(plan.speedup, 4),
         rows=plan.rows,
         written_seconds=round(plan.written_seconds, 6),
@@ -133,7 +134,7 @@ def _order_table(title: str, plan: ChainPlan, estimates) -> list[str]:  # type: 
     rows = [(title, "rows in", "rows out", "keeps", "basis", "time")]
     for estimate in estimates:
         rows.append((
-            f"step {estimate.step + 1}",
+            f"step {estimate.step + 1}" if len(estimate.steps) == 1 else "steps " + " & ".join(str(i + 1) for i in estimate.steps),
             f"{estimate.rows_in:,.0f}",
             f"{estimate.rows_out:,.0f}",
             f"{estimate.selectivity:.2%}",

@@ -72,6 +72,7 @@ def _result(finding: Finding, index: dict[str, int], levels: dict[str, str]) -> 
             "currentSeconds": round(finding.current_seconds or 0.0, 6),
             "plannedSeconds": round(finding.planned_seconds or 0.0, 6),
             "order": list(finding.order or ()),
+            "groups": [list(g) for g in finding.groups or ()],
         }
     return result
 

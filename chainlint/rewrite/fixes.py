@@ -17,7 +17,8 @@ from chainlint.model import Chain, Edit, FileAnalysis, Finding
 from chainlint.parse.notebooks import is_notebook, notebook_from_text
 from chainlint.parse.source import SourceError, SourceText, decode_source, read_source, text_digest, text_source
 from chainlint.rewrite.cells import rewrite_cells
-from chainlint.rewrite.permute import RewriteError, apply_edits, chain_edit
+from chainlint.rewrite.fuse import plan_edit
+from chainlint.rewrite.permute import RewriteError, apply_edits
 from chainlint.rewrite.verify import verify
 from chainlint.writer import WriteError, read_snapshot, write_file
 
@@ -39,7 +40,7 @@ def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -
     chains = {(c.path, c.span): c for r in results for c in r.chains}
     by_file: dict[str, list[Finding]] = defaultdict(list)
     for finding in findings:
-        if finding.rule == "reorder" and finding.order is not None:
+        if finding.rule == "reorder" and finding.groups is not None:
             by_file[finding.path].append(finding)
     updated: dict[int, Finding] = {}
     files: dict[str, FileFix] = {}
@@ -63,9 +64,9 @@ def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -
         prepared: list[tuple[Finding, Chain, Edit]] = []
         for finding in reorders:
             chain = chains[(path, finding.span)]
-            assert finding.order is not None
+            assert finding.groups is not None
             try:
-                prepared.append((finding, chain, chain_edit(source, chain, finding.order)))
+                prepared.append((finding, chain, plan_edit(source, chain, finding.groups)))
             except RewriteError as error:
                 updated[id(finding)] = replace(finding, fix_error=str(error))
         prepared = _apart(prepared, updated)
@@ -104,10 +105,11 @@ def _apart(items: list[tuple[Finding, Chain, Edit]], refusals: dict[int, Finding
     return kept
 
 
-def fix_in_text(source: SourceText, chain: Chain, order: tuple[int, ...]) -> Edit:
-    """The verified edit for one chain of an in-memory text (an editor's buffer)."""
-    edit = chain_edit(source, chain, order)
-    verify(source, apply_edits(source.text, [edit]), [(chain, order)])
+def fix_in_text(source: SourceText, chain: Chain, groups: Sequence[Sequence[int]]) -> Edit:
+    """The verified edit for one chain of an in-memory text (an editor's buffer): `groups` of
+    steps, each run as one mask, in order."""
+    edit = plan_edit(source, chain, groups)
+    verify(source, apply_edits(source.text, [edit]), [(chain, groups)])
     return edit
 
 
@@ -117,7 +119,7 @@ def _verified(source: SourceText, items: list[tuple[Finding, Chain, Edit]],
     if not items:
         return []
     try:
-        verify(source, apply_edits(source.text, [edit for _, _, edit in items]), [(chain, f.order) for f, chain, _ in items])  # type: ignore[misc]
+        verify(source, apply_edits(source.text, [edit for _, _, edit in items]), [(chain, f.groups) for f, chain, _ in items])  # type: ignore[misc]
     except RewriteError as error:
         if refusals is not None:
             for finding, _, _ in items:

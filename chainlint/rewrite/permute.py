@@ -81,7 +81,7 @@ def _line_start(text: str, offset: int) -> int:
     return max(text.rfind("\n", 0, offset), text.rfind("\r", 0, offset)) + 1
 
 
-def _slots(source: SourceText, chain: Chain) -> list[_Slot]:
+def step_slots(source: SourceText, chain: Chain) -> list[_Slot]:
     text = source.text
     steps = chain.steps
     slots = []
@@ -148,7 +148,7 @@ def chain_edit(source: SourceText, chain: Chain, order: tuple[int, ...]) -> Edit
         if segment_of.get(position) != segment_of[index]:
             raise RewriteError(f"step {index + 1} may not move across a barrier")
     text = source.text
-    slots = _slots(source, chain)
+    slots = step_slots(source, chain)
     moved_leads = any(slots[i].lead_start < slots[i].anchor for p, i in enumerate(order) if p != i)
     first = slots[0]
     begin = first.lead_start if moved_leads and first.anchor >= 0 else first.start

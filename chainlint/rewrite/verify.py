@@ -1,4 +1,4 @@
-"""Prove an edited file is the original with exactly the chains' steps permuted.
+"""Prove an edited file is the original with exactly the chains' steps put into their planned groups.
 
 In the spirit of a formatter's AST-equivalence check: the new file must parse with `ast`, and
 every rewritten top-level statement with libcst (the rest is text the edit did not touch);
@@ -6,7 +6,8 @@ a rewritten statement must keep every token outside the chain's steps and every 
 comment that swallowed code, or moved before it, changes both), and its `ast` outside the
 chains; top-level statements that hold no chain must keep their exact text, and the comments
 between statements must stay the same; the finder, run again, must see each chain with the
-same predicates in the planned order, its barriers where they were and its `# chainlint:`
+same predicates in the planned order, each group of steps one mask (its predicates joined with
+`and`), its barriers where they were and its `# chainlint:`
 comments still applying.
 """
 
@@ -20,12 +21,14 @@ from collections.abc import Sequence
 import libcst
 
 from chainlint.find.chains import find_chains
-from chainlint.find.screen import find_seams
+from chainlint.find.screen import Seams, find_seams
+from chainlint.ir import make_and
 from chainlint.model import Chain, ChainForm, Span
 from chainlint.parse.source import SourceError, SourceText, parse_tree, text_source
 from chainlint.rewrite.permute import RewriteError
 
 _PLACEHOLDER = "__chainlint_chain__"
+Groups = Sequence[Sequence[int]]
 
 
 class _Blank(ast.NodeTransformer):
@@ -55,14 +58,23 @@ def _byte_column(source: SourceText, line: int, column: int) -> int:
     return len(source.lines[line - 1][: column - 1].encode("utf-8"))
 
 
-def _found_again(found: Sequence[Chain], chain: Chain, order: tuple[int, ...], used: set[int]) -> Chain:
-    """The chain of the new text that is `chain` in the planned order: same form and steps,
-    nearest to where it was (an edit moves no line outside the chain's own text)."""
-    expected = [chain.steps[i] for i in order]
+def _found_again(found: Sequence[Chain], chain: Chain, groups: Groups, used: set[int]) -> Chain:
+    """The chain of the new text that is `chain` in the planned plan: same form, and a step
+    for each group (its steps' predicates joined with `and`, movable unless it is a step that
+    was not), or each step in the planned order, nearest to where it was (an edit moves no
+    line outside the chain's own text)."""
+    fused = [(make_and(chain.steps[i].predicate for i in group), all(chain.steps[i].movable for i in group)) for group in groups]
+    flat = [(chain.steps[i].predicate, chain.steps[i].movable) for group in groups for i in group]
+    # One group is one mask: a chain of its conjuncts where the finder reads written masks so.
+    # A mask written whole and split is a method chain of its groups.
+    if chain.form is ChainForm.MASK:
+        forms = {ChainForm.MASK, ChainForm.METHOD} if len(groups) == 1 else {ChainForm.METHOD}
+    else:
+        forms = {chain.form, ChainForm.MASK} if len(groups) == 1 else {chain.form}
     candidates = [
         again for again in found
-        if id(again) not in used and again.form == chain.form and len(again.steps) == len(expected)
-        and all(a.predicate == b.predicate and a.movable == b.movable for a, b in zip(expected, again.steps))
+        if id(again) not in used and again.form in forms
+        and [(s.predicate, s.movable) for s in again.steps] in (fused, flat)
     ]
     if not candidates:
         raise RewriteError(f"after rewriting, the chain at line {chain.span.line} is not found again with its steps in the planned order")
@@ -73,15 +85,20 @@ def _found_again(found: Sequence[Chain], chain: Chain, order: tuple[int, ...], u
     return again
 
 
-def verify(old: SourceText, new_text: str, rewritten: Sequence[tuple[Chain, tuple[int, ...]]]) -> None:
-    """Raise RewriteError unless `new_text` is `old` with the chains permuted as planned."""
+def verify(old: SourceText, new_text: str, rewritten: Sequence[tuple[Chain, Groups | Sequence[int]]]) -> None:
+    """Raise RewriteError unless `new_text` is `old` with the chains in their planned groups
+    (each group of steps one mask, the groups in the planned order; a plain order of step
+    indices is a plan of single steps)."""
+    rewritten = [(chain, [(g,) if isinstance(g, int) else g for g in plan]) for chain, plan in rewritten]
     new = text_source(old.path, new_text, old.encoding)
     try:
         new_tree = parse_tree(new)
     except SourceError as error:
         raise RewriteError(f"the rewritten file does not parse: {error.message}") from None
     old_chains = [chain for chain, _ in rewritten]
-    found = find_chains(new, new_tree, find_seams(new_text))
+    # A chain fused into one mask is one step: found only when single steps are looked for.
+    single = any(len(groups) == 1 for _, groups in rewritten)
+    found = find_chains(new, new_tree, Seams(None) if single else find_seams(new_text), least=1 if single else 2)
     used: set[int] = set()
     new_chains = [_found_again(found, chain, order, used) for chain, order in rewritten]
     old_tree = parse_tree(old)
@@ -149,10 +166,11 @@ def _tokens(source: SourceText, statement: ast.stmt, steps: Sequence[Span], comm
                 continue
             start = (token.start[0] + first - 1, token.start[1] + 1)
             end = (token.end[0] + first - 1, token.end[1] + 1)
-            if any((s.line, s.column) <= start and end <= (s.end_line, s.end_column) for s in steps):
-                continue
             if token.type == tokenize.COMMENT:
+                # Counted wherever it is: a step's comment may move into a fused mask.
                 comments.update(_fragments([token.string]))
+            elif any((s.line, s.column) <= start and end <= (s.end_line, s.end_column) for s in steps):
+                continue
             else:
                 code.append((token.type, token.string))
     except (tokenize.TokenError, SyntaxError) as error:
