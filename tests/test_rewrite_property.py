@@ -26,9 +26,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from chainlint.analysis.run import analyse_source
+from chainlint.model import ChainForm
 from chainlint.parse.source import text_source
 from chainlint.plan.chains import may_join, plan_segments, precedence
-from chainlint.plan.totality import judge
+from chainlint.plan.totality import ANY, judge
 from chainlint.rewrite.fuse import plan_edit
 from chainlint.rewrite.permute import apply_edits
 from chainlint.rewrite.verify import verify
@@ -167,11 +168,13 @@ def _planner_groups(chain, dtypes, data) -> tuple[tuple[int, ...], ...]:  # type
     each step in a group after the groups holding the steps its precedence limit keeps in front
     of it, and steps joined into one mask only where the planner lets them join."""
     limits = tuple(judge(step.predicate, dtypes, "frame") if step.movable else None for step in chain.steps)
+    if chain.form is ChainForm.MASK and any(limit is None or limit.moves != ANY for limit in limits):
+        return (tuple(range(len(chain.steps))),)  # the planner keeps such a mask whole
     joinable = may_join(chain, limits, dtypes)
     groups: list[tuple[int, ...]] = []
     done = 0
     for segment in plan_segments(limits):
-        before = precedence(segment, limits)
+        before = precedence(segment, limits, chain)
         remaining = list(segment)
         while remaining:
             ready = [s for s in remaining if not before.get(s, 0) & ~done]
@@ -198,6 +201,49 @@ def test_rewritten_chain_keeps_the_promise(frame, case, data) -> None:
     groups = _planner_groups(chain, dtypes, data)
     written = _run(source, frame)
     if groups == tuple((i,) for i in range(count)):
+        return
+    edit = plan_edit(text, chain, groups)
+    rewritten = apply_edits(source, [edit])
+    verify(text, rewritten, [(chain, groups)])
+    planned = _run(rewritten, frame)
+    if isinstance(written, Exception):
+        return  # where the written code raises, the rewrite may raise or not
+    assert not isinstance(planned, Exception), (rewritten, type(planned).__name__, planned)
+    pd.testing.assert_frame_equal(planned, written, check_index_type="equiv", check_freq=False)
+
+
+@st.composite
+def written_masks(draw):
+    """(source of a module filtering `df` with one mask written whole, number of conjuncts)."""
+    count = draw(st.integers(2, 4))
+    form = draw(st.sampled_from(["mask", "loc_lambda", "query"]))
+    if form == "query":
+        parts = draw(st.lists(st.sampled_from(["i > 3", "f > -2", "s == 'apple'", "`two words` in [1, 2]", "c == 'z'",
+                                               "qty != 0", "amount / qty > 2", "mixed > 1", "e >= 0", "t > '2026-01-04'"]),
+                              min_size=count, max_size=count, unique=True))
+        return f"import pandas as pd\nout = df.query({' and '.join(parts)!r})\n", count
+    name = "df" if form == "mask" else "t"
+    parts = [draw(_masks(name)) for _ in range(count)]
+    body = " & ".join(f"({p})" for p in parts)
+    key = body if form == "mask" else f"lambda t: {body}"
+    return f"import pandas as pd\nout = df.loc[{key}]\n", count
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+@given(frames(), written_masks(), st.data())
+def test_a_split_mask_keeps_the_promise(frame, case, data) -> None:
+    """A mask written whole, split by the rewriter into any plan the planner may choose."""
+    source, count = case
+    text = text_source("generated.py", source)
+    chains = analyse_source(text).chains
+    if len(chains) != 1 or chains[0].form is not ChainForm.MASK:
+        return  # a mask with a conjunct that may not move stays one step, no chain
+    (chain,) = chains
+    assert len(chain.steps) == count, source
+    dtypes = {name: str(dtype) for name, dtype in frame.dtypes.items()}
+    groups = _planner_groups(chain, dtypes, data)
+    written = _run(source, frame)
+    if groups == (tuple(range(count)),):
         return
     edit = plan_edit(text, chain, groups)
     rewritten = apply_edits(source, [edit])

@@ -153,7 +153,15 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
     planned: list[tuple[int, ...]] = []
     single: list[int] = []
     done = 0
-    for segment in plan_segments(limits):
+    # A mask written whole is split only where every conjunct is total: alone, a conjunct that
+    # may raise or give missing values (`.str` of an object column) raises where the written
+    # `&` did not (pandas: a mask holding NA cannot select; the written mask's `&` reads it as
+    # False).
+    whole = chain.form is ChainForm.MASK and any(limit is None or limit.moves != ANY for limit in limits)
+    if whole:
+        planned.extend(written_groups(chain))
+        single.extend(range(len(chain.steps)))
+    for segment in [] if whole else plan_segments(limits):
         base = done
 
         def segment_rows(mask: int, base: int = base) -> float:
