@@ -226,6 +226,8 @@ def test_fix_then_a_model_calibrated_elsewhere_keeps_the_order_written(flights_s
     again = _check("--format", "json", "--store", str(store), str(path))
     assert [f for f in json.loads(again.output)["findings"] if f["rule"] == "reorder"] == []
     explained = json.loads(CliRunner().invoke(main, ["explain", "--format", "json", "--store", str(store), str(path)]).output)
-    # The written plan stays the plan: a chain fused into one mask is one filter (no chain),
-    # every chain still found keeps its steps as written.
-    assert all(c["groups"] == [[i] for i in range(len(c["steps"]))] for c in explained["chains"])
+    # The written plan stays the plan: a chain fused into one mask is now a mask written whole,
+    # planned as its one group; every other chain keeps its steps as written.
+    assert explained["chains"] and all(
+        c["groups"] == ([list(range(len(c["steps"])))] if c["form"] == "mask" else [[i] for i in range(len(c["steps"]))])
+        for c in explained["chains"])
