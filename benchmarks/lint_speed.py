@@ -17,8 +17,9 @@ from pathlib import Path
 
 import pandas
 
-from chainlint.analysis.check import Options, plan_results
-from chainlint.analysis.run import analyse_files
+from chainlint.engine.check import plan_results
+from chainlint.engine.options import Options
+from chainlint.engine.run import analyse_files
 from chainlint.discover import discover
 from chainlint.report.explain import explain_json
 

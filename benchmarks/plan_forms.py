@@ -38,8 +38,9 @@ from pathlib import Path
 import pandas as pd
 from click.testing import CliRunner
 
-from chainlint.analysis.check import Options, plan_results
-from chainlint.analysis.run import analyse_source
+from chainlint.engine.check import plan_results
+from chainlint.engine.options import Options
+from chainlint.engine.run import analyse_source
 from chainlint.cli import main as cli
 from chainlint.estimate.calibrate import calibrate, model_to_json
 from chainlint.evaluate.pandas_masks import mask

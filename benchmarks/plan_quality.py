@@ -27,8 +27,9 @@ from pathlib import Path
 import pandas as pd
 from click.testing import CliRunner
 
-from chainlint.analysis.check import Options, plan_results
-from chainlint.analysis.run import analyse_source
+from chainlint.engine.check import plan_results
+from chainlint.engine.options import Options
+from chainlint.engine.run import analyse_source
 from chainlint.cli import main as cli
 from chainlint.evaluate.pandas_masks import apply_step, mask
 from chainlint.parse.source import text_source

@@ -33,7 +33,6 @@ LAYERS: list[tuple[str, ...]] = [
     ("rules",),
     ("rewrite",),
     ("measure",),
-    ("analysis",),
     ("engine",),
     ("report",),
     ("notebook", "cluster"),

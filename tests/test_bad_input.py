@@ -13,7 +13,7 @@ from pathlib import Path
 import pytest
 from click.testing import CliRunner
 
-from chainlint.analysis.run import analyse_file
+from chainlint.engine.run import analyse_file
 from chainlint.cli import main
 
 GOOD = 'out = df[df.a == 1].loc[lambda d: d.b > 2]\n'

@@ -5,7 +5,6 @@ from __future__ import annotations
 
 import json
 import tomllib
-import shutil
 from pathlib import Path
 
 import pytest
@@ -17,14 +16,6 @@ DEMO = Path(__file__).parent.parent / "examples"
 # The official SARIF 2.1.0 schema (OASIS Standard with Errata 01, JSON Schema draft-04), as
 # shipped beside the repository in ../shared/schemas (provenance in its SOURCES.md).
 SCHEMA = Path(__file__).resolve().parent.parent.parent / "shared" / "schemas" / "sarif-schema-2.1.0.json"
-
-
-@pytest.fixture
-def project(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
-    shutil.copytree(DEMO / ".chainlint", tmp_path / ".chainlint")
-    shutil.copy(DEMO / "pipeline.py", tmp_path / "pipeline.py")
-    monkeypatch.chdir(tmp_path)
-    return tmp_path
 
 
 def _validate(log: dict) -> None:

@@ -2,15 +2,15 @@
 
 from __future__ import annotations
 
-import shutil
 from pathlib import Path
 
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from chainlint.analysis.check import RULES, Options
-from chainlint.analysis.document import DocumentAnalyser, analyse_text
+from chainlint.engine.options import Options
+from chainlint.rules import BY_NAME as RULES
+from chainlint.engine.document import DocumentAnalyser, analyse_text
 
 DEMO = Path(__file__).parent.parent / "examples"
 CHAIN = 'scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]'
@@ -62,10 +62,9 @@ edits = st.lists(st.one_of(
 
 
 @pytest.fixture(scope="module")
-def project(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    root = tmp_path_factory.mktemp("document")
-    shutil.copytree(DEMO / ".chainlint", root / ".chainlint")
-    return root
+def project(demo_store: Path) -> Path:
+    # The name the property test below reads: its examples are derived from its own text.
+    return demo_store
 
 
 @settings(max_examples=250)

@@ -8,7 +8,6 @@ temporaries left by a killed run are cleaned up on the next one.
 from __future__ import annotations
 
 import os
-import shutil
 import stat
 import subprocess
 import sys
@@ -21,16 +20,6 @@ from chainlint.cli import main
 
 DEMO = Path(__file__).parent.parent / "examples"
 ROOT = hasattr(os, "geteuid") and os.geteuid() == 0
-
-
-@pytest.fixture
-def project(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
-    folder = tmp_path / "project"
-    folder.mkdir()
-    shutil.copytree(DEMO / ".chainlint", folder / ".chainlint")
-    shutil.copy(DEMO / "pipeline.py", folder / "pipeline.py")
-    monkeypatch.chdir(folder)
-    return folder
 
 
 def _check(*args: str):

@@ -10,7 +10,7 @@ from pathlib import Path
 
 import pytest
 
-from chainlint.analysis.run import analyse_file
+from chainlint.engine.run import analyse_file
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import Seams
 from chainlint.model import OriginKind

@@ -17,7 +17,7 @@ from strategies import (
     query_text,
 )
 
-from chainlint.analysis.run import analyse_source
+from chainlint.engine.run import analyse_source
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import Seams, find_seams
 from chainlint.ir import Column, Named, NullTest, make_and

@@ -15,7 +15,7 @@ from click.testing import CliRunner
 from flights import flights
 from test_check import project  # noqa: F401  (the flights project: data and its profile)
 
-from chainlint.analysis.run import analyse_source
+from chainlint.engine.run import analyse_source
 from chainlint.cli import main
 from chainlint.evaluate.pandas_masks import apply_step
 from chainlint.model import ChainForm, StepKind

@@ -107,7 +107,7 @@ def test_g_a_column_not_held_as_a_plain_column_stays(tmp_path: Path) -> None:
 def test_a_live_frame_is_judged_by_its_own_dtypes() -> None:
     # A kernel's object column of strings reads as Arrow strings; pandas (the reference) shows
     # that `.str` of it, with None, cannot mask once the guard no longer runs first.
-    from chainlint.analysis.run import analyse_source
+    from chainlint.engine.run import analyse_source
     from chainlint.notebook.live import plan_on_frame
     from chainlint.parse.source import text_source
 

@@ -103,7 +103,7 @@ def test_bad_profile_names_are_errors(project: Path, name: str) -> None:
 
 
 def test_workers_are_capped_at_files_and_cores(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
-    from chainlint.analysis import run
+    from chainlint.engine import run
 
     started = []
 

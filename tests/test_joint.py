@@ -14,7 +14,7 @@ from click.testing import CliRunner
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from chainlint.analysis.run import analyse_source
+from chainlint.engine.run import analyse_source
 from chainlint.cli import main
 from chainlint.parse.source import text_source
 from chainlint.profile import joint
@@ -123,3 +123,21 @@ def test_unknown_column_is_reported(tmp_path: Path) -> None:
     result = CliRunner().invoke(main, ["check", "--format", "json", str(tmp_path / "m.py")])
     findings = json.loads(result.output)["findings"]
     assert any(f["rule"] == "unknown-column" and "`colour`" in f["message"] for f in findings)
+
+
+def test_profile_counts_the_chains_check_binds_to_it(tmp_path: Path) -> None:
+    """`profile` picks the chains to count by the binding rules `check` binds by, in their order:
+    the file a chain reads (rule 2) comes before `[tool.chainlint.bindings]` (rule 3). Its own
+    copy of the rules once tried the configuration first, so this chain bound to the profile
+    by `check` was never counted for it (`joint-uncounted` after every profile run)."""
+    pd.DataFrame({"a": [i % 7 for i in range(300)], "b": [i % 3 for i in range(300)]}).to_parquet(tmp_path / "t.parquet")
+    (tmp_path / "pyproject.toml").write_text('[tool.chainlint.bindings]\ndf = "other"\n')
+    (tmp_path / "m.py").write_text('import pandas as pd\ndf = pd.read_parquet("t.parquet")\ndf = df[df.a > 1]\ndf = df[df.b == 2]\n')
+    made = CliRunner().invoke(main, ["profile", str(tmp_path / "t.parquet"), "--name", "t", "--store", str(tmp_path / ".chainlint")])
+    assert made.exit_code == 0, made.output
+    explained = json.loads(CliRunner().invoke(main, ["explain", "--format", "json", str(tmp_path / "m.py")]).stdout)
+    assert explained["chains"][0]["binding"] == {"profile": "t", "how": "source"}
+    document = json.loads((tmp_path / ".chainlint" / "profiles" / "t.json").read_text())
+    assert [entry["chains"] for entry in document["joint"]] == [["m.py:df"]]
+    checked = CliRunner().invoke(main, ["check", "--format", "json", "--rule", "joint-uncounted", str(tmp_path / "m.py")])
+    assert json.loads(checked.stdout)["findings"] == []

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import asyncio
 import json
-import shutil
 import sys
 from pathlib import Path
 
@@ -23,17 +22,10 @@ TIMEOUT = 60
 PUBLISHED: list[types.PublishDiagnosticsParams] = []
 
 
-@pytest.fixture(scope="module")
-def project(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    root = tmp_path_factory.mktemp("lsp")
-    shutil.copytree(DEMO / ".chainlint", root / ".chainlint")
-    return root
-
-
 @pytest_lsp.fixture(scope="module", config=ClientServerConfig(server_command=[sys.executable, "-m", "chainlint", "lsp"]))
-async def client(lsp_client: LanguageClient, project: Path):
+async def client(lsp_client: LanguageClient, demo_store: Path):
     capabilities = client_capabilities("visual-studio-code")
-    await lsp_client.initialize_session(types.InitializeParams(capabilities=capabilities, root_uri=project.as_uri()))
+    await lsp_client.initialize_session(types.InitializeParams(capabilities=capabilities, root_uri=demo_store.as_uri()))
     # Every publication is recorded (the client keeps only the latest per document).
     features = lsp_client.protocol.fm.features
     keep_latest = features[types.TEXT_DOCUMENT_PUBLISH_DIAGNOSTICS]
@@ -73,8 +65,8 @@ async def _change(client: LanguageClient, path: Path, text: str, version: int) -
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_diagnostics_quick_fix_and_clearing(client: LanguageClient, project: Path) -> None:
-    path = project / "pipeline.py"
+async def test_diagnostics_quick_fix_and_clearing(client: LanguageClient, demo_store: Path) -> None:
+    path = demo_store / "pipeline.py"
     text = (DEMO / "pipeline.py").read_text()
     found = await _open(client, path, text)
     codes = sorted(d.code for d in found)
@@ -95,8 +87,8 @@ async def test_diagnostics_quick_fix_and_clearing(client: LanguageClient, projec
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_unsaved_text_counts_and_hover_shows_the_plan(client: LanguageClient, project: Path) -> None:
-    path = project / "unsaved.py"  # never written to disk
+async def test_unsaved_text_counts_and_hover_shows_the_plan(client: LanguageClient, demo_store: Path) -> None:
+    path = demo_store / "unsaved.py"  # never written to disk
     text = 'def f(scans):\n    return scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]\n'
     found = await _open(client, path, text)
     assert [d.code for d in found] == ["reorder"]
@@ -107,8 +99,8 @@ async def test_unsaved_text_counts_and_hover_shows_the_plan(client: LanguageClie
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_positions_are_utf16_after_non_ascii_text(client: LanguageClient, project: Path) -> None:
-    path = project / "wide.py"
+async def test_positions_are_utf16_after_non_ascii_text(client: LanguageClient, demo_store: Path) -> None:
+    path = demo_store / "wide.py"
     prefix = 'x = "𝔘𝔫𝔦"; '  # three characters outside the BMP: two UTF-16 units each
     text = prefix + 'out = scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]\n'
     (diagnostic,) = await _open(client, path, text)
@@ -117,32 +109,32 @@ async def test_positions_are_utf16_after_non_ascii_text(client: LanguageClient, 
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_bad_input_does_not_stop_the_server(client: LanguageClient, project: Path, tmp_path: Path) -> None:
-    broken = project / "broken.py"
+async def test_bad_input_does_not_stop_the_server(client: LanguageClient, demo_store: Path, tmp_path: Path) -> None:
+    broken = demo_store / "broken.py"
     assert await _open(client, broken, "def broken(:\n    scans[scans.a > 1][scans.b > 2]\n") == []
     outside = tmp_path / "elsewhere" / "m.py"
     assert await _open(client, outside, "out = frame[frame.a == 1][frame.b == 2]\n") == []
     # Still alive: a fresh document gets its diagnostics.
-    alive = await _open(client, project / "alive.py", 'out = scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]\n')
+    alive = await _open(client, demo_store / "alive.py", 'out = scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]\n')
     assert [d.code for d in alive] == ["reorder"]
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_configuration_changes_are_picked_up(client: LanguageClient, project: Path) -> None:
-    path = project / "configured.py"
+async def test_configuration_changes_are_picked_up(client: LanguageClient, demo_store: Path) -> None:
+    path = demo_store / "configured.py"
     text = 'out = scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]\n'
     assert [d.code for d in await _open(client, path, text)] == ["reorder"]
-    (project / "chainlint.toml").write_text("min_gain = 1000.0\n")
+    (demo_store / "chainlint.toml").write_text("min_gain = 1000.0\n")
     try:
         assert await _change(client, path, text + "\n", 2) == []
     finally:
-        (project / "chainlint.toml").unlink()
+        (demo_store / "chainlint.toml").unlink()
     assert [d.code for d in await _change(client, path, text, 3)] == ["reorder"]
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_requests_about_unknown_documents_or_places_get_empty_answers(client: LanguageClient, project: Path) -> None:
-    unknown = types.TextDocumentIdentifier(uri=(project / "never-opened.py").as_uri())
+async def test_requests_about_unknown_documents_or_places_get_empty_answers(client: LanguageClient, demo_store: Path) -> None:
+    unknown = types.TextDocumentIdentifier(uri=(demo_store / "never-opened.py").as_uri())
     hover = await asyncio.wait_for(client.text_document_hover_async(
         types.HoverParams(text_document=unknown, position=types.Position(line=999, character=999))), TIMEOUT)
     assert hover is None
@@ -150,7 +142,7 @@ async def test_requests_about_unknown_documents_or_places_get_empty_answers(clie
         text_document=unknown, range=types.Range(start=types.Position(line=5, character=0), end=types.Position(line=2, character=0)),
         context=types.CodeActionContext(diagnostics=[]))), TIMEOUT)
     assert not actions  # None or an empty sequence (lsprotocol gives tuples)
-    path = project / "short.py"
+    path = demo_store / "short.py"
     await _open(client, path, 'out = scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]\n')
     far = await asyncio.wait_for(client.text_document_hover_async(types.HoverParams(
         text_document=types.TextDocumentIdentifier(uri=path.as_uri()), position=types.Position(line=40, character=3))), TIMEOUT)
@@ -180,8 +172,8 @@ async def _actions(client: LanguageClient, uri: str, diagnostic: types.Diagnosti
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_a_quick_fix_right_after_an_edit_is_computed_on_the_new_text(client: LanguageClient, project: Path) -> None:
-    path = project / "raced.py"
+async def test_a_quick_fix_right_after_an_edit_is_computed_on_the_new_text(client: LanguageClient, demo_store: Path) -> None:
+    path = demo_store / "raced.py"
     uri = path.as_uri()
     text = (DEMO / "pipeline.py").read_text()
     found = await _open(client, path, text)
@@ -205,8 +197,8 @@ async def test_a_quick_fix_right_after_an_edit_is_computed_on_the_new_text(clien
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_diagnostics_carry_the_version_and_nothing_stale_follows_the_last_change(client: LanguageClient, project: Path) -> None:
-    path = project / "burst.py"
+async def test_diagnostics_carry_the_version_and_nothing_stale_follows_the_last_change(client: LanguageClient, demo_store: Path) -> None:
+    path = demo_store / "burst.py"
     uri = path.as_uri()
     text = 'out = scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]\n'
     await _open(client, path, text)
@@ -227,8 +219,8 @@ async def test_diagnostics_carry_the_version_and_nothing_stale_follows_the_last_
 
 @pytest.mark.asyncio(loop_scope="module")
 @pytest.mark.parametrize("position", [{"line": -1, "character": 0}, {"line": 0, "character": 2**31}, {"line": "one", "character": 0}])
-async def test_requests_with_invalid_parameters_get_an_error_response(client: LanguageClient, project: Path, position: dict) -> None:
-    uri = (project / "short.py").as_uri()
+async def test_requests_with_invalid_parameters_get_an_error_response(client: LanguageClient, demo_store: Path, position: dict) -> None:
+    uri = (demo_store / "short.py").as_uri()
     with attrs.validators.disabled():  # the client's own checks would refuse to send these
         params = types.HoverParams(text_document=types.TextDocumentIdentifier(uri=uri), position=types.Position(**position))
     with pytest.raises(JsonRpcException) as raised:
@@ -237,21 +229,21 @@ async def test_requests_with_invalid_parameters_get_an_error_response(client: La
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_a_document_over_the_size_limit_gets_one_diagnostic(client: LanguageClient, project: Path) -> None:
+async def test_a_document_over_the_size_limit_gets_one_diagnostic(client: LanguageClient, demo_store: Path) -> None:
     chain = 'out = scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]\n'
     big = chain * (5 * 1024 * 1024 // len(chain))  # about 5 MB: over the default limit of 4 MB
-    (diagnostic,) = await _open(client, project / "generated.py", big)
+    (diagnostic,) = await _open(client, demo_store / "generated.py", big)
     assert "limit" in diagnostic.message and "--max-file-size" in diagnostic.message
     assert diagnostic.range.start.line == 0
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_other_documents_are_answered_while_a_large_one_is_analysed(client: LanguageClient, project: Path) -> None:
-    small = project / "small.py"
+async def test_other_documents_are_answered_while_a_large_one_is_analysed(client: LanguageClient, demo_store: Path) -> None:
+    small = demo_store / "small.py"
     await _open(client, small, 'out = scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]\n')
     chain = 'def f{n}(scans):\n    return scans.loc[lambda d: d.weight_kg > 0.{n}].loc[lambda d: d.status == "lost"]\n'
     large = "".join(chain.format(n=n) for n in range(6000))  # well under the limit, slow to analyse
-    uri = (project / "large.py").as_uri()
+    uri = (demo_store / "large.py").as_uri()
     events: list[str] = []
     start = len(PUBLISHED)
 
@@ -274,8 +266,8 @@ async def test_other_documents_are_answered_while_a_large_one_is_analysed(client
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_never_matches_offers_each_suggested_value(client: LanguageClient, project: Path) -> None:
-    path = project / "sizes.py"
+async def test_never_matches_offers_each_suggested_value(client: LanguageClient, demo_store: Path) -> None:
+    path = demo_store / "sizes.py"
     uri = path.as_uri()
     text = 'def f(scans):\n    return scans.query("parcel_size == \'XXL\'").loc[lambda d: d["parcel_size"] != "XXL"]\n'
     found = await _open(client, path, text)
@@ -292,8 +284,8 @@ async def test_never_matches_offers_each_suggested_value(client: LanguageClient,
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_every_finding_can_be_kept_with_a_comment(client: LanguageClient, project: Path) -> None:
-    path = project / "kept.py"
+async def test_every_finding_can_be_kept_with_a_comment(client: LanguageClient, demo_store: Path) -> None:
+    path = demo_store / "kept.py"
     uri = path.as_uri()
     text = (DEMO / "pipeline.py").read_text()
     found = await _open(client, path, text)

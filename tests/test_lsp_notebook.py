@@ -5,7 +5,6 @@ quick fix as an edit of the one cell it changes."""
 from __future__ import annotations
 
 import asyncio
-import shutil
 import sys
 from pathlib import Path
 
@@ -14,6 +13,8 @@ import pytest_lsp
 from lsprotocol import types
 from pytest_lsp import ClientServerConfig, LanguageClient, client_capabilities
 
+from chainlint.rules import LEVELS
+
 DEMO = Path(__file__).parent.parent / "examples"
 TIMEOUT = 60
 READ = "import pandas as pd\nscans = pd.read_parquet('data/parcel_scans.parquet')\n%time rows = len(scans)"
@@ -21,20 +22,13 @@ CHAIN = "late = (\n    scans\n    .loc[lambda d: d.weight_kg > 0.5]\n    .loc[la
 PLANNED = "late = (\n    scans\n    .loc[lambda d: (d.weight_kg > 0.5) & (d.status == 'damaged')]\n)"
 
 
-@pytest.fixture(scope="module")
-def project(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    root = tmp_path_factory.mktemp("lsp-notebook")
-    shutil.copytree(DEMO / ".chainlint", root / ".chainlint")
-    return root
-
-
 @pytest_lsp.fixture(scope="module", config=ClientServerConfig(server_command=[sys.executable, "-m", "chainlint", "lsp"]))
-async def client(lsp_client: LanguageClient, project: Path):
+async def client(lsp_client: LanguageClient, demo_store: Path):
     capabilities = client_capabilities("visual-studio-code")
     # A notebook client says so (LSP 3.17 `notebookDocument.synchronization`).
     capabilities.notebook_document = types.NotebookDocumentClientCapabilities(
         synchronization=types.NotebookDocumentSyncClientCapabilities())
-    result = await lsp_client.initialize_session(types.InitializeParams(capabilities=capabilities, root_uri=project.as_uri()))
+    result = await lsp_client.initialize_session(types.InitializeParams(capabilities=capabilities, root_uri=demo_store.as_uri()))
     assert result.capabilities.notebook_document_sync is not None
     yield
     await lsp_client.shutdown_session()
@@ -57,8 +51,8 @@ async def _diagnostics(client: LanguageClient, uris: list[str]) -> dict[str, lis
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_notebook_diagnostics_and_quick_fix_per_cell(client: LanguageClient, project: Path) -> None:
-    notebook = project / "tour.ipynb"
+async def test_notebook_diagnostics_and_quick_fix_per_cell(client: LanguageClient, demo_store: Path) -> None:
+    notebook = demo_store / "tour.ipynb"
     cells = [(types.NotebookCellKind.Markup, "markdown", "# Damaged parcels"), (types.NotebookCellKind.Code, "python", READ),
              (types.NotebookCellKind.Code, "python", CHAIN)]
     uris = [_cell_uri(notebook, n) for n in range(len(cells))]
@@ -121,3 +115,20 @@ def _apply(text: str, edits: list[types.TextEdit]) -> str:
         end = starts[edit.range.end.line] + edit.range.end.character
         text = text[:start] + edit.new_text + text[end:]
     return text
+
+
+@pytest.mark.asyncio(loop_scope="module")
+async def test_a_cell_diagnostic_has_its_rule_s_sarif_level(client: LanguageClient, demo_store: Path) -> None:
+    """Cells take the rules' one severity table, as documents do (they once had their own,
+    where every rule but `unbound` was a warning)."""
+    notebook = demo_store / "levels.ipynb"
+    uri = _cell_uri(notebook, 0)
+    text = "# chainlint: profile=nosuch\nout = scans[scans.weight_kg > 1][scans.status == 'lost']\n"
+    client.notebook_document_did_open(types.DidOpenNotebookDocumentParams(
+        notebook_document=types.NotebookDocument(uri=notebook.as_uri(), notebook_type="jupyter-notebook", version=1,
+                                                 cells=[types.NotebookCell(kind=types.NotebookCellKind.Code, document=uri)]),
+        cell_text_documents=[types.TextDocumentItem(uri=uri, language_id="python", version=1, text=text)],
+    ))
+    (found,) = (await _diagnostics(client, [uri]))[uri]
+    assert found.code == "missing-profile" and LEVELS["missing-profile"] == "error"
+    assert found.severity == types.DiagnosticSeverity.Error

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import asyncio
-import shutil
 import sys
 from pathlib import Path
 
@@ -15,25 +14,18 @@ from pytest_lsp import ClientServerConfig, LanguageClient
 DEMO = Path(__file__).parent.parent / "examples"
 
 
-@pytest.fixture(scope="module")
-def project(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    root = tmp_path_factory.mktemp("lsp8")
-    shutil.copytree(DEMO / ".chainlint", root / ".chainlint")
-    return root
-
-
 @pytest_lsp.fixture(scope="module", config=ClientServerConfig(server_command=[sys.executable, "-m", "chainlint", "lsp"]))
-async def client(lsp_client: LanguageClient, project: Path):
+async def client(lsp_client: LanguageClient, demo_store: Path):
     capabilities = types.ClientCapabilities(general=types.GeneralClientCapabilities(position_encodings=[types.PositionEncodingKind.Utf8]))
-    result = await lsp_client.initialize_session(types.InitializeParams(capabilities=capabilities, root_uri=project.as_uri()))
+    result = await lsp_client.initialize_session(types.InitializeParams(capabilities=capabilities, root_uri=demo_store.as_uri()))
     assert result.capabilities.position_encoding == types.PositionEncodingKind.Utf8
     yield
     await lsp_client.shutdown_session()
 
 
 @pytest.mark.asyncio(loop_scope="module")
-async def test_positions_are_utf8_bytes_when_offered(client: LanguageClient, project: Path) -> None:
-    path = project / "wide.py"
+async def test_positions_are_utf8_bytes_when_offered(client: LanguageClient, demo_store: Path) -> None:
+    path = demo_store / "wide.py"
     text = 'x = "ü€"; out = scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]\n'
     client.text_document_did_open(types.DidOpenTextDocumentParams(
         text_document=types.TextDocumentItem(uri=path.as_uri(), language_id="python", version=1, text=text)))

@@ -139,3 +139,22 @@ def test_a_chain_the_data_cannot_run_fails_and_says_what_it_needs(project: Path,
     assert "cannot run this chain: the data has no column `gate`" in result.stderr
     assert "it needs columns distance, gate" in result.stderr
 
+
+
+def test_measure_binds_a_chain_as_explain_does(tmp_path: Path) -> None:
+    """`[tool.chainlint.bindings]` binds the chain for `measure` as for `explain`: two profiles
+    hold its columns, so only the configuration names the one it reads."""
+    flights().iloc[:20_000].to_parquet(tmp_path / "flights.parquet")
+    for name in ("flights", "flights_copy"):
+        made = CliRunner().invoke(main, ["profile", str(tmp_path / "flights.parquet"), "--name", name, "--store",
+                                         str(tmp_path / ".chainlint"), "--no-joint"])
+        assert made.exit_code == 0, made.output
+    (tmp_path / "pyproject.toml").write_text('[tool.chainlint.bindings]\nframe = "flights"\n')
+    (tmp_path / "m.py").write_text(PIPELINE.split("\n\n\n")[0] + "\n")
+    explained = CliRunner().invoke(main, ["explain", "--format", "json", str(tmp_path / "m.py")])
+    (chain,) = json.loads(explained.stdout)["chains"]
+    assert chain["binding"] == {"profile": "flights", "how": "config"}
+    measured = CliRunner().invoke(main, ["measure", str(tmp_path / "m.py"), "--data", str(tmp_path / "flights.parquet"),
+                                         "--repeat", "1", "--format", "json"])
+    assert measured.exit_code == 0, measured.output
+    assert "no profile" not in measured.stderr

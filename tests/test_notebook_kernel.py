@@ -115,6 +115,6 @@ def test_the_extension_loads_without_nbformat_in_the_core() -> None:
     import subprocess
     import sys
 
-    code = "import chainlint.cli, chainlint.analysis.run, sys; print(any(m in sys.modules for m in ('IPython', 'nbformat')))"
+    code = "import chainlint.cli, chainlint.engine.run, sys; print(any(m in sys.modules for m in ('IPython', 'nbformat')))"
     assert subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.strip() == "False"
     assert nbformat.__version__

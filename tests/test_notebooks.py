@@ -5,13 +5,11 @@ ships) judges the rewritten files; pandas judges that a rewritten cell keeps its
 from __future__ import annotations
 
 import json
-import shutil
 import sys
 from pathlib import Path
 
 import nbformat
 import pandas as pd
-import pytest
 from click.testing import CliRunner
 
 from chainlint.cli import main
@@ -43,13 +41,6 @@ def _notebook(*cells: dict) -> dict:
         "nbformat": 4,
         "nbformat_minor": 5,
     }
-
-
-@pytest.fixture
-def project(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
-    shutil.copytree(DEMO / ".chainlint", tmp_path / ".chainlint")
-    monkeypatch.chdir(tmp_path)
-    return tmp_path
 
 
 def _write(path: Path, document: dict, indent: int = 1) -> Path:
@@ -155,7 +146,7 @@ def test_discovery_finds_notebooks_but_not_checkpoints(project: Path) -> None:
     _demo_notebook(project / "nb" / "tour.ipynb") if (project / "nb").mkdir() is None else None
     (project / "nb" / ".ipynb_checkpoints").mkdir()
     _demo_notebook(project / "nb" / ".ipynb_checkpoints" / "tour-checkpoint.ipynb")
-    result = _check(".")
+    result = _check("nb")
     assert "2 chains in 1 file" in result.output
 
 
@@ -237,8 +228,9 @@ def test_fix_keeps_another_layout_byte_for_byte(project: Path) -> None:
 
 def test_fix_leaves_a_notebook_that_changed_on_disk(project: Path) -> None:
     path = _demo_notebook(project / "tour.ipynb")
-    from chainlint.analysis.check import Options, check
-    from chainlint.analysis.run import analyse_files
+    from chainlint.engine.check import check
+    from chainlint.engine.options import Options
+    from chainlint.engine.run import analyse_files
     from chainlint.rewrite.fixes import attach_fixes
 
     results = analyse_files([str(path)], jobs=1)

@@ -13,7 +13,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from chainlint.analysis.run import analyse_source
+from chainlint.engine.run import analyse_source
 from chainlint.estimate.cost import FrameShape, step_cost
 from chainlint.parse.source import text_source
 from chainlint.plan.chains import may_join, plan_segments, precedence

@@ -4,14 +4,13 @@ from __future__ import annotations
 
 import json
 import os
-import shutil
 import stat
 from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
 
-from chainlint.analysis.run import analyse_source
+from chainlint.engine.run import analyse_source
 from chainlint.cli import main
 from chainlint.parse.source import text_source
 from chainlint.rewrite.permute import RewriteError, apply_edits, chain_edit
@@ -111,13 +110,6 @@ def test_verify_refuses_a_change_outside_the_chain() -> None:
 
 # -- check --diff / --fix on a project with a profile ---------------------------------------
 DEMO = Path(__file__).parent.parent / "examples"
-
-
-@pytest.fixture
-def project(tmp_path: Path) -> Path:
-    shutil.copytree(DEMO / ".chainlint", tmp_path / ".chainlint")
-    shutil.copy(DEMO / "pipeline.py", tmp_path / "pipeline.py")
-    return tmp_path
 
 
 def _run(*args: str):

@@ -9,7 +9,7 @@ from pathlib import Path
 
 import pytest
 
-from chainlint.analysis.run import analyse_file, analyse_source
+from chainlint.engine.run import analyse_file, analyse_source
 from chainlint.model import Finding
 from chainlint.parse.source import text_source
 from chainlint.rewrite.fixes import attach_fixes

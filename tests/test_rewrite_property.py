@@ -25,7 +25,7 @@ import pandas as pd
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from chainlint.analysis.run import analyse_source
+from chainlint.engine.run import analyse_source
 from chainlint.model import ChainForm
 from chainlint.parse.source import text_source
 from chainlint.plan.chains import may_join, plan_segments, precedence

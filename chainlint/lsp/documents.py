@@ -20,9 +20,9 @@ from urllib.parse import unquote, urlparse
 
 from pygls.workspace import Workspace
 
-from chainlint.analysis.check import RULES, Options, options_from
-from chainlint.analysis.document import DocumentAnalyser, DocumentAnalysis
-from chainlint.config import ConfigError, load_config
+from chainlint.config import ConfigError
+from chainlint.engine.document import DocumentAnalyser, DocumentAnalysis
+from chainlint.engine.options import Options, load_options
 from chainlint.estimate.stores import LoadedStores
 
 logger = logging.getLogger("chainlint.lsp")
@@ -43,14 +43,14 @@ def document_path(uri: str) -> str:
 
 
 def options_for(path: str) -> Options:
-    """The options of the configuration that applies to a document (read again each time)."""
+    """The options of the configuration that applies to a document (read again each time);
+    report paths are relative to the document's folder."""
     folder = Path(path).parent
     try:
-        config = load_config(folder if folder.exists() else Path("."), set(RULES))
+        return load_options(folder if folder.exists() else Path("."), folder)
     except ConfigError as error:
         logger.warning("%s", error)
-        return Options()
-    return options_from(config)
+        return Options(root=folder)
 
 
 def _analyse(analyser: DocumentAnalyser, text: str) -> DocumentAnalysis:
@@ -64,8 +64,19 @@ class Documents:
         self.states: dict[str, DocumentState] = {}
         self.analysers: dict[str, DocumentAnalyser] = {}
         self.pending: dict[str, asyncio.Task[None]] = {}
-        self.executor = ThreadPoolExecutor(max_workers=2, thread_name_prefix="chainlint-analysis")
         self.stores = LoadedStores()  # the profile stores every document reads, loaded once per state
+        self.executor: ThreadPoolExecutor | None = None
+
+    def start(self, max_bytes: int) -> None:
+        """Start the analysis threads (the server does when it starts serving)."""
+        self.max_bytes = max_bytes
+        if self.executor is None:
+            self.executor = ThreadPoolExecutor(max_workers=2, thread_name_prefix="chainlint-analysis")
+
+    def _pool(self) -> ThreadPoolExecutor:
+        if self.executor is None:
+            raise RuntimeError("the analysis threads are not started: call Documents.start first")
+        return self.executor
 
     async def current(self, workspace: Workspace, uri: str) -> DocumentState | None:
         """The analysis of the document's latest text, or None (not open, or changed meanwhile)."""
@@ -79,7 +90,7 @@ class Documents:
         analyser = self.analysers.get(uri)
         if analyser is None:
             analyser = self.analysers[uri] = DocumentAnalyser(document_path(uri), self.max_bytes, self.stores)
-        analysis = await asyncio.get_running_loop().run_in_executor(self.executor, _analyse, analyser, text)
+        analysis = await asyncio.get_running_loop().run_in_executor(self._pool(), _analyse, analyser, text)
         latest = workspace.text_documents.get(uri)
         if latest is None or latest.version != version or latest.source != text:
             return None
@@ -92,7 +103,7 @@ class Documents:
 
     async def run(self, job: Callable[..., object], *args: object) -> object:
         """A job in the analysis threads (a fix is verified there, off the server's loop)."""
-        return await asyncio.get_running_loop().run_in_executor(self.executor, job, *args)
+        return await asyncio.get_running_loop().run_in_executor(self._pool(), job, *args)
 
     def schedule(self, uri: str, delay: float, then: Callable[[DocumentState], None], workspace: Workspace) -> None:
         """Analyse after `delay` (a newer change cancels the wait) and hand the state to `then`."""

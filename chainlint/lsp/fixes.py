@@ -17,13 +17,12 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import Any
 
-from chainlint.analysis.check import PlannedChain
-from chainlint.analysis.document import DocumentAnalysis
+from chainlint.engine.check import PlannedChain
+from chainlint.engine.document import DocumentAnalysis
 from chainlint.find.origins import KEEP_COMMENT, directive_near, keep_comment
 from chainlint.model import Chain, Edit, Finding, Span
 from chainlint.parse.source import SourceText
-from chainlint.rewrite.fixes import fix_in_text
-from chainlint.rewrite.permute import RewriteError
+from chainlint.engine.fixes import fix_finding
 
 
 @dataclass(frozen=True)
@@ -38,14 +37,10 @@ def fixes_for(analysis: DocumentAnalysis, finding: Finding) -> list[Fix]:
     """Every quick fix of one finding, best first."""
     planned = _chain_of(analysis.planned, finding)
     found: list[Fix] = []
-    if finding.rule == "reorder" and finding.groups is not None and planned is not None:
-        try:
-            edit = fix_in_text(analysis.source, planned.chain, finding.groups)
-        except RewriteError:
-            pass
-        else:
-            found.append(Fix("chainlint: put the filters in the planned order", finding.rule, (edit,), True))
-    if finding.rule == "never-matches" and finding.suggestions:
+    fixed = finding if planned is None else fix_finding(analysis.source, planned.chain, finding)
+    if fixed.fix is not None:
+        found.append(Fix("chainlint: put the filters in the planned order", finding.rule, (fixed.fix,), True))
+    if finding.suggestions:
         found.extend(_literal_fixes(analysis.source, finding))
     if planned is not None:
         keep = _keep_fix(analysis, planned.chain, finding.rule)

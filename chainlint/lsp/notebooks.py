@@ -16,17 +16,17 @@ from urllib.parse import unquote, urlparse
 
 from lsprotocol import types
 
-from chainlint.analysis.check import Options, PlannedChain, apply_rules, plan_results
-from chainlint.analysis.run import analyse_notebook
+from chainlint.engine.check import PlannedChain, check
+from chainlint.engine.options import Options
+from chainlint.engine.run import analyse_notebook
 from chainlint.estimate.stores import LoadedStores
+from chainlint.lsp.protocol import severity
 from chainlint.model import Edit, Finding, Span
 from chainlint.parse.notebooks import notebook_from_cells
 from chainlint.parse.source import SourceText
-from chainlint.rewrite.fixes import fix_in_text
-from chainlint.rewrite.permute import RewriteError
+from chainlint.engine.fixes import fix_finding
 
 logger = logging.getLogger("chainlint.lsp")
-SEVERITY = {"unbound": types.DiagnosticSeverity.Information}
 
 #: Every notebook type, its Python cells (`*` matches every notebook, as LSP 3.17 says).
 SYNC = types.NotebookDocumentSyncOptions(
@@ -72,8 +72,7 @@ def analyse_cells(notebook_uri: str, path: str, cells: Sequence[tuple[int, str, 
                   stores: LoadedStores | None = None) -> dict[str, CellState]:
     """Each code cell's state, by cell URI (every cell given has one, with or without findings)."""
     book = notebook_from_cells(path, [(index, None, text) for index, _, text in cells])
-    planned, _ = plan_results([analyse_notebook(book)], options, stores)
-    findings, _ = apply_rules(planned, options)
+    result = check([analyse_notebook(book)], options, stores=stores)
     uris = {index: uri for index, uri, _ in cells}
     states: dict[str, CellState] = {}
     for cell in book.cells:
@@ -83,8 +82,8 @@ def analyse_cells(notebook_uri: str, path: str, cells: Sequence[tuple[int, str, 
             book.source,
             cell.first_line,
             tuple(cell.text.splitlines(keepends=True)) or ("",),
-            tuple(p for p in planned if p.chain.span.line in inside),
-            tuple(f for f in findings if f.span.line in inside),
+            tuple(p for p in result.chains if p.chain.span.line in inside),
+            tuple(f for f in result.findings if f.span.line in inside),
         )
     return states
 
@@ -93,11 +92,8 @@ def cell_fix(state: CellState, finding: Finding) -> Edit | None:
     """The verified rewrite of the finding's chain, as an edit of the cell's own text (cell
     positions), or None when there is none."""
     chain = next((p.chain for p in state.planned if p.chain.span == finding.span), None)
-    if chain is None or finding.groups is None:
-        return None
-    try:
-        edit = fix_in_text(state.source, chain, finding.groups)
-    except RewriteError:
+    edit = None if chain is None else fix_finding(state.source, chain, finding).fix
+    if edit is None:
         return None
     span = state.local(edit.span)
     if span.line < 1 or span.end_line > len(state.lines):
@@ -152,7 +148,7 @@ def refresh(ls, uri: str, options_for: Callable[[str], Options]) -> None:  # typ
     for cell_uri, state in states.items():
         found = [
             types.Diagnostic(range=_range(ls, state.lines, state.local(f.span)), message=f.message, code=f.rule,
-                             severity=SEVERITY.get(f.rule, types.DiagnosticSeverity.Warning), source="chainlint")
+                             severity=severity(f.rule), source="chainlint")
             for f in state.findings
         ]
         ls.text_document_publish_diagnostics(types.PublishDiagnosticsParams(uri=cell_uri, diagnostics=found))
@@ -174,7 +170,7 @@ def code_actions(ls, params: types.CodeActionParams) -> list[types.CodeAction]: 
     actions = []
     for finding in state.findings:
         span = state.local(finding.span)
-        if finding.rule != "reorder" or (span.end_line, span.end_column) < start or end < (span.line, span.column):
+        if finding.groups is None or (span.end_line, span.end_column) < start or end < (span.line, span.column):
             continue
         edit = cell_fix(state, finding)
         if edit is None:
@@ -183,7 +179,7 @@ def code_actions(ls, params: types.CodeActionParams) -> list[types.CodeAction]: 
         actions.append(types.CodeAction(
             title="chainlint: put the filters in the planned order",
             kind=types.CodeActionKind.QuickFix,
-            diagnostics=[d for d in params.context.diagnostics if d.code == "reorder"],
+            diagnostics=[d for d in params.context.diagnostics if d.code == finding.rule],
             edit=types.WorkspaceEdit(changes={params.text_document.uri: [text_edit]}),
             is_preferred=True,
         ))

@@ -4,6 +4,7 @@ pygls reads each message into lsprotocol's types; when the parameters of a reque
 negative position, one past the 32-bit range LSP allows, a string for a number), it logs the
 failure and sends nothing, and the client waits for ever. JSON-RPC 2.0 asks for an error
 response, code -32602 "Invalid params": this protocol sends it, naming what did not read.
+Also the rules' severities in LSP terms.
 """
 
 from __future__ import annotations
@@ -11,8 +12,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
+from lsprotocol import types
 from pygls.exceptions import JsonRpcException, JsonRpcInvalidParams
 from pygls.protocol import LanguageServerProtocol
+
+from chainlint.rules import LEVELS
 
 
 @dataclass(frozen=True)
@@ -39,3 +43,16 @@ class ChainlintProtocol(LanguageServerProtocol):
             self._send_response(message.id, None, JsonRpcInvalidParams(message.reason).to_response_error())
             return
         super().handle_message(message)
+
+
+#: SARIF 2.1.0 levels as LSP 3.17 severities: the rules' one severity table, read both ways.
+_SEVERITY = {
+    "error": types.DiagnosticSeverity.Error,
+    "warning": types.DiagnosticSeverity.Warning,
+    "note": types.DiagnosticSeverity.Information,
+}
+
+
+def severity(rule: str) -> types.DiagnosticSeverity:
+    """The editor's severity of a rule's findings: its SARIF level (documents and notebook cells alike)."""
+    return _SEVERITY[LEVELS[rule]]

@@ -19,26 +19,19 @@ from collections.abc import Sequence
 from lsprotocol import types
 from pygls.lsp.server import LanguageServer
 
-from chainlint.analysis.check import PlannedChain
+from chainlint.engine.check import PlannedChain
 from chainlint.lsp import notebooks
 from chainlint.lsp.documents import Documents, DocumentState, options_for
 from chainlint.lsp.fixes import Fix, fixes_for
-from chainlint.lsp.protocol import ChainlintProtocol
+from chainlint.lsp.protocol import ChainlintProtocol, severity
 from chainlint.model import Span
 from chainlint.parse.source import DEFAULT_MAX_BYTES
-from chainlint.rules import LEVELS
 from chainlint.units import duration
 from chainlint.version import __version__
 
 DEBOUNCE_SECONDS = 0.025
 logger = logging.getLogger("chainlint.lsp")
 
-#: SARIF 2.1.0 levels as LSP 3.17 severities: the rules' one severity table, read both ways.
-SEVERITY = {
-    "error": types.DiagnosticSeverity.Error,
-    "warning": types.DiagnosticSeverity.Warning,
-    "note": types.DiagnosticSeverity.Information,
-}
 
 
 class ChainlintServer(LanguageServer):
@@ -97,7 +90,7 @@ def diagnostics(ls: LanguageServer, state: DocumentState, made: dict[tuple[objec
         if diagnostic is None:
             listed = list(lines) if listed is None else listed
             diagnostic = types.Diagnostic(range=_range(ls, listed, finding.span), message=finding.message,
-                                          severity=SEVERITY[LEVELS[finding.rule]], code=finding.rule, source="chainlint")
+                                          severity=severity(finding.rule), code=finding.rule, source="chainlint")
         made[key] = diagnostic
         out.append(diagnostic)
     return out
@@ -218,5 +211,5 @@ def main(max_bytes: int = DEFAULT_MAX_BYTES) -> None:
     # stderr is the editor's log: chainlint's own notes, and only pygls' warnings.
     logging.basicConfig(level=logging.WARNING, format="chainlint lsp: %(message)s")
     logger.setLevel(logging.INFO)
-    server.documents.max_bytes = max_bytes
+    server.documents.start(max_bytes)
     server.start_io()

@@ -33,7 +33,7 @@ class FileAnalysis:
     that changed on disk before it is rewritten).
 
     For a notebook, `cells` maps the analysed text's lines to code cells: the chains are
-    located in that text (the rewriter works on it) until `chainlint.analysis.locate` moves
+    located in that text (the rewriter works on it) until `chainlint.engine.locate` moves
     them into their cells; the errors are already located in cells.
     """
 

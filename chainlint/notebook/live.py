@@ -13,8 +13,8 @@ from typing import Any
 
 import pyarrow as pa
 
-from chainlint.analysis.check import PlannedChain
 from chainlint.bind.binding import Binding, BoundBy
+from chainlint.engine.check import PlannedChain
 from chainlint.estimate.selectivity import Estimator
 from chainlint.model import Chain, ChainlintError
 from chainlint.plan.chains import ChainPlan, plan_chain

@@ -18,8 +18,8 @@ import shlex
 from pathlib import Path
 from typing import Any
 
-from chainlint.analysis.run import analyse_source
-from chainlint.model import Chain, Edit
+from chainlint.engine.run import analyse_source
+from chainlint.model import Chain, Edit, Finding
 from chainlint.notebook.live import MagicError, measure_text, plan_on_frame, profile_into_store
 from chainlint.parse.notebooks import analysable
 from chainlint.parse.source import text_source
@@ -106,8 +106,8 @@ def cell_chains(cell: str) -> tuple[str, list[Chain]]:
 
 def plan_cell(shell: Any, line: str, cell: str) -> str:
     """The plan of every chain of the cell on the live frames; may replace the cell's text."""
-    from chainlint.rewrite.fixes import fix_in_text
-    from chainlint.rewrite.permute import RewriteError
+    from chainlint.engine.fixes import fix_finding
+    from chainlint.rules.reorder import RULE as REORDER
 
     options = _parse(_PARSER, line)
     masked, chains = cell_chains(cell)
@@ -128,10 +128,12 @@ def plan_cell(shell: Any, line: str, cell: str) -> str:
         if options.time:
             parts.append(measure_text(frame, item.plan, options.repeat))
         if not item.plan.as_written:
-            try:
-                edits.append(fix_in_text(source, chain, item.plan.groups))
-            except RewriteError as error:
-                parts.append(f"  the planned form cannot be written: {error}\n")
+            proposed = Finding(REORDER.name, source.path, chain.span, "", order=item.plan.order, groups=item.plan.groups)
+            fixed = fix_finding(source, chain, proposed)
+            if fixed.fix is None:
+                parts.append(f"  the planned form cannot be written: {fixed.fix_error}\n")
+            else:
+                edits.append(fixed.fix)
     if options.replace:
         if unplanned:
             parts.append("the cell was left as written: some chains were not planned\n")

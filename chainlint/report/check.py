@@ -13,7 +13,7 @@ from collections import Counter
 from pathlib import Path
 from typing import Any
 
-from chainlint.analysis.check import CheckResult
+from chainlint.engine.check import CheckResult, error_order
 from chainlint.model import Cell, FileProblem, Finding, OriginKind
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import command_flags, options_from_code
@@ -60,7 +60,7 @@ def check_json(result: CheckResult) -> str:
     document = {
         "findings": [finding_record(f) for f in result.findings],
         "suppressed": len(result.suppressed),
-        "errors": [error_record(e) for e in sorted(result.errors, key=lambda e: (e.path, e.line, e.column))],
+        "errors": [error_record(e) for e in sorted(result.errors, key=error_order)],
         "not_planned": unplanned_record(result),
     }
     return json.dumps(encodable(document), indent=2, ensure_ascii=False) + "\n"
@@ -122,7 +122,7 @@ def unplanned_record(result: CheckResult) -> dict[str, Any] | None:
     unbound = [c for c in result.chains if c.plan is None]
     if not unbound:
         return None
-    stores = sorted({shown_path(c.store) for c in unbound if c.store is not None})
+    stores = sorted({shown_path(c.store, result.root) for c in unbound if c.store is not None})
     where = stores[0] if len(stores) == 1 else f"{len(stores)} stores"
     count = f"{len(unbound)} chain{'s' if len(unbound) != 1 else ''}"
     if all(c.store is not None and not _listed(c.store) for c in unbound):
@@ -152,10 +152,10 @@ def _command(path: str, options: set[tuple[tuple[str, object], ...]]) -> str:
     return command
 
 
-def shown_path(folder: Path) -> str:
-    """A folder relative to the current one when it lies inside it."""
+def shown_path(folder: Path, root: Path) -> str:
+    """A folder relative to `root` when it lies inside it."""
     try:
-        return str(folder.relative_to(Path.cwd())) or "."
+        return str(folder.relative_to(root)) or "."
     except ValueError:
         return str(folder)
 

@@ -8,7 +8,7 @@ import re
 from collections.abc import Sequence
 from typing import Any
 
-from chainlint.analysis.check import PlannedChain
+from chainlint.engine.check import PlannedChain, error_order
 from chainlint.model import Cell, Chain, ChainForm, FileAnalysis, FileProblem, Step
 from chainlint.plan.chains import ChainPlan
 from chainlint.plan.totality import ANY, LATER, STAYS, Limit
@@ -57,7 +57,7 @@ def error_record(error: FileProblem) -> dict[str, Any]:
 
 
 def all_errors(results: Sequence[FileAnalysis], extra: Sequence[FileProblem] = ()) -> list[FileProblem]:
-    return sorted([e for r in results for e in r.errors] + list(extra), key=lambda e: (e.path, e.line, e.column))
+    return sorted([e for r in results for e in r.errors] + list(extra), key=error_order)
 
 
 def planned_record(item: PlannedChain) -> dict[str, Any]:
@@ -96,7 +96,7 @@ def planned_record(item: PlannedChain) -> dict[str, Any]:
 def explain_json(planned: Sequence[PlannedChain], errors: Sequence[FileProblem]) -> str:
     document = {
         "chains": [planned_record(item) for item in planned],
-        "errors": [error_record(e) for e in sorted(errors, key=lambda e: (e.path, e.line, e.column))],
+        "errors": [error_record(e) for e in sorted(errors, key=error_order)],
     }
     return json.dumps(encodable(document), indent=2, ensure_ascii=False, sort_keys=False) + "\n"
 

@@ -34,13 +34,14 @@ class FileFix:
 
 
 def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -> tuple[list[Finding], dict[str, FileFix]]:
-    """Findings with their `fix` (or `fix_error`), and the rewrite of each file concerned."""
+    """Findings with their `fix` (or `fix_error`), and the rewrite of each file concerned: every
+    finding that proposes an order, in the file read again (it must still be the text analysed)."""
     digests = {r.path: r.digest for r in results}
     # By the whole span: a chain may start where another one does (`s[a][b].f()[c][d]`).
     chains = {(c.path, c.span): c for r in results for c in r.chains}
     by_file: dict[str, list[Finding]] = defaultdict(list)
     for finding in findings:
-        if finding.rule == "reorder" and finding.groups is not None:
+        if finding.groups is not None:
             by_file[finding.path].append(finding)
     updated: dict[int, Finding] = {}
     files: dict[str, FileFix] = {}
@@ -61,34 +62,44 @@ def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -
             for finding in reorders:
                 updated[id(finding)] = replace(finding, fix_error=refusal)
             continue
-        prepared: list[tuple[Finding, Chain, Edit]] = []
-        for finding in reorders:
-            chain = chains[(path, finding.span)]
-            assert finding.groups is not None
+        assert source is not None
+        fixed, edits = fix_text(source, [(finding, chains[(path, finding.span)]) for finding in reorders])
+        updated.update((id(before), after) for before, after in zip(reorders, fixed))
+        if edits and notebook is not None:
             try:
-                prepared.append((finding, chain, plan_edit(source, chain, finding.groups)))
+                files[path] = FileFix(path, text_source(path, notebook.file_text), rewrite_cells(notebook, edits))
             except RewriteError as error:
-                updated[id(finding)] = replace(finding, fix_error=str(error))
-        prepared = _apart(prepared, updated)
-        # One verification of the whole file; only when it fails is each edit tried alone,
-        # to keep the good ones and say which chain could not be rewritten.
-        accepted = _verified(source, prepared)
-        if len(accepted) < len(prepared):
-            alone = [item for item in prepared if _verified(source, [item], updated)]
-            # Edits that pass alone must still pass together before the file is rewritten.
-            accepted = _verified(source, alone, updated)
-        if accepted and notebook is not None:
-            try:
-                files[path] = FileFix(path, text_source(path, notebook.file_text), rewrite_cells(notebook, [e for _, _, e in accepted]))
-            except RewriteError as error:
-                for finding, _, _ in accepted:
-                    updated[id(finding)] = replace(finding, fix_error=str(error))
-                continue
-        elif accepted:
-            files[path] = FileFix(path, source, apply_edits(source.text, [edit for _, _, edit in accepted]))
-        for finding, _, edit in accepted:
-            updated[id(finding)] = replace(finding, fix=edit)
+                for before, after in zip(reorders, fixed):
+                    if after.fix is not None:
+                        updated[id(before)] = replace(after, fix=None, fix_error=str(error))
+        elif edits:
+            files[path] = FileFix(path, source, apply_edits(source.text, edits))
     return [updated.get(id(f), f) for f in findings], files
+
+
+def fix_text(source: SourceText, reorders: Sequence[tuple[Finding, Chain]]) -> tuple[list[Finding], list[Edit]]:
+    """Each finding with its verified edit of `source` as `fix`, or why there is none as
+    `fix_error`; and the edits accepted, which pass verification together. The one way a fix is
+    made, for a file (`check --fix`, `--diff`) and for an editor's text (a quick fix)."""
+    updated: dict[int, Finding] = {}
+    prepared: list[tuple[Finding, Chain, Edit]] = []
+    for finding, chain in reorders:
+        assert finding.groups is not None
+        try:
+            prepared.append((finding, chain, plan_edit(source, chain, finding.groups)))
+        except RewriteError as error:
+            updated[id(finding)] = replace(finding, fix_error=str(error))
+    prepared = _apart(prepared, updated)
+    # One verification of the whole text; only when it fails is each edit tried alone, to keep
+    # the good ones and say which chain could not be rewritten.
+    accepted = _verified(source, prepared)
+    if len(accepted) < len(prepared):
+        alone = [item for item in prepared if _verified(source, [item], updated)]
+        # Edits that pass alone must still pass together.
+        accepted = _verified(source, alone, updated)
+    for finding, _, edit in accepted:
+        updated[id(finding)] = replace(finding, fix=edit)
+    return [updated.get(id(finding), finding) for finding, _ in reorders], [edit for _, _, edit in accepted]
 
 
 def _apart(items: list[tuple[Finding, Chain, Edit]], refusals: dict[int, Finding]) -> list[tuple[Finding, Chain, Edit]]:
@@ -103,14 +114,6 @@ def _apart(items: list[tuple[Finding, Chain, Edit]], refusals: dict[int, Finding
             refusals[id(item[0])] = replace(item[0], fix_error=(
                 f"overlaps the rewrite of the chain at line {holder[1].span.line}; run --fix again to rewrite it"))
     return kept
-
-
-def fix_in_text(source: SourceText, chain: Chain, groups: Sequence[Sequence[int]]) -> Edit:
-    """The verified edit for one chain of an in-memory text (an editor's buffer): `groups` of
-    steps, each run as one mask, in order."""
-    edit = plan_edit(source, chain, groups)
-    verify(source, apply_edits(source.text, [edit]), [(chain, groups)])
-    return edit
 
 
 def _verified(source: SourceText, items: list[tuple[Finding, Chain, Edit]],

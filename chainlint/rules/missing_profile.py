@@ -4,17 +4,22 @@ nothing while the run looks clean."""
 
 from __future__ import annotations
 
-from chainlint.bind.binding import Binding
-from chainlint.model import Chain, Finding
-
-NAME = "missing-profile"
-LEVEL = "error"
-SUMMARY = "a binding to a profile the store lacks"
-DESCRIPTION = "A `# chainlint: profile=NAME` comment or `[tool.chainlint.bindings]` names a profile that the profile store does not hold."
-HELP = "Profile the data under that name (`chainlint profile DATA --name NAME`), commit the profile, or correct the name or the store."
+from chainlint.model import Finding
+from chainlint.rules.base import Rule, Subject
 
 
-def check(chain: Chain, binding: Binding) -> list[Finding]:
+def check(subject: Subject) -> list[Finding]:
+    chain, binding = subject.chain, subject.binding
     if binding.missing is None:
         return []
-    return [Finding(NAME, chain.path, chain.span, f"chain on `{chain.frame}` is not checked: {binding.reason}")]
+    return [Finding(RULE.name, chain.path, chain.span, f"chain on `{chain.frame}` is not checked: {binding.reason}")]
+
+
+RULE = Rule(
+    name="missing-profile",
+    level="error",
+    summary="a binding to a profile the store lacks",
+    description="A `# chainlint: profile=NAME` comment or `[tool.chainlint.bindings]` names a profile that the profile store does not hold.",
+    help="Profile the data under that name (`chainlint profile DATA --name NAME`), commit the profile, or correct the name or the store.",
+    check=check,
+)

@@ -4,18 +4,9 @@ from __future__ import annotations
 
 import difflib
 
-from chainlint.estimate.selectivity import Estimator
 from chainlint.ir import And, Column, Compare, Literal, Member, Node, Not, Or
 from chainlint.model import Finding
-from chainlint.plan.chains import ChainPlan
-
-NAME = "never-matches"
-LEVEL = "warning"
-DESCRIPTION = 'An equality or membership literal that an exact profile of the data never saw: a typo, or data that changed.'
-HELP = (
-    'The profile lists every value the column holds at least `min_count` times. A literal not among them matches no row (or very few). The message suggests the closest known values.'
-)
-SUMMARY = "a literal the data never holds"
+from chainlint.rules.base import Rule, Subject
 
 
 def _tests(node: Node):  # type: ignore[no-untyped-def]
@@ -33,7 +24,10 @@ def _tests(node: Node):  # type: ignore[no-untyped-def]
                 yield node.operand.name, value.value
 
 
-def check(plan: ChainPlan, estimator: Estimator) -> list[Finding]:
+def check(subject: Subject) -> list[Finding]:
+    plan, estimator = subject.plan, subject.estimator
+    if plan is None or estimator is None:
+        return []
     findings = []
     min_count = estimator.profile.settings.min_count
     for step in plan.chain.steps:
@@ -56,6 +50,17 @@ def check(plan: ChainPlan, estimator: Estimator) -> list[Finding]:
                        f"The chain's order will be planned once this literal is fixed.")
             values = {str(v): v for v in stats.mcv}
             # A conjunct of one written mask is located by its own text, not the whole mask.
-            findings.append(Finding(NAME, plan.chain.path, step.conjunct or step.span, message, literal=value,
+            findings.append(Finding(RULE.name, plan.chain.path, step.conjunct or step.span, message, literal=value,
                                     suggestions=tuple(values[c] for c in close)))
     return findings
+
+
+RULE = Rule(
+    name="never-matches",
+    level="warning",
+    summary="a literal the data never holds",
+    description='An equality or membership literal that an exact profile of the data never saw: a typo, or data that changed.',
+    help='The profile lists every value the column holds at least `min_count` times. A literal not among them matches no row (or very few). The message suggests the closest known values.',
+    check=check,
+    holds_order=True,
+)

@@ -8,16 +8,9 @@ from datetime import UTC, datetime
 
 from chainlint.estimate.selectivity import Estimator
 from chainlint.evaluate.support import unevaluable
-from chainlint.model import Finding
 from chainlint.plan.chains import ChainPlan
-
-NAME = "stale-joint"
-LEVEL = "warning"
-SUMMARY = "joint counts made for an earlier version of the chain"
-DESCRIPTION = "The profile counted how this chain's filters combine, but the chain changed since: its joint counts no longer cover it."
-HELP = (
-    "Run `chainlint profile` again to count how the chain's filters combine now; until then it is planned under independence."
-)
+from chainlint.model import Finding
+from chainlint.rules.base import Rule, Subject
 
 
 def gap(plan: ChainPlan, estimator: Estimator, site: str) -> tuple[str, str] | None:
@@ -61,10 +54,29 @@ def _modified_after(path: str, created: str) -> bool:
         return False
 
 
-def check(plan: ChainPlan, estimator: Estimator, site: str) -> list[Finding]:
-    found = gap(plan, estimator, site)
-    if found is None or found[0] != "stale":
+def gap_of(subject: Subject, kind: str) -> str | None:
+    """Why the profile's joint counts miss the subject's chain, when they miss it as `kind`
+    ("stale" or "uncounted") says; else None."""
+    if subject.plan is None or subject.estimator is None:
+        return None
+    found = gap(subject.plan, subject.estimator, subject.site)
+    return found[1] if found is not None and found[0] == kind else None
+
+
+def check(subject: Subject) -> list[Finding]:
+    plan = subject.plan
+    if plan is None or gap_of(subject, "stale") is None:
         return []
     message = (f"profile `{plan.binding.profile}` counted these filters on `{plan.chain.frame}` together, but the chain "
                "changed since; it is planned under independence until the data is profiled again")
-    return [Finding(NAME, plan.chain.path, plan.chain.span, message)]
+    return [Finding(RULE.name, plan.chain.path, plan.chain.span, message)]
+
+
+RULE = Rule(
+    name="stale-joint",
+    level="warning",
+    summary="joint counts made for an earlier version of the chain",
+    description="The profile counted how this chain's filters combine, but the chain changed since: its joint counts no longer cover it.",
+    help="Run `chainlint profile` again to count how the chain's filters combine now; until then it is planned under independence.",
+    check=check,
+)

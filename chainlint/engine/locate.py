@@ -11,7 +11,7 @@ import bisect
 from collections.abc import Sequence
 from dataclasses import replace
 
-from chainlint.analysis.check import CheckResult, PlannedChain
+from chainlint.engine.check import CheckResult, PlannedChain
 from chainlint.model import Cell, CellLines, Chain, FileAnalysis, Finding, Span
 
 

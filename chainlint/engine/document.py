@@ -23,15 +23,16 @@ from functools import cached_property
 from pathlib import Path
 from typing import Any
 
-from chainlint.analysis.check import Options, PlannedChain, apply_rules, plan_results
+from chainlint.engine.check import PlannedChain, apply_rules, check, plan_results
+from chainlint.engine.options import Options
+from chainlint.engine.run import analyse_source
 from chainlint.model import FileAnalysis, FileProblem, Finding, Span
-from chainlint.analysis.run import analyse_source
 from chainlint.estimate.stores import LoadedStores
 from chainlint.find.bindings import ModuleBindings, Resolved
 from chainlint.find.chains import find_chains, module_names
 from chainlint.find.origins import READERS, profile_comment
 from chainlint.find.screen import Seams, find_seams
-from chainlint.analysis.reparse import Reparser
+from chainlint.engine.reparse import Reparser
 from chainlint.parse.source import DEFAULT_MAX_BYTES, SourceError, SourceText, size_error, text_source
 from chainlint.profile.store import find_store
 
@@ -69,9 +70,8 @@ def analyse_text(path: str, text: str, options: Options, max_bytes: int = DEFAUL
     if refused is not None:
         return refused
     result = analyse_source(source)
-    planned, _ = plan_results([result], options)
-    findings, _ = apply_rules(planned, options)
-    return DocumentAnalysis(source, ((0, tuple(planned), tuple(findings)),), result.errors)
+    checked = check([result], options)
+    return DocumentAnalysis(source, ((0, checked.chains, checked.findings),), result.errors)
 
 
 @dataclass(frozen=True)

@@ -8,6 +8,8 @@ from collections.abc import Iterable, Sequence
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import replace
 
+from chainlint.discover import discover
+from chainlint.engine.options import Options
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import find_seams
 from chainlint.model import Cell, CellLines, FileAnalysis, FileProblem
@@ -75,3 +77,11 @@ def analyse_files(paths: Sequence[str], jobs: int | None = None, max_bytes: int 
     with ProcessPoolExecutor(max_workers=workers, mp_context=context) as pool:
         chunk = max(1, len(work) // (workers * 8))
         return list(pool.map(_analyse_job, work, chunksize=chunk))
+
+
+def analyse_paths(paths: Sequence[str], options: Options) -> tuple[list[FileAnalysis], list[FileProblem]]:
+    """The files the paths name (discovery, with the options' excludes), analysed; and the
+    paths that could not be listed, as located errors."""
+    found = discover(paths, options.exclude)
+    results = analyse_files(found.files, jobs=options.jobs, max_bytes=options.max_bytes)
+    return results, [FileProblem(e.path, 1, 1, e.message) for e in found.errors]

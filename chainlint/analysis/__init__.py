@@ -1,1 +1,0 @@
-"""Analysis results (plain immutable data) and the driver that produces them per file."""
