@@ -1,36 +1,38 @@
 """One document analysed again and again as it is edited (an editor's buffer): only what changed.
 
 The text is cut into units: the module's top-level statements, with statements that share a
-line, and consecutive assignments to one name (which may form a statement run), kept together.
-What a unit's chains, plans and findings depend on, besides the settings (options, profile
-store, the module's imports), is its own text, the line above it (a `# chainlint:` comment
-there applies to a chain on its first line) and what the statements before it tell the finder
-about the frames they assign. That is the unit's key. A unit whose key was seen in the last
-analysis is reused, moved to its new line; the finder walks only the other units (its seams cut
-to their lines), and only their chains are planned and checked. The result equals
-`analyse_text` of the same text (a property test compares the two on random edits).
+line, and consecutive assignments to one name, kept together. Module-level code is analysed
+whole every time: a statement run steps over other statements, a name read anywhere in the
+module stops a step, a mask bound once applies further down; a unit's text says too little
+about any of these. A function or class definition is walked in its own scope, and its chains
+depend, besides the settings (options, profile store, the module's imports), only on its own
+text, the screen's seams over its lines, the line above when a chain starts on its first line,
+and what the module's names it mentions hold and were assigned from before it. A definition
+whose text was seen in the last analysis, and all of these with it, is reused, moved to its new
+line; the finder walks only the other units (its seams cut to their lines), and only their
+chains are planned and checked. The result equals `analyse_text` of the same text (a property
+test compares the two on random edits).
 """
 
 from __future__ import annotations
 
 import ast
 import bisect
-import hashlib
 import re
 import threading
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from functools import cached_property
+from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
 from chainlint.engine.check import PlannedChain, apply_rules, check, plan_results
 from chainlint.engine.options import Options
 from chainlint.engine.run import analyse_source
-from chainlint.model import FileAnalysis, FileProblem, Finding, Span
+from chainlint.model import Chain, FileAnalysis, FileProblem, Finding, FrameOrigin, Span
 from chainlint.estimate.stores import LoadedStores
 from chainlint.find.bindings import ModuleBindings, Resolved
 from chainlint.find.chains import find_chains, module_names
-from chainlint.find.origins import READERS, profile_comment
 from chainlint.find.screen import Seams, find_seams
 from chainlint.engine.reparse import Reparser
 from chainlint.parse.source import DEFAULT_MAX_BYTES, SourceError, SourceText, size_error, text_source
@@ -76,16 +78,19 @@ def analyse_text(path: str, text: str, options: Options, max_bytes: int = DEFAUL
 
 @dataclass(frozen=True)
 class _Unit:
-    """A unit's results, where it was, and what the module said before it about the names it
-    reads (a digest per name) and in its walked compound statements."""
+    """A definition's results where it was, and what its walk read from outside its own text:
+    the screen's seams over its lines (counted from its first line), the line above it when a
+    chain starts on its first line (a directive there applies), what the module's names it
+    mentions were assigned from before it, and, when the finder asked, what those names hold."""
 
     first: int
     planned: tuple[PlannedChain, ...]
     findings: tuple[Finding, ...]
-    depends: tuple[tuple[str, bytes | None], ...]
-    compound: bytes
-    identifiers: frozenset[str] | None = None
-    resolved: tuple[tuple[str, Resolved], ...] = ()
+    seams: tuple[tuple[int, int], ...] | None
+    above: str | None = None
+    identifiers: tuple[str, ...] = ()
+    origins: tuple[FrameOrigin | None, ...] = ()
+    resolved: tuple[tuple[str, Resolved], ...] | None = None
 
 
 class _Asking(ModuleBindings):
@@ -98,14 +103,29 @@ class _Asking(ModuleBindings):
         return super().resolve(dotted, at)
 
 
-def _resolved(bindings: ModuleBindings, identifiers: frozenset[str]) -> tuple[tuple[str, Resolved], ...]:
+def _resolved(bindings: ModuleBindings, identifiers: tuple[str, ...]) -> tuple[tuple[str, Resolved], ...]:
     """What each module-level name among `identifiers` holds (a free name in a filter may be
     one of them, or be defined in terms of them)."""
     module = bindings.scope(None).bindings.keys()
-    return tuple((name, bindings.resolve(name, None)) for name in sorted(identifiers & module))
+    return tuple((name, bindings.resolve(name, None)) for name in identifiers if name in module)
 
 
 Key = tuple[str, int]
+
+
+@dataclass
+class _Group:
+    """One top-level unit of this text: its lines and statements; for a definition, its key,
+    the results it may reuse, and what the module's names it mentions were assigned from as
+    the finder passed it."""
+
+    first: int
+    last: int
+    statements: list[ast.stmt]
+    key: Key | None = None
+    reused: _Unit | None = None
+    identifiers: tuple[str, ...] = ()
+    origins: tuple[FrameOrigin | None, ...] = ()
 
 
 class DocumentAnalyser:
@@ -136,92 +156,118 @@ class DocumentAnalyser:
         try:
             tree = self._parser.parse(source)
         except SourceError as error:
-            return DocumentAnalysis(source, errors=(FileProblem(self.path, error.line, error.column, error.message),))
+            return self._failed(error.line, error.column, error.message, source)
+        groups = [_Group(first, last, statements) for first, last, statements in _groups(tree)]
+        self._parser.settle([s for group in groups if not _definition(group.statements) for s in group.statements])
         store = (options.store or find_store(Path(self.path))).resolve()
         setting = (options, store, self._stores.load(store), module_names(tree), _imports(source, tree))
         if self._setting is None or any(a is not b and a != b for a, b in zip(setting, self._setting)):
             self._units = {}
             self._setting = setting
-        units, stale = self._reusable(source, tree, seams)
-        fresh: dict[int, _Unit] = {}
-        if stale:
-            self._parser.settle([statement for _, _, statements, _ in stale for statement in statements])
-            asking = _Asking(tree)
-            try:
-                chains = find_chains(source, tree, seams.within([(first, last) for first, last, _, _ in stale]), asking)
-            except SourceError as error:
-                return DocumentAnalysis(source, errors=(FileProblem(self.path, error.line, error.column, error.message),))
-            except RecursionError:
-                return DocumentAnalysis(source, errors=(FileProblem(self.path, 1, 1, "nesting too deep to analyse"),))
-            planned, _ = plan_results([FileAnalysis(self.path, chains=tuple(chains))], options, self._stores)
-            findings, _ = apply_rules(planned, options)
-            firsts = [first for first, _, _, _ in stale]
-            chains_of: dict[int, list[PlannedChain]] = {first: [] for first in firsts}
-            findings_of: dict[int, list[Finding]] = {first: [] for first in firsts}
-            for item in planned:
-                chains_of[firsts[bisect.bisect_right(firsts, item.chain.span.line) - 1]].append(item)
-            for finding in findings:
-                findings_of[firsts[bisect.bisect_right(firsts, finding.span.line) - 1]].append(finding)
-            for first, last, statements, (names, compound) in stale:
-                read = _names_read(source, first, last, statements, chains_of[first])
-                depends = tuple((name, names.get(name)) for name in read)
-                unit = _Unit(first, tuple(chains_of[first]), tuple(findings_of[first]), depends, compound)
-                if asking.asked and chains_of[first]:
-                    identifiers = frozenset(_IDENTIFIER.findall("".join(source.lines[first - 1 : last])))
-                    unit = replace(unit, identifiers=identifiers, resolved=_resolved(asking, identifiers))
-                fresh[first] = unit
+        asking = _Asking(tree)
+        self._reusable(source, groups, seams, asking)
+        asking.asked = False
+        try:
+            chains = self._find(source, tree, seams, groups, asking)
+        except SourceError as error:
+            return self._failed(error.line, error.column, error.message, source)
+        except RecursionError:
+            return self._failed(1, 1, "nesting too deep to analyse", source)
+        planned, _ = plan_results([FileAnalysis(self.path, chains=tuple(chains))], options, self._stores)
+        findings, _ = apply_rules(planned, options)
+        fresh = [g.first for g in groups if g.reused is None]
+        chains_of: dict[int, list[PlannedChain]] = {first: [] for first in fresh}
+        findings_of: dict[int, list[Finding]] = {first: [] for first in fresh}
+        for item in planned:
+            chains_of[fresh[bisect.bisect_right(fresh, item.chain.span.line) - 1]].append(item)
+        for finding in findings:
+            findings_of[fresh[bisect.bisect_right(fresh, finding.span.line) - 1]].append(finding)
         parts = []
         kept: dict[Key, _Unit] = {}
-        for first, _, key, reused in units:
-            unit = fresh[first] if reused is None else reused
-            kept[key] = unit  # as analysed: each later analysis moves it from there
-            if unit.planned or unit.findings:
-                parts.append((first - unit.first, unit.planned, unit.findings))
+        for group in groups:  # in the order of the text, as a whole analysis lists its chains
+            unit = group.reused
+            if unit is None:
+                planned_here, found_here = chains_of[group.first], findings_of[group.first]
+                if planned_here or found_here:
+                    parts.append((0, tuple(planned_here), tuple(found_here)))
+                if group.key is not None:
+                    unit = self._unit(source, group, seams, planned_here, found_here, asking)
+            elif unit.planned or unit.findings:
+                parts.append((group.first - unit.first, unit.planned, unit.findings))
+            if unit is not None and group.key is not None:
+                kept[group.key] = unit  # as analysed: each later analysis moves it from there
         self._units = kept
-        return DocumentAnalysis(source, tuple(parts), statements=tuple((first, last) for first, last, _, _ in units))
+        return DocumentAnalysis(source, tuple(parts), statements=tuple((g.first, g.last) for g in groups))
 
-    def _reusable(self, source: SourceText, tree: ast.Module, seams: Seams):  # type: ignore[no-untyped-def]
-        """Every unit as (first line, last line, key, reusable result or None), and the units to analyse
-        as (first line, last line, statements, what the module said before them).
+    def _failed(self, line: int, column: int, message: str, source: SourceText) -> DocumentAnalysis:
+        return DocumentAnalysis(source, errors=(FileProblem(self.path, line, column, message),))
 
-        The module's word on a name is a digest of the assignments to it so far (what the finder
-        records about a frame or a path); a compound statement the finder walks (a seam meets
-        it, perhaps one that starts in the next unit) may assign anything, so it is walked
-        every time and its text counts for every later unit.
-        """
-        units = []
-        stale = []
-        names: dict[str, bytes] = {}
-        compound = b""
+    def _reusable(self, source: SourceText, groups: list[_Group], seams: Seams, bindings: ModuleBindings) -> None:
+        """Key every definition by its text (identical ones told apart by their rank), and find
+        the results it may reuse: same text, same seams, the same line above where that counts,
+        and the same values of the module's names it mentions."""
         seen: dict[str, int] = {}
         starts, text = source.line_starts, source.text
-        bindings: ModuleBindings | None = None
-        for first, last, statements in _groups(tree):
-            begin = starts[first - 2] if first > 1 else 0
-            end = starts[last] if last < len(starts) else len(text)
-            content = text[begin:end]  # with the line above: a `# chainlint:` comment there counts
-            seen[content] = seen.get(content, -1) + 1  # identical units are told apart by their rank
-            key = (content, seen[content])
-            walks = seams.meets(first, last)
-            always = walks and any(isinstance(s, _COMPOUND) for s in statements)
-            unit = self._units.get(key)
-            if unit is not None and unit.identifiers is not None:
-                bindings = bindings or ModuleBindings(tree)
-                if _resolved(bindings, unit.identifiers) != unit.resolved:
-                    unit = None
-            if always or unit is None or unit.compound != compound or any(names.get(n) != d for n, d in unit.depends):
-                unit = None
-                stale.append((first, last, statements, (dict(names), compound)))
-            units.append((first, last, key, unit))
-            for statement in statements:
-                if isinstance(statement, _COMPOUND):
-                    if walks:
-                        compound = _digest(compound, _text(source, statement))
-                    continue
-                told = _assigns(source, statement, names)
-                if told is not None:
-                    names[told[0]] = _digest(names.get(told[0], b""), told[1])
-        return units, stale
+        for group in groups:
+            if not _definition(group.statements):
+                continue
+            end = starts[group.last] if group.last < len(starts) else len(text)
+            content = text[starts[group.first - 1] : end]
+            seen[content] = seen.get(content, -1) + 1
+            group.key = (content, seen[content])
+            unit = self._units.get(group.key)
+            if unit is None:
+                group.identifiers = tuple(sorted(set(_IDENTIFIER.findall(content))))
+                continue
+            group.identifiers = unit.identifiers
+            above = source.lines[group.first - 2] if group.first > 1 else ""
+            if (unit.seams == seams.relative(group.first, group.last) and unit.above in (None, above)
+                    and (unit.resolved is None or _resolved(bindings, unit.identifiers) == unit.resolved)):
+                group.reused = unit
+
+    def _find(self, source: SourceText, tree: ast.Module, seams: Seams, groups: list[_Group], asking: _Asking) -> list[Chain]:
+        """The chains of every unit not reused, walking nothing else. What the module's names
+        were assigned from before a definition is known once the finder has passed it: a
+        definition whose names now come from elsewhere is walked in a second pass."""
+        by_statement = {id(g.statements[0]): g for g in groups if g.key is not None}
+
+        def visit(statement: ast.stmt, assigned: Mapping[str, FrameOrigin]) -> None:
+            group = by_statement.get(id(statement))
+            if group is not None:
+                group.origins = tuple(assigned.get(name) for name in group.identifiers)
+
+        walked = [g for g in groups if g.reused is None]
+        self._parser.settle([s for group in walked for s in group.statements])
+        chains = find_chains(source, tree, seams.within([(g.first, g.last) for g in walked]), asking, visit=visit)
+        moved = [g for g in groups if g.reused is not None and g.reused.origins != g.origins]
+        if moved:
+            for group in moved:
+                group.reused = None
+            self._parser.settle([s for group in moved for s in group.statements])
+            chains += find_chains(source, tree, seams.within([(g.first, g.last) for g in moved]), asking)
+        return chains
+
+    def _unit(self, source: SourceText, group: _Group, seams: Seams, planned: list[PlannedChain],
+              findings: list[Finding], asking: _Asking) -> _Unit | None:
+        """A definition's results as kept for the next analyses, or None when they may not be
+        reused: a seam in its decorators, default values or bases (their chains read the
+        module's masks)."""
+        statement = group.statements[0]
+        if isinstance(statement, ast.ClassDef):
+            header = [*statement.decorator_list, *statement.bases, *(k.value for k in statement.keywords)]
+        else:
+            arguments = statement.args  # type: ignore[attr-defined]
+            header = [*statement.decorator_list, *arguments.defaults, *(d for d in arguments.kw_defaults if d is not None)]
+        if any(seams.meets(node.lineno, node.end_lineno or node.lineno) for node in header):
+            return None
+        relative = seams.relative(group.first, group.last)
+        if not planned and not findings:
+            return _Unit(group.first, (), (), relative)
+        above = source.lines[group.first - 2] if group.first > 1 else ""
+        on_first = any(p.chain.span.line == group.first for p in planned)
+        resolved = _resolved(asking, group.identifiers) if asking.asked else None
+        return _Unit(group.first, tuple(planned), tuple(findings), relative, above if on_first else None,
+                     group.identifiers, group.origins, resolved)
 
 
 def _size_refusal(source: SourceText, max_bytes: int) -> DocumentAnalysis | None:
@@ -244,17 +290,9 @@ def _groups(tree: ast.Module) -> list[tuple[int, int, list[ast.stmt]]]:
     return groups
 
 
-def _names_read(source: SourceText, first: int, last: int, statements: list[ast.stmt],
-                planned: list[PlannedChain]) -> list[str]:
-    """The module-level names a unit's results may depend on: the frames its chains start
-    from, and, when it calls a reader, every name it reads (a path constant)."""
-    if not planned:
-        return []  # no chain: nothing before it can give it one
-    names = {p.chain.origin.name for p in planned if p.chain.origin is not None}
-    text = "".join(source.lines[first - 1 : last])
-    if any(reader in text for reader in READERS):
-        names.update(node.id for statement in statements for node in ast.walk(statement) if isinstance(node, ast.Name))
-    return sorted(names)
+def _definition(statements: list[ast.stmt]) -> bool:
+    """Whether a unit is one function or class definition: the units whose results are reused."""
+    return len(statements) == 1 and isinstance(statements[0], (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef))
 
 
 def _imports(source: SourceText, tree: ast.Module) -> tuple[str, ...]:
@@ -264,10 +302,6 @@ def _imports(source: SourceText, tree: ast.Module) -> tuple[str, ...]:
         nodes = ast.walk(statement) if isinstance(statement, _COMPOUND) else (statement,)
         found.extend(_text(source, node) for node in nodes if isinstance(node, (ast.Import, ast.ImportFrom)))
     return tuple(found)
-
-
-def _digest(before: bytes, text: str) -> bytes:
-    return hashlib.blake2b(before + text.encode("utf-8", "surrogatepass"), digest_size=16).digest()
 
 
 def _text(source: SourceText, statement: ast.stmt) -> str:
@@ -283,24 +317,10 @@ def _same_target(before: ast.stmt, statement: ast.stmt) -> bool:
     return target(before) is not None and target(before) == target(statement)
 
 
-def _assigns(source: SourceText, statement: ast.stmt, names: dict[str, bytes]) -> tuple[str, str] | None:
-    """(name, what the finder learns) for a top-level `name = ...`: from a string or a reader
-    call, the statement's text and what the names it reads stood for (a path constant);
-    otherwise only the `# chainlint: profile=` comments on its lines (the finder records an
-    assigned frame and such a comment, nothing else)."""
-    if not (isinstance(statement, ast.Assign) and len(statement.targets) == 1 and isinstance(statement.targets[0], ast.Name)):
-        return None
-    value = statement.value
-    read = isinstance(value, ast.Call) and isinstance(value.func, ast.Attribute) and value.func.attr in READERS
-    if read or (isinstance(value, ast.Constant) and isinstance(value.value, str)):
-        read = sorted({n.id for n in ast.walk(value) if isinstance(n, ast.Name)})
-        return statement.targets[0].id, "text:" + _text(source, statement) + repr([names.get(n) for n in read])
-    lines = source.lines[statement.lineno - 1 : statement.end_lineno]
-    return statement.targets[0].id, repr([profile_comment(line) for line in lines])
-
-
 _IDENTIFIER = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 _COMPOUND = (ast.If, ast.For, ast.AsyncFor, ast.While, ast.With, ast.AsyncWith, ast.Try, ast.TryStar, ast.Match)
+
+
 def _span(span: Span | None, delta: int) -> Span | None:
     return None if span is None else Span(span.line + delta, span.column, span.end_line + delta, span.end_column)
 

@@ -8,9 +8,10 @@ meet a seam of the textual screen are walked; the screen proves the others hold 
 from __future__ import annotations
 
 import ast
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, replace
 
-from chainlint.model import Barrier, BarrierKind, Chain, ChainForm, Span, Step, StepKind
+from chainlint.model import Barrier, BarrierKind, Chain, ChainForm, FrameOrigin, Span, Step, StepKind
 from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
 from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
@@ -22,13 +23,20 @@ from chainlint.find.steps import StepContext, build_step, selected_columns
 from chainlint.parse.source import SourceText
 
 
+#: Called with each top-level statement, before the finder walks it, and what the module's
+#: names were assigned from so far (read it then: it changes as the walk goes on).
+Visit = Callable[[ast.stmt, Mapping[str, FrameOrigin]], None]
+
+
 def find_chains(source: SourceText, tree: ast.Module, seams: Seams, bindings: ModuleBindings | None = None,
-                least: int = 2) -> list[Chain]:
+                least: int = 2, visit: Visit | None = None) -> list[Chain]:
     """All chains of the module, in source order (`bindings`: the module's, when the caller
     wants to see what the finder asks of them); `least`: the fewest steps of a method chain
-    (1 for the rewriter, to find a chain fused into one mask again)."""
+    (1 for the rewriter, to find a chain fused into one mask again); `visit`: for a caller that
+    reuses chains found in a function before (what the function would have seen)."""
     finder = _Finder(source, seams, module_names(tree), bindings or ModuleBindings(tree))
     finder.least = least
+    finder.visit, finder.top = visit, tree.body
     finder.block(tree.body)
     return sorted(finder.chains, key=lambda c: (c.span.line, c.span.column))
 
@@ -94,6 +102,8 @@ class _Finder:
         self.absorbed: set[int] = set()
         self.origins = Origins(names.pandas, source.lines, bindings, lambda: self.scope)
         self.positions = Positions(source)
+        self.visit: Visit | None = None
+        self.top: list[ast.stmt] = []
 
     # -- walking --------------------------------------------------------------------------
     def block(self, statements: list[ast.stmt]) -> None:
@@ -102,6 +112,8 @@ class _Finder:
         self.block_masks = self.mask_table(statements)
         runs = self.runs(statements)
         for index, statement in enumerate(statements):
+            if self.visit is not None and statements is self.top:
+                self.visit(statement, self.origins.scopes[0][1])
             self.masks = self.block_masks[index]
             if index in runs:
                 self.chains.append(self.statement_run(runs[index]))

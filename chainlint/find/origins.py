@@ -14,6 +14,7 @@ from typing import TypeVar
 
 from chainlint.model import FrameOrigin, OriginKind
 from chainlint.find.bindings import VALUE, ModuleBindings
+from chainlint.find.scopes import parameters
 
 PROFILE_COMMENT = re.compile(r"#\s*chainlint:\s*profile\s*=\s*([A-Za-z0-9][A-Za-z0-9_.\-]*)")
 READERS = frozenset({"read_csv", "read_parquet", "read_feather", "read_json"})
@@ -78,8 +79,9 @@ def read_options(call: ast.expr) -> tuple[tuple[str, object], ...]:
 
 class Origins:
     """What each name of the scopes being walked was last assigned from, from the module
-    inward; lookups fall back outward as Python's closures do. A function's parameters come
-    from the module's scope table, which the constant resolver reads too."""
+    inward; lookups fall back outward as Python's closures do. A function's parameters are read
+    as the module's scope table reads them (`scopes.parameters`), without building the table:
+    an editor that walks one function again does not collect every scope of the module."""
 
     def __init__(
         self, pandas: frozenset[str], lines: tuple[str, ...], bindings: ModuleBindings, where: Callable[[], ast.AST | None],
@@ -142,6 +144,6 @@ class Origins:
         for function, assigned in reversed(self.scopes):
             if name in assigned:
                 return assigned[name]
-            if function is not None and name in self.bindings.scope(function).parameters:
+            if function is not None and any(p.arg == name for p in parameters(function.args)):  # type: ignore[attr-defined]
                 return FrameOrigin(name, OriginKind.PARAMETER, None, None, None)
         return FrameOrigin(name, OriginKind.UNKNOWN, None, None, None)

@@ -58,6 +58,12 @@ class ScopeTable:
         return scopes.get(id(node), scopes[id(self.tree)]) if node is not None else scopes[id(self.tree)]
 
 
+def parameters(arguments: ast.arguments) -> list[ast.arg]:
+    """A function's parameters as a scope records them: those a call fills by position or
+    name (`*args` and `**kwargs` are bindings of their own)."""
+    return arguments.posonlyargs + arguments.args + arguments.kwonlyargs
+
+
 def _written_from_inside(bindings: ScopeTable, inner: Scope, name: str) -> None:
     """A nested function's `global`/`nonlocal` write rebinds the name where it lives."""
     if name in inner.declared_global:
@@ -174,7 +180,7 @@ class _Collector:
     def function(self, node: ast.AST, arguments: ast.arguments, body: list[ast.stmt] | ast.expr) -> None:
         scope = self.nested(node, "function")
         positional = arguments.posonlyargs + arguments.args
-        for argument in positional + arguments.kwonlyargs:
+        for argument in parameters(arguments):
             scope.parameters[argument.arg] = argument
         for argument, default in zip(positional[len(positional) - len(arguments.defaults):], arguments.defaults):
             scope.defaults[argument.arg] = default

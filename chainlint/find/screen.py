@@ -100,6 +100,18 @@ class Seams:
                 index += 1
         return Seams(spans)
 
+    def relative(self, first: int, last: int) -> tuple[tuple[int, int], ...] | None:
+        """The seams within lines first..last, counted from `first` (None: look everywhere): the
+        same for two places of one text when the screen sees them alike."""
+        if self._starts is None:
+            return None
+        spans = []
+        index = bisect.bisect_left(self._ends, first)
+        while index < len(self._starts) and self._starts[index] <= last:
+            spans.append((max(self._starts[index], first) - first, min(self._ends[index], last) - first))
+            index += 1
+        return tuple(spans)
+
     def meets(self, first_line: int, last_line: int) -> bool:
         """Whether any seam lies within lines first_line..last_line."""
         if self._starts is None:
