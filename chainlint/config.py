@@ -1,7 +1,7 @@
 """Configuration: `[tool.chainlint]` in pyproject.toml, or the top level of chainlint.toml.
 
-The nearest file upward from the first path analysed is used (a `chainlint.toml` wins over a
-`pyproject.toml` in the same folder). Command-line options override it; `chainlint config`
+The nearest file upward from the first path analysed, up to its project's root, is used (a
+`chainlint.toml` wins over a `pyproject.toml` in the same folder). Command-line options override it; `chainlint config`
 prints every effective value and where it came from. Unknown keys are errors naming the key
 and the file, with the closest known key suggested.
 """
@@ -19,6 +19,7 @@ from pathlib import Path
 from typing import Any
 
 from chainlint.discover import pattern_problem
+from chainlint.discover.upward import folders_upward
 from chainlint.model import ChainlintError
 
 
@@ -45,7 +46,8 @@ _KEYS = {f.name for f in fields(Config)} - {"source", "origins"}
 
 
 def find_config(start: Path) -> tuple[Path, dict[str, Any]] | None:
-    """The nearest configuration file upward from `start`, with its chainlint table."""
+    """The nearest configuration file upward from `start` within its project (up to the project
+    root the store is found in: `chainlint.discover.upward`), with its chainlint table."""
     try:
         folder = start.resolve()
     except (OSError, RuntimeError):  # a symbolic link loop: look upward from where it lies
@@ -53,7 +55,7 @@ def find_config(start: Path) -> tuple[Path, dict[str, Any]] | None:
     # os.path's tests answer False where this user may not look; Path's raise PermissionError.
     if not os.path.isdir(folder):
         folder = folder.parent
-    for candidate in (folder, *folder.parents):
+    for candidate in folders_upward(folder):
         dedicated = candidate / "chainlint.toml"
         if os.path.isfile(dedicated):
             return dedicated, _read(dedicated)

@@ -15,6 +15,7 @@ import pytest
 from click.testing import CliRunner
 
 from chainlint.cli import main
+from chainlint.config import find_config
 from chainlint.profile import csv_reader
 from chainlint.profile.columns import ColumnProfiler
 from chainlint.profile.entries import column_entry
@@ -277,6 +278,32 @@ def test_store_is_found_beside_the_project(tmp_path: Path) -> None:
     assert find_store(tmp_path / "src" / "pkg") == (tmp_path / ".chainlint").resolve()
     (tmp_path / "src" / ".chainlint").mkdir()
     assert find_store(tmp_path / "src" / "pkg") == (tmp_path / "src" / ".chainlint").resolve()
+
+
+def test_a_store_above_the_project_root_is_not_the_projects(tmp_path: Path) -> None:
+    # The climb stops at the first folder holding a project marker: a stray store further up
+    # (in a parent of many projects) is never found for them.
+    (tmp_path / ".chainlint").mkdir()
+    for marker in ("pyproject.toml", "chainlint.toml", ".git"):
+        project = tmp_path / marker.replace(".", "_")
+        (project / "src").mkdir(parents=True)
+        (project / marker).write_text("")
+        assert find_store(project / "src") == project / ".chainlint"
+    (tmp_path / "chainlint.toml").write_text("min_gain = 9\n")   # likewise a configuration
+    assert find_config(tmp_path / "pyproject_toml" / "src") is None
+    assert find_store(tmp_path / "elsewhere" / "src") == tmp_path / ".chainlint"
+
+
+def test_the_search_never_enters_a_folder_every_user_may_write(tmp_path: Path) -> None:
+    shared = tmp_path / "shared"   # as /tmp is: anyone may create a store or a configuration there
+    (shared / ".chainlint").mkdir(parents=True)
+    (shared / "chainlint.toml").write_text("min_gain = 9\n")
+    shared.chmod(0o1777)
+    (shared / "x" / "src").mkdir(parents=True)
+    assert find_store(shared / "x" / "src") == shared / "x" / "src" / ".chainlint"
+    assert find_config(shared / "x" / "src") is None
+    assert find_store(shared) == shared / ".chainlint"     # named as the start, it is the user's choice
+    assert find_config(shared) is not None
 
 
 @pytest.mark.parametrize("name", ["../escape", "", "a/b", ".hidden"])

@@ -13,6 +13,7 @@ import secrets
 from pathlib import Path
 from typing import Any
 
+from chainlint.discover.upward import STORE_FOLDER, folders_upward, is_project_root
 from chainlint.model import ChainlintError
 from chainlint.profile.documents import (
     PROFILE_BYTES,
@@ -26,7 +27,6 @@ from chainlint.profile.format import ProfileError, dumps
 from chainlint.profile.view import Profile
 from chainlint.writer import WriteError, write_file
 
-STORE_FOLDER = ".chainlint"
 _NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,199}")
 
 
@@ -35,22 +35,23 @@ class StoreError(ChainlintError):
 
 
 def find_store(start: str | os.PathLike[str] = ".") -> Path:
-    """The nearest `.chainlint/` upward, else `.chainlint/` beside the nearest pyproject.toml,
-    else at the root of the enclosing repository (the folder holding `.git`), else in the start
-    folder: so that every file of a project without pyproject.toml shares one store."""
+    """`.chainlint/` in the project root `project_root` finds from `start`."""
     return project_root(start) / STORE_FOLDER
 
 
 def project_root(start: str | os.PathLike[str] = ".") -> Path:
-    """The folder of the store `find_store` finds: the project whose code and data go together."""
+    """The nearest folder upward from `start` holding `.chainlint/`, `pyproject.toml`,
+    `chainlint.toml` or `.git`, else `start`'s folder: the project whose code and data go
+    together. The climb stops at the first such folder, so a store above a project's root is
+    never the project's, and it never enters a folder every user may write (`/tmp`): a store
+    or marker there may be anyone's."""
     start_path = Path(os.path.abspath(start))  # a linked module belongs to the project it is linked into
     # os.path's tests answer False where this user may not look; Path's raise PermissionError.
     if os.path.isfile(start_path):
         start_path = start_path.parent
-    for marker in (STORE_FOLDER, "pyproject.toml", ".git"):
-        for folder in (start_path, *start_path.parents):
-            if os.path.isdir(folder / marker) if marker == STORE_FOLDER else os.path.exists(folder / marker):
-                return folder
+    for folder in folders_upward(start_path):
+        if is_project_root(folder):
+            return folder
     return start_path
 
 
