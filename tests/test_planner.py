@@ -9,7 +9,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from chainlint.estimate.cost import FrameShape, step_cost
-from chainlint.plan.planner import EXACT_LIMIT, order_cost, plan_segment
+from chainlint.plan.groups import groups_cost
+from chainlint.plan.planner import EXACT_LIMIT, order_cost, plan_segment, walk
 
 shares = st.floats(min_value=0.0, max_value=1.0)
 costs = st.floats(min_value=0.1, max_value=50.0)
@@ -124,3 +125,22 @@ def test_kept_rows_in_runs_cost_what_dense_keeps_cost() -> None:
     dense_string = DEFAULT_MODEL.string_take_kept[-1][1]
     expected = 1e6 * DEFAULT_MODEL.numeric_take_in + 2e4 * dense_numeric + 1e6 * DEFAULT_MODEL.string_take_in + 2e4 * dense_string
     assert math.isclose(clustered, expected) and scattered > clustered
+
+
+def test_one_pricing_of_an_order_and_a_share_never_above_one() -> None:
+    # Rows from estimates of different bases need not fall as steps are added (an exact joint
+    # count for step 0 alone, independence for both): step 1 after step 0 would "keep" 1.2 of
+    # its rows. A filter never adds rows: every pricing caps it at 1.0, and they agree.
+    rows = {0: 100.0, 0b01: 50.0, 0b10: 80.0, 0b11: 60.0}
+    seen: list[float] = []
+
+    def cost(step_or_mask: int, rows_in: float, kept: float) -> float:
+        seen.append(kept)
+        return rows_in * (1.0 + kept)
+
+    priced = list(walk([(0,), (1,)], rows.__getitem__, cost))
+    assert [(rows_in, rows_out, kept) for _, rows_in, rows_out, kept, _ in priced] == [(100.0, 50.0, 0.5), (50.0, 50.0, 1.0)]
+    assert order_cost([0, 1], rows.__getitem__, cost) == groups_cost([(0,), (1,)], rows.__getitem__, cost) == 150.0 + 100.0
+    assert max(seen) == 1.0
+    order, planned = plan_segment([0, 1], rows.__getitem__, cost)
+    assert planned == order_cost(order, rows.__getitem__, cost)

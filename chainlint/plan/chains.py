@@ -25,7 +25,7 @@ from chainlint.ir import And, Column, Compare, Member, Node, Not, NullTest, Or, 
 from chainlint.model import Chain, ChainForm, Step, StepKind, consecutive_runs
 from chainlint.plan.groups import EXACT_LIMIT as GROUP_LIMIT
 from chainlint.plan.groups import plan_groups
-from chainlint.plan.planner import EXACT_LIMIT, plan_segment
+from chainlint.plan.planner import EXACT_LIMIT, plan_segment, walk
 from chainlint.plan.totality import ANY, LATER, STAYS, Limit, judge
 
 
@@ -230,24 +230,18 @@ def _joint_steps(chain: Chain, estimator: Estimator, texts: list[str]) -> set[in
 
 
 def _walk(groups, estimates: list[Estimate], rows_after, cost, joint_steps: set[int]) -> tuple[StepEstimate, ...]:  # type: ignore[no-untyped-def]
-    """Each group's rows and time when `groups` run in turn; a single step's selectivity is the
-    share of its own input it keeps there (conditional on the steps before it when joint
-    counts say so), a group's the share the whole mask keeps."""
+    """Each group's rows and time when `groups` run in turn, priced as the planners price them
+    (`chainlint.plan.planner.walk`); a single step's selectivity is the share of its own input
+    it keeps there (conditional on the steps before it when joint counts say so), a group's
+    the share the whole mask keeps."""
     out = []
-    mask = 0
-    for group in groups:
-        rows_in = rows_after(mask)
-        added = sum(1 << step for step in group)
-        mask |= added
-        rows_out = rows_after(mask)
-        kept = 1.0 if rows_in <= 0 else rows_out / rows_in
-        seconds = cost(added, rows_in, kept) / 1e9
+    for group, (_, rows_in, rows_out, kept, nanoseconds) in zip(groups, walk(groups, rows_after, cost)):
         step = group[0]
-        members = tuple(group) if len(group) > 1 else ()
+        seconds = nanoseconds / 1e9
         if len(group) > 1:
             # The weakest of its steps' bases: a group's share is as good as its worst estimate.
             basis = Basis.JOINT if set(group) <= joint_steps else max((estimates[i].basis for i in group), key=list(Basis).index)
-            out.append(StepEstimate(step, kept, basis, rows_in, rows_out, seconds, members))
+            out.append(StepEstimate(step, kept, basis, rows_in, rows_out, seconds, tuple(group)))
         elif step in joint_steps:
             out.append(StepEstimate(step, kept, Basis.JOINT, rows_in, rows_out, seconds))
         else:

@@ -26,10 +26,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping, Sequence
 
-from chainlint.plan.planner import RowsAfter, plan_segment
-
-#: `group_cost(mask, rows_in, kept_share)` in nanoseconds: the steps in the bit mask as one group.
-GroupCost = Callable[[int, float, float], float]
+from chainlint.plan.planner import GroupCost, RowsAfter, plan_segment, share, walk
 Groups = tuple[tuple[int, ...], ...]
 
 EXACT_LIMIT = 10
@@ -37,13 +34,7 @@ EXACT_LIMIT = 10
 
 def groups_cost(groups: Sequence[Sequence[int]], rows_after: RowsAfter, cost: GroupCost) -> float:
     """The cost of running `groups` in turn, each as one mask."""
-    total, done = 0.0, 0
-    for group in groups:
-        rows_in = rows_after(done)
-        mask = _mask(group)
-        done |= mask
-        total += cost(mask, rows_in, _share(rows_after(done), rows_in))
-    return total
+    return sum(priced[-1] for priced in walk(groups, rows_after, cost))
 
 
 def allowed(groups: Sequence[Sequence[int]], before: Mapping[int, int], joinable: Callable[[int], bool]) -> bool:
@@ -97,7 +88,7 @@ def plan_groups(steps: Sequence[int], rows_after: RowsAfter, cost: GroupCost,
                 continue
             members = group[0]
             after = done | mask
-            total = spent + cost(mask, rows_in, _share(rows_after(after), rows_in))
+            total = spent + cost(mask, rows_in, share(rows_after(after), rows_in))
             known = best.get(after)
             if known is None or total < known[0] * (1 - 1e-12) - 1e-9:
                 best[after] = (total, plan + (members,))
@@ -145,10 +136,6 @@ def _shifted(before: Mapping[int, int], earlier: Sequence[Sequence[int]]) -> dic
 def _key(plan: Groups) -> tuple:
     """Singletons first, then the written order: a tie never fuses or moves for nothing."""
     return (-len(plan), plan)
-
-
-def _share(rows_out: float, rows_in: float) -> float:
-    return 1.0 if rows_in <= 0 else min(1.0, rows_out / rows_in)
 
 
 def _mask(steps: Sequence[int]) -> int:

@@ -16,10 +16,12 @@ the sorted order is used only for segments without such limits.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 
 #: `cost(step, rows_in, kept_share)` in nanoseconds.
 StepCost = Callable[[int, float, float], float]
+#: `group_cost(mask, rows_in, kept_share)` in nanoseconds: the steps in the bit mask as one group.
+GroupCost = Callable[[int, float, float], float]
 #: `rows_after(mask)`: rows left after the steps in the bit mask (in any order).
 RowsAfter = Callable[[int], float]
 
@@ -27,16 +29,35 @@ EXACT_LIMIT = 12
 GREEDY_LIMIT = 64
 
 
+def walk(groups: Iterable[Sequence[int]], rows_after: RowsAfter,
+         cost: GroupCost) -> Iterator[tuple[int, float, float, float, float]]:
+    """For each group when `groups` run in turn, each as one mask: its bit mask, rows in, rows
+    out, share kept and cost. The one pricing of an order, shared by the planners and the plan
+    they report. Rows out never exceed rows in: a filter never keeps more rows than it gets,
+    though estimates of different bases may say so (a joint count for some steps, independence
+    for the others)."""
+    done = 0
+    for group in groups:
+        rows_in = rows_after(done)
+        mask = 0
+        for step in group:
+            mask |= 1 << step
+        done |= mask
+        rows_out = min(rows_after(done), rows_in)
+        kept = share(rows_out, rows_in)
+        yield mask, rows_in, rows_out, kept, cost(mask, rows_in, kept)
+
+
 def order_cost(order: Sequence[int], rows_after: RowsAfter, cost: StepCost) -> float:
-    total, mask = 0.0, 0
-    for step in order:
-        rows_in = rows_after(mask)
-        mask |= 1 << step
-        total += cost(step, rows_in, _share(rows_after(mask), rows_in))
-    return total
+    """The cost of running the single steps of `order` in turn."""
+    def single(mask: int, rows_in: float, kept: float) -> float:
+        return cost(mask.bit_length() - 1, rows_in, kept)
+
+    return sum(priced[-1] for priced in walk(((step,) for step in order), rows_after, single))
 
 
-def _share(rows_out: float, rows_in: float) -> float:
+def share(rows_out: float, rows_in: float) -> float:
+    """The share of `rows_in` a step keeps, at most 1.0 (see `walk`)."""
     return 1.0 if rows_in <= 0 else min(1.0, rows_out / rows_in)
 
 
@@ -65,7 +86,7 @@ def plan_segment(steps: Sequence[int], rows_after: RowsAfter, cost: StepCost,
                 if mask & bit or before.get(step, 0) & ~mask:
                     continue
                 after = mask | bit
-                total = spent + cost(step, rows_in, _share(rows_after(after), rows_in))
+                total = spent + cost(step, rows_in, share(rows_after(after), rows_in))
                 if after not in best or total < best[after][0] - 1e-9 or (
                     math.isclose(total, best[after][0], rel_tol=1e-12) and order + (step,) < best[after][1]
                 ):
@@ -82,7 +103,7 @@ def _greedy(steps: list[int], rows_after: RowsAfter, cost: StepCost, before: Map
         rows_in = rows_after(mask)
 
         def rank(step: int, mask: int = mask, rows_in: float = rows_in) -> float:
-            kept = _share(rows_after(mask | 1 << step), rows_in)
+            kept = share(rows_after(mask | 1 << step), rows_in)
             spend = cost(step, rows_in, kept)
             return spend / max(1.0 - kept, 1e-12)
 
@@ -100,7 +121,7 @@ def _sorted(steps: list[int], rows_after: RowsAfter, cost: StepCost) -> tuple[tu
     rows_in = rows_after(0)
 
     def rank(step: int) -> float:
-        kept = _share(rows_after(1 << step), rows_in)
+        kept = share(rows_after(1 << step), rows_in)
         return cost(step, rows_in, kept) / max(1.0 - kept, 1e-12)
 
     ranks = {step: rank(step) for step in steps}
