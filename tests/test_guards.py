@@ -108,6 +108,7 @@ def test_a_live_frame_is_judged_by_its_own_dtypes() -> None:
     # A kernel's object column of strings reads as Arrow strings; pandas (the reference) shows
     # that `.str` of it, with None, cannot mask once the guard no longer runs first.
     from chainlint.engine.run import analyse_source
+    from chainlint.engine.options import Options
     from chainlint.notebook.live import plan_on_frame
     from chainlint.parse.source import text_source
 
@@ -120,6 +121,6 @@ def test_a_live_frame_is_judged_by_its_own_dtypes() -> None:
     (chain,) = analyse_source(text_source("<cell>", source)).chains
     with pytest.raises(ValueError, match="non-boolean"):
         frame.loc[lambda d: d.o.str.contains("ap")]
-    plan = plan_on_frame(chain, frame).plan
+    plan = plan_on_frame(chain, frame, Options()).plan
     assert plan.limits[1] is not None and plan.limits[1].moves == "stays"
     assert plan.order[:2] == (0, 1)

@@ -14,7 +14,9 @@ from typing import Any
 import pyarrow as pa
 
 from chainlint.bind.binding import Binding, BoundBy
-from chainlint.engine.check import PlannedChain
+from chainlint.engine.check import PlannedChain, keep_written
+from chainlint.engine.options import Options
+from chainlint.estimate.cost import DEFAULT_MODEL, CostModel
 from chainlint.estimate.selectivity import Estimator
 from chainlint.model import Chain, ChainlintError
 from chainlint.plan.chains import ChainPlan, plan_chain
@@ -47,8 +49,10 @@ def _dataset(frame: Any) -> Dataset:
     return memory_dataset(table)
 
 
-def plan_on_frame(chain: Chain, frame: Any) -> LivePlan:
-    """The chain planned with statistics and exact joint counts of `frame` (every value kept)."""
+def plan_on_frame(chain: Chain, frame: Any, options: Options, model: CostModel = DEFAULT_MODEL) -> LivePlan:
+    """The chain planned with statistics and exact joint counts of `frame` (every value kept)
+    under the store's cost `model`, the written order kept unless the plan clears the
+    thresholds of `options`, as in `check`."""
     name = f"{chain.frame} (live)"
     dataset = _dataset(frame)
     joint = JointCounter([chain], set(dataset.schema.names))
@@ -59,7 +63,8 @@ def plan_on_frame(chain: Chain, frame: Any) -> LivePlan:
     # The frame's own dtypes judge how far steps may move: an object column of strings reads
     # as Arrow strings (`str` in a profile), but `.str` of it gives missing values that cannot mask.
     dtypes = {str(column): str(dtype) for column, dtype in frame.dtypes.items()}
-    plan = plan_chain(chain, Binding(name, BoundBy.KERNEL), Estimator(Profile.from_document(document)), len(frame), dtypes=dtypes)
+    plan = keep_written(plan_chain(chain, Binding(name, BoundBy.KERNEL), Estimator(Profile.from_document(document)),
+                                   len(frame), model, dtypes=dtypes), options.context)
     shown = replace(chain, path="cell")
     text = explain_text([PlannedChain(shown, plan.binding, replace(plan, chain=shown))])
     for predicate, reason in sorted(joint.skipped.items()):

@@ -5,7 +5,10 @@ to the live DataFrame of that name in the kernel, and plans it with statistics o
 column statistics and exact joint counts of the chain's own predicates, computed by evaluating
 chainlint's predicate IR on the frame. The cell's code is never run; `--time` times both
 orders built from chainlint's predicates (as `chainlint measure` does), not the cell's code.
-`--replace` puts the planned form into the cell in place of the magic and its text.
+`--replace` puts the planned form into the cell in place of the magic and its text. The
+configuration nearest the kernel's folder applies as in `check`, through the engine's one
+options function: its thresholds keep the written order, its store and cost model, and its
+bindings for a chain whose frame is not in the kernel (planned with the store's profile).
 
 `%chainlint profile FRAME --name NAME` profiles a live frame into the project's store, in the
 same profile format as `chainlint profile`, so that what was explored here serves CI.
@@ -15,14 +18,21 @@ from __future__ import annotations
 
 import argparse
 import shlex
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
+from chainlint.config import ConfigError
+from chainlint.engine.check import plan_chains
+from chainlint.engine.options import Options, load_options
 from chainlint.engine.run import analyse_source
+from chainlint.estimate.stores import LoadedStores
 from chainlint.model import Chain, Edit, Finding
 from chainlint.notebook.live import MagicError, measure_text, plan_on_frame, profile_into_store
 from chainlint.parse.notebooks import analysable
 from chainlint.parse.source import text_source
+from chainlint.profile.store import find_store
+from chainlint.report.explain import explain_text
 
 _PARSER = argparse.ArgumentParser(prog="%%chainlint", add_help=False, exit_on_error=False)
 _PARSER.add_argument("--time", action="store_true", help="also time both orders on the live frame")
@@ -72,8 +82,18 @@ def _line_magic(shell: Any, line: str) -> str:
         raise MagicError(USAGE)
     options = _parse(_PROFILE, words[1] if len(words) > 1 else "")
     frame = live_frame(shell, options.frame)
-    store = Path(options.store) if options.store else None
+    store = Path(options.store) if options.store else project_options().store
     return profile_into_store(frame, options.name, store, options.min_count)
+
+
+def project_options() -> Options:
+    """The options `check` would use here: the configuration nearest the kernel's folder (the
+    notebook's, in Jupyter), through the engine's one options function."""
+    folder = Path.cwd()
+    try:
+        return load_options(folder, folder)
+    except ConfigError as error:
+        raise MagicError(str(error)) from None
 
 
 def live_frame(shell: Any, name: str) -> Any:
@@ -113,6 +133,8 @@ def plan_cell(shell: Any, line: str, cell: str) -> str:
     masked, chains = cell_chains(cell)
     if not chains:
         raise MagicError("no chain of row filters in this cell")
+    settings = project_options()
+    loaded = LoadedStores().load((settings.store or find_store(Path.cwd())).resolve())
     source = text_source("<cell>", masked)
     parts, edits, unplanned = [], [], 0
     for chain in chains:
@@ -120,15 +142,24 @@ def plan_cell(shell: Any, line: str, cell: str) -> str:
         try:
             frame = live_frame(shell, chain.frame)
         except MagicError as error:
-            parts.append(f"{head}chain on `{chain.frame}` not planned: {error}\n")
-            unplanned += 1
-            continue
-        item = plan_on_frame(chain, frame)
-        parts.append(item.text)
-        if options.time:
-            parts.append(measure_text(frame, item.plan, options.repeat))
-        if not item.plan.as_written:
-            proposed = Finding(REORDER.name, source.path, chain.span, "", order=item.plan.order, groups=item.plan.groups)
+            # No live frame: bound as `check` binds it (a comment, the configuration's bindings,
+            # the one profile of the store holding its columns), else not planned.
+            (stored,) = plan_chains([chain], loaded, settings)
+            if stored.plan is None:
+                parts.append(f"{head}chain on `{chain.frame}` not planned: {error}\n")
+                unplanned += 1
+                continue
+            frame, plan = None, stored.plan
+            shown = replace(chain, path="cell")
+            parts.append(explain_text([replace(stored, chain=shown, plan=replace(plan, chain=shown))]))
+        else:
+            item = plan_on_frame(chain, frame, settings, loaded.model)
+            plan = item.plan
+            parts.append(item.text)
+        if options.time and frame is not None:
+            parts.append(measure_text(frame, plan, options.repeat))
+        if not plan.as_written:
+            proposed = Finding(REORDER.name, source.path, chain.span, "", order=plan.order, groups=plan.groups)
             fixed = fix_finding(source, chain, proposed)
             if fixed.fix is None:
                 parts.append(f"  the planned form cannot be written: {fixed.fix_error}\n")
