@@ -215,6 +215,7 @@ def test_fix_then_a_model_calibrated_elsewhere_keeps_the_order_written(flights_s
 
     root = tmp_path / "project"
     root.mkdir()
+    (root / "pyproject.toml").write_text("[project]\nname = 'jobs'\n")   # its own root: no configuration above it applies
     path = root / "jobs.py"
     path.write_text(COSTLY)
     fixed = _check("--fix", "--store", str(flights_store / ".chainlint"), str(path))
