@@ -21,6 +21,7 @@ from chainlint.ir import (
     Node,
     Not,
     NullTest,
+    NumericTest,
     Opaque,
     Or,
     Range,
@@ -92,7 +93,8 @@ def ir_trees() -> st.SearchStrategy[Node]:
     strtest = st.builds(StrTest, column_names.map(Column), st.sampled_from(["contains", "match"]), strings.map(Literal), options)
     member = st.builds(Member, value, st.one_of(named, st.lists(literals, max_size=3).map(tuple)), st.booleans())
     rng = st.builds(Range, value, value, value, st.sampled_from(INCLUSIVE))
-    leaf = st.one_of(compare, strtest, member, rng, st.builds(NullTest, value, st.booleans()), strings.map(Opaque))
+    leaf = st.one_of(compare, strtest, member, rng, st.builds(NullTest, value, st.booleans()),
+                     st.builds(NumericTest, value, st.booleans()), strings.map(Opaque))
     return st.recursive(
         leaf,
         lambda children: st.one_of(

@@ -111,6 +111,12 @@ def _masks(d: str) -> st.SearchStrategy[str]:
             f"{d}.tzmix.notna()", f"{d}.tz > '2026-01-05'", f"{d}.t.between('2026-01-03', '2026-01-08')",
             f"{d}.ns.str.contains('ap')", f"{d}.ns == 'apple'", f"{d}.oc.notna()", f"{d}.i / {d}.e > 1",
         ]),
+        # Values parsed as numbers (issue 14): movable on text, numbers and datetimes; never on objects.
+        st.sampled_from([
+            f"pd.to_numeric({d}.s, errors='coerce').notna()", f"pd.to_numeric({d}['ns'], errors='coerce').isna()",
+            f"pd.to_numeric({d}.mixed, errors='coerce').notna()", f"pd.to_numeric({d}.o, errors='coerce').isna()",
+            f"pd.to_numeric({d}.t, errors='coerce').notna()", f"pd.to_numeric({d}.f, errors='coerce').notna()",
+        ]),
     )
 
 

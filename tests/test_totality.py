@@ -20,7 +20,7 @@ import pandas as pd
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from chainlint.ir import And, Arith, Column, Compare, Literal, Member, Node, Not, NullTest, Or, Range, StrTest
+from chainlint.ir import And, Arith, Column, Compare, Literal, Member, Node, Not, NullTest, NumericTest, Or, Range, StrTest
 from chainlint.plan.totality import ANY, LATER, STAYS, column_kind, judge
 
 
@@ -70,6 +70,7 @@ leaves = st.one_of(
     st.builds(Member, columns, st.lists(literals, min_size=1, max_size=3).map(tuple), st.booleans()),
     st.builds(Range, columns, literals, literals, st.just("both")),
     st.builds(NullTest, values, st.booleans()),
+    st.builds(NumericTest, columns, st.booleans()),
     st.builds(StrTest, columns, st.sampled_from(["startswith", "contains", "match"]),
               st.sampled_from(["a", "ap", "a.", "(?=a)", "["]).map(Literal),
               st.sampled_from([(), (("na", Literal(False)),), (("regex", Literal(False)),)])),
@@ -99,6 +100,8 @@ def _python(node: Node, d: str = "d") -> str:
         return f"{_python(node.operand, d)}.between({_python(node.low, d)}, {_python(node.high, d)})"
     if isinstance(node, NullTest):
         return f"{_python(node.operand, d)}.{'notna' if node.negated else 'isna'}()"
+    if isinstance(node, NumericTest):
+        return f"pd.to_numeric({_python(node.operand, d)}, errors='coerce').{'isna' if node.negated else 'notna'}()"
     if isinstance(node, StrTest):
         options = "".join(f", {k}={_python(v, d)}" for k, v in node.options)
         return f"{_python(node.operand, d)}.str.{node.method}({_python(node.pattern, d)}{options})"
@@ -114,6 +117,8 @@ def _query(node: Node) -> str | None:
         return node.name
     if isinstance(node, Literal):
         return None if isinstance(node.value, float) and math.isnan(node.value) else repr(node.value)
+    if isinstance(node, NumericTest):
+        return None   # query text cannot call pandas' functions
     parts = [_query(child) for child in node.children()]
     if None in parts:
         return None

@@ -36,6 +36,7 @@ from chainlint.ir import (
     Node,
     Not,
     NullTest,
+    NumericTest,
     Opaque,
     Or,
     Range,
@@ -130,6 +131,12 @@ def _range_cost(node: Range, shape: FrameShape, model: CostModel) -> float:
     return model.between if _operand_kind(node, shape) != "str" else 2 * model.compare["str"]
 
 
+def _numeric_test_cost(node: NumericTest, shape: FrameShape, model: CostModel) -> float:
+    """Numbers pass through `to_numeric` as they are; text is parsed value by value, priced as a
+    `.str` test (not calibrated on its own)."""
+    return model.string_test if _operand_kind(node, shape) in ("str", "object") else model.null_test
+
+
 def _row_nulls_cost(node: RowNulls, shape: FrameShape, model: CostModel) -> float:
     columns = max(len(shape.kinds), 1)
     return model.null_test * columns + model.combine * (columns - 1)
@@ -144,6 +151,7 @@ _COST: Cases[Callable[[Any, FrameShape, CostModel], float]] = Cases("predicate c
     Member: lambda node, shape, model: model.member[_operand_kind(node, shape)],
     Range: _range_cost,
     NullTest: lambda node, shape, model: model.null_test,
+    NumericTest: _numeric_test_cost,
     StrTest: lambda node, shape, model: model.string_test,
     RowNulls: _row_nulls_cost,
     (Column, Literal, Named): lambda node, shape, model: 0.0,  # read as part of the test that uses them

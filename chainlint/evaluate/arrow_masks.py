@@ -29,6 +29,7 @@ from chainlint.ir import (
     Node,
     Not,
     NullTest,
+    NumericTest,
     Opaque,
     Or,
     Range,
@@ -62,6 +63,10 @@ def _arith(batch: pa.RecordBatch, node: Arith) -> Any:
 
 def _unevaluable(batch: pa.RecordBatch, node: Node) -> Any:
     raise NotEvaluable(unevaluable(node) or f"cannot evaluate {node.canonical()} with pyarrow")
+
+
+def _parsed(batch: pa.RecordBatch, node: NumericTest) -> Any:
+    raise NotEvaluable("it parses values as pandas' `to_numeric` does, which only pandas evaluates exactly")
 
 
 def _dictionary_operand(batch: pa.RecordBatch, node: Node) -> pa.DictionaryArray | None:
@@ -184,7 +189,7 @@ _VALUE: Cases[Callable[[pa.RecordBatch, Any], Any]] = Cases("pyarrow value", {
     Column: _column,
     Literal: lambda batch, node: node.value,
     Arith: _arith,
-    (Named, Opaque, Compare, Member, Range, NullTest, StrTest, RowNulls, Not, And, Or): _unevaluable,
+    (Named, Opaque, Compare, Member, Range, NullTest, NumericTest, StrTest, RowNulls, Not, And, Or): _unevaluable,
 })
 
 _MASK: Cases[Callable[[pa.RecordBatch, Any], pa.Array]] = Cases("pyarrow mask", {
@@ -193,6 +198,7 @@ _MASK: Cases[Callable[[pa.RecordBatch, Any], pa.Array]] = Cases("pyarrow mask", 
     Range: _column_test(_range),
     NullTest: _column_test(_null_test),
     StrTest: _column_test(_string),
+    NumericTest: _parsed,
     RowNulls: _row_nulls,
     Not: lambda batch, node: pc.invert(arrow_mask(batch, node.operand)),
     And: _combined(pc.and_),

@@ -26,6 +26,7 @@ from chainlint.ir import (
     Node,
     Not,
     NullTest,
+    NumericTest,
     Opaque,
     Or,
     Range,
@@ -52,6 +53,11 @@ def _member(frame: pd.DataFrame, node: Member) -> Any:
 def _null_test(frame: pd.DataFrame, node: NullTest) -> Any:
     column = mask(frame, node.operand)
     return column.notna() if node.negated else column.isna()
+
+
+def _numeric_test(frame: pd.DataFrame, node: NumericTest) -> Any:
+    parsed = pd.to_numeric(mask(frame, node.operand), errors="coerce")
+    return parsed.isna() if node.negated else parsed.notna()
 
 
 def _row_nulls(frame: pd.DataFrame, node: RowNulls) -> Any:
@@ -86,6 +92,7 @@ _MASK: Cases[Callable[[pd.DataFrame, Any], Any]] = Cases("pandas mask", {
     Member: _member,
     Range: lambda frame, node: mask(frame, node.operand).between(mask(frame, node.low), mask(frame, node.high), inclusive=node.inclusive),
     NullTest: _null_test,
+    NumericTest: _numeric_test,
     RowNulls: _row_nulls,
     StrTest: _str_test,
     Not: lambda frame, node: ~mask(frame, node.operand),

@@ -13,7 +13,7 @@ from collections.abc import Callable
 from chainlint.find.barriers import frame_reason, is_frame_method
 from chainlint.find.bindings import dotted_name
 from chainlint.find.converted import FRAME, Dialect, clip
-from chainlint.ir import Arith, Column, Literal, Member, Named, Node, NullTest, Opaque, Range, StrTest
+from chainlint.ir import Arith, Column, Literal, Member, Named, Node, NullTest, NumericTest, Opaque, Range, StrTest
 from chainlint.ir.nodes import INCLUSIVE
 
 NULL_METHODS = {"isna": False, "isnull": False, "notna": True, "notnull": True}
@@ -52,6 +52,8 @@ class Calls:
             return self.string_test(expr, self.value(receiver.value), method)
         if method == "isin" and _dict_map(receiver) is not None:
             return self.mapped_membership(expr, receiver)
+        if method in NULL_METHODS and not expr.args and not expr.keywords and self.parses_numbers(receiver):
+            return self.numeric_test(expr, receiver, not NULL_METHODS[method])  # type: ignore[arg-type]
         target = self.expr(receiver)
         reads_frame = target is FRAME or bool(target.columns())
         if reads_frame and is_frame_method(method):
@@ -63,8 +65,31 @@ class Calls:
             return self.series_method(expr, target, method)
         return self.unknown(expr, f"calls `{clip(self.text_of(func))}`, which chainlint does not know")
 
+    def parses_numbers(self, expr: ast.expr) -> bool:
+        """Whether `expr` calls pandas' `to_numeric` (`pd.to_numeric(...)`, or imported by name)."""
+        if not isinstance(expr, ast.Call):
+            return False
+        func = expr.func
+        if isinstance(func, ast.Attribute):
+            return func.attr == "to_numeric" and self.pandas_module(func.value)
+        return isinstance(func, ast.Name) and self.dialect.pandas_functions.get(func.id) == "pandas.to_numeric"
+
+    def numeric_test(self, expr: ast.Call, parse: ast.Call, negated: bool) -> Node:
+        """`pd.to_numeric(COLUMN, errors="coerce").notna()` (or `.isna()`): never raises, so it
+        is a test like a null test; any other form of the call stays a barrier."""
+        errors = [k.value for k in parse.keywords if k.arg == "errors"] + parse.args[1:2]
+        if not (len(errors) == 1 and isinstance(errors[0], ast.Constant) and errors[0].value == "coerce"):
+            return self.unknown(expr, "`to_numeric` without `errors=\"coerce\"` raises on a value that is not a number")
+        if len(parse.args) < 1 or len(parse.args) + len(parse.keywords) != 2:
+            return self.unknown(expr, "`to_numeric` with arguments other than a column and `errors=\"coerce\"` is not modelled")
+        operand = self.value(parse.args[0])
+        return self.column_only(expr, operand, NumericTest(operand, negated))
+
     def function_call(self, expr: ast.Call, name: str) -> Node:
         qualified = self.dialect.pandas_functions.get(name, name)
+        if qualified == "pandas.to_numeric" and any(self.reads_frame(a) for a in expr.args):
+            return self.unknown(expr, "`to_numeric` gives nullable numbers for text columns, whose missing values cannot "
+                                      "mask: only its `.notna()` / `.isna()` with `errors=\"coerce\"` is modelled")
         if qualified.startswith("pandas.") and qualified[7:] in NULL_METHODS and len(expr.args) == 1 and not expr.keywords:
             operand = self.value(expr.args[0])
             return self.null_test(expr, operand, NULL_METHODS[qualified[7:]])

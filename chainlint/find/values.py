@@ -28,6 +28,7 @@ from chainlint.ir import (
     Node,
     Not,
     NullTest,
+    NumericTest,
     Opaque,
     Or,
     Range,
@@ -107,7 +108,7 @@ def _unchanged(settler: _Settler, node: Node) -> Node:
 _VALUE: Cases[Callable[[_Settler, Any], Node]] = Cases("settle a value", {
     Named: _Settler.named,
     Arith: _Settler.arith,
-    (Column, Literal, Opaque, Compare, Member, Range, NullTest, StrTest, RowNulls, Not, And, Or): _Settler.mask,
+    (Column, Literal, Opaque, Compare, Member, Range, NullTest, NumericTest, StrTest, RowNulls, Not, And, Or): _Settler.mask,
 })
 
 #: A node where a mask is expected: its operands settled, its parts in turn.
@@ -116,6 +117,7 @@ _MASK: Cases[Callable[[_Settler, Any], Node]] = Cases("settle a mask", {
     Member: lambda settler, node: Member(settler.single(node.operand), settler.values(node.values), node.negated),
     Range: lambda settler, node: Range(settler.single(node.operand), settler.single(node.low), settler.single(node.high), node.inclusive),
     NullTest: lambda settler, node: NullTest(settler.single(node.operand), node.negated),
+    NumericTest: lambda settler, node: NumericTest(settler.single(node.operand), node.negated),
     StrTest: _Settler.str_test,
     Not: lambda settler, node: Not(settler.mask(node.operand)),
     (And, Or): lambda settler, node: type(node)(tuple(settler.mask(p) for p in node.parts)),

@@ -121,6 +121,15 @@ class NullTest(Node):
 
 
 @dataclass(frozen=True, slots=True)
+class NumericTest(Node):
+    """`pd.to_numeric(operand, errors="coerce").notna()`: the value reads as a number
+    (pandas' own parsing, unparsable values coerced to missing); negated for `.isna()`."""
+
+    operand: Node
+    negated: bool = False
+
+
+@dataclass(frozen=True, slots=True)
 class StrTest(Node):
     """A `.str` predicate; `options` holds the keyword arguments given, sorted by name."""
 
@@ -162,7 +171,7 @@ class Opaque(Node):
 
 
 #: Node types whose value is a boolean mask (what a row filter needs at its top).
-PREDICATE_TYPES = (Compare, Member, Range, NullTest, StrTest, RowNulls, Not, And, Or)
+PREDICATE_TYPES = (Compare, Member, Range, NullTest, NumericTest, StrTest, RowNulls, Not, And, Or)
 
 
 def _same_value(a: LiteralValue, b: LiteralValue) -> bool:
@@ -244,8 +253,8 @@ def _print(node: Node) -> str:
 
 
 #: Every node class; a `Cases` table must name each of them (or say which it is limited to).
-NODE_TYPES: tuple[type[Node], ...] = (Column, Literal, Named, Arith, Compare, Member, Range, NullTest, StrTest, RowNulls, Not, And,
-                                      Or, Opaque)
+NODE_TYPES: tuple[type[Node], ...] = (Column, Literal, Named, Arith, Compare, Member, Range, NullTest, NumericTest, StrTest,
+                                      RowNulls, Not, And, Or, Opaque)
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -292,7 +301,7 @@ _CHILDREN: Cases[Callable[[Any], tuple[Node, ...]]] = Cases("children", {
     (Arith, Compare): lambda node: (node.left, node.right),
     Member: _member_children,
     Range: lambda node: (node.operand, node.low, node.high),
-    (NullTest, Not): lambda node: (node.operand,),
+    (NullTest, NumericTest, Not): lambda node: (node.operand,),
     StrTest: lambda node: (node.operand, node.pattern, *(value for _, value in node.options)),
     (And, Or): lambda node: node.parts,
 })
@@ -306,6 +315,7 @@ _PRINT: Cases[Callable[[Any], str]] = Cases("canonical text", {
     Member: _member,
     Range: _range,
     NullTest: lambda node: f"{_operand(node.operand)} is {'not ' if node.negated else ''}null",
+    NumericTest: lambda node: f"{_operand(node.operand)} is {'not ' if node.negated else ''}numeric",
     StrTest: _str_test,
     RowNulls: _row_nulls,
     Not: _not,

@@ -23,6 +23,7 @@ from chainlint.ir.nodes import (
     Node,
     Not,
     NullTest,
+    NumericTest,
     Opaque,
     Range,
     RowNulls,
@@ -188,8 +189,11 @@ class _Parser:
             negated = self.at_word("not")
             if negated:
                 self.take()
+            if self.at_word("numeric"):
+                self.take()
+                return NumericTest(left, negated)
             if not self.at_word("null"):
-                raise self.fail("'null'")
+                raise self.fail("'null' or 'numeric'")
             self.take()
             return NullTest(left, negated)
         low = self.expr(_COMPARE_BP + 1)

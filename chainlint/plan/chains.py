@@ -21,7 +21,7 @@ from chainlint.estimate.cost import (
     step_cost,
 )
 from chainlint.estimate.selectivity import Basis, Estimate, Estimator
-from chainlint.ir import And, Column, Compare, Member, Node, Not, NullTest, Or, Range, StrTest
+from chainlint.ir import And, Column, Compare, Member, Node, Not, NullTest, NumericTest, Or, Range, StrTest
 from chainlint.model import Chain, ChainForm, Step, StepKind, consecutive_runs
 from chainlint.plan.groups import EXACT_LIMIT as GROUP_LIMIT
 from chainlint.plan.groups import plan_groups
@@ -281,7 +281,7 @@ def _boolean(node: Node, dtypes: dict[str, str]) -> bool:
         return _boolean(node.operand, dtypes)
     if isinstance(node, Column):
         return dtypes.get(node.name) in ("bool", "boolean")
-    return isinstance(node, (Compare, Member, Range, NullTest, StrTest))
+    return isinstance(node, (Compare, Member, Range, NullTest, NumericTest, StrTest))
 
 
 def _fused_seconds(limits: tuple[Limit | None, ...], estimates: list[Estimate], predicates: list[float], rows: float,

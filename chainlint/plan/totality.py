@@ -33,6 +33,7 @@ from chainlint.ir import (
     Node,
     Not,
     NullTest,
+    NumericTest,
     Opaque,
     Or,
     Range,
@@ -223,6 +224,19 @@ class _Judge:
             return
         self.note(LATER, f"`{text}` tests membership in values of another kind")
 
+    def numeric_test(self, node: NumericTest) -> None:
+        """`to_numeric(..., errors="coerce")` never raises on numbers, booleans, text,
+        categoricals or datetimes and reads each value alone (pandas 3.1, checked in the
+        tests); on object values it raises for some (a 0-d numpy array) and reads a value by
+        the others (a complex number among them changes how lists read); other dtypes (Arrow
+        decimals with missing values raise) are not vouched for."""
+        kind = self.value(node.operand)
+        text = node.canonical()
+        if kind == _OBJECT:
+            self.note(STAYS, f"`{text}` parses object values: pandas reads each by the others, and refuses some")
+        elif kind not in (_WIDE, _NUMBER, _BOOL, _STR, _CATEGORY, _TIME, _SIZED):
+            self.note(STAYS, f"`{text}` parses values of a type chainlint has not checked `to_numeric` on", prefixed=False)
+
     def string_test(self, node: StrTest) -> None:
         kind = self.value(node.operand)
         text = node.canonical()
@@ -270,6 +284,7 @@ _MASK: Cases[Callable[[_Judge, Any], object]] = Cases("totality of a mask", {
     Range: _Judge.range,
     Member: _Judge.member,
     NullTest: lambda judge, node: judge.value(node.operand),  # isna never raises; only the operand's own arithmetic may
+    NumericTest: _Judge.numeric_test,
     StrTest: _Judge.string_test,
     Column: _Judge.column_mask,
     (Literal, Named, Arith, Opaque, RowNulls): _Judge.not_modelled,
@@ -280,5 +295,5 @@ _VALUE: Cases[Callable[[_Judge, Any], str]] = Cases("kind of an operand", {
     Literal: lambda judge, node: _literal_kind(node),
     Named: lambda judge, node: "named",
     Arith: _Judge.arith,
-    (Opaque, Compare, Member, Range, NullTest, StrTest, RowNulls, Not, And, Or): _Judge.not_modelled,
+    (Opaque, Compare, Member, Range, NullTest, NumericTest, StrTest, RowNulls, Not, And, Or): _Judge.not_modelled,
 })
