@@ -178,7 +178,12 @@ class _QueryConverter(Converter):
 
 
 def convert_query(query: str, pandas: frozenset[str], pandas_functions: dict[str, str]) -> Converted:
-    """Convert query text; text that does not parse becomes an opaque barrier."""
+    """Convert query text; text that does not parse, or that pandas refuses, becomes an
+    opaque barrier."""
+    if several_lines(query):
+        return Converted(Opaque(query), [Barrier(BarrierKind.OPAQUE, "pandas refuses query text on several lines "
+                                                 "(\"multi-line expressions are only valid in the context of data\"): "
+                                                 "this step raises as written")])
     try:
         rewritten = _rewrite(query)
         text = rewritten.text()
@@ -201,13 +206,20 @@ def convert_query(query: str, pandas: frozenset[str], pandas_functions: dict[str
     return _QueryConverter(dialect, text_of, rewritten.columns, rewritten.locals).finish(tree.body)
 
 
+def several_lines(query: str) -> bool:
+    """Whether pandas reads query text as several expressions, which `query` refuses: more
+    than one line with text on it, lines split as `str.splitlines` splits them (pandas 3,
+    `pandas.core.computation.eval`)."""
+    return sum(1 for line in query.splitlines() if line.strip()) > 1
+
+
 def query_conjuncts(query: str) -> list[tuple[int, int]] | None:
     """Where the top-level conjuncts of query text sit (`a > 1 and b < 2`, `a > 1 & b < 2`):
     0-based start and end offsets into the text, without surrounding blanks; None when the text
     is not a conjunction of two or more parts, or does not parse. Text on several lines is
     never split: pandas refuses it ("multi-line expressions are only valid in the context of
     data"), and its parts, each on one line, would not raise."""
-    if "\n" in query.strip() or "\r" in query.strip():
+    if several_lines(query):
         return None
     try:
         rewritten = _rewrite(query)
