@@ -59,6 +59,22 @@ def test_malformed_csv_row_names_file_and_line(tmp_path: Path) -> None:
     assert f"{path}:4: malformed CSV row (expected 2 fields, found 3)" in line
 
 
+def test_data_errors_carry_their_place_as_fields(tmp_path: Path) -> None:
+    from chainlint.profile.errors import DataError
+    from chainlint.profile.readers import open_dataset
+
+    bad = tmp_path / "bad.csv"
+    bad.write_text("a,b\n1,2\n3,4\n5,6,7\n8,9\n")
+    with pytest.raises(DataError) as raised:
+        for _ in open_dataset([str(bad)]).batches:
+            pass
+    assert (raised.value.path, raised.value.line, raised.value.reason) == (str(bad), 4, "malformed CSV row (expected 2 fields, found 3)")
+    (tmp_path / "x.xlsx").write_bytes(b"PK")
+    with pytest.raises(DataError) as raised:
+        open_dataset([str(tmp_path / "x.xlsx")])
+    assert raised.value.path == str(tmp_path / "x.xlsx") and raised.value.reason.startswith("unknown data format")
+
+
 def _pieced_csv(path: Path, replace: tuple[int, str], compressed: bool) -> Path:
     """A 60-line CSV (header `a,b`, integer rows) with one line replaced, plain or gzipped."""
     lines = ["a,b"] + [f"{i},{i * 2}" for i in range(1, 60)]

@@ -33,7 +33,7 @@ def profile_dataset(
     rows = count_batches(dataset.batches, profilers, joint, progress)
     if rows == 0:
         where = dataset.files[0].path if dataset.files else f"the {dataset.kind} data"
-        raise DataError(f"{where}: no data rows (header only or empty)")
+        raise DataError("no data rows (header only or empty)", path=str(where))
     source = {
         "kind": dataset.kind,
         "files": [{"path": f.path, "bytes": f.bytes, "modified": f.modified} for f in dataset.files],

@@ -84,7 +84,7 @@ def _layout(path: str, options: CsvOptions, delimiter: str) -> _Layout:
         elif rows == list(range(after, after + len(rows))):
             skip_after = len(rows)
         else:
-            raise DataError(f"{path}: skiprows {list(skiprows)}: only leading lines or lines right after the header are supported")
+            raise DataError(f"skiprows {list(skiprows)}: only leading lines or lines right after the header are supported", path=str(path))
         if lead and header is not None:
             header = tuple(h - lead for h in header)
     first = lead + (header[0] if header is not None else 0)
@@ -95,12 +95,12 @@ def _layout(path: str, options: CsvOptions, delimiter: str) -> _Layout:
             records = list(itertools.islice(csv.reader(text, delimiter=delimiter), first + max(levels, 1)))
     except UnicodeDecodeError as error:
         shown = "UTF-8" if encoding == "utf-8-sig" else options.encoding
-        raise DataError(f"{path}: not valid {shown} text ({error}); give its encoding") from None
+        raise DataError(f"not valid {shown} text ({error}); give its encoding", path=str(path)) from None
     except (csv.Error, OSError, pa.ArrowInvalid) as error:
-        raise DataError(f"{path}: cannot read the header: {error}") from None
+        raise DataError(f"cannot read the header: {error}", path=str(path)) from None
     wanted = records[first:]
     if len(wanted) < max(levels, 1):
-        raise DataError(f"{path}: no header row at line {first + 1}")
+        raise DataError(f"no header row at line {first + 1}", path=str(path))
     width = max(len(r) for r in wanted)
     if levels == 0:
         return _Layout([str(i) for i in range(width)], first, skip_after)
@@ -127,7 +127,7 @@ class CsvFile:
             self.types[name] = pa.timestamp("us")
         missing = sorted(set(self.types) - set(self.layout.names))
         if missing:
-            raise DataError(f"{path}: no column {missing[0]!r} (named by dtype or parse_dates)")
+            raise DataError(f"no column {missing[0]!r} (named by dtype or parse_dates)", path=str(path))
 
     def convert(self, types: dict[str, pa.DataType]) -> pacsv.ConvertOptions:
         return pacsv.ConvertOptions(
@@ -188,15 +188,15 @@ class CsvFile:
                 pass
         if invalid:
             number, what = invalid[-1]
-            where = f":{_line_at(path, offset) + number - 1}" if number is not None else ""
-            return DataError(f"{path}{where}: malformed CSV row ({what})")
+            line = _line_at(path, offset) + number - 1 if number is not None else None
+            return DataError(f"malformed CSV row ({what})", path=str(path), line=line)
         if "utf8" in message.lower() or "utf-8" in message.lower():
-            return DataError(f"{path}: not valid UTF-8 text ({message}); give its encoding")
+            return DataError(f"not valid UTF-8 text ({message}); give its encoding", path=str(path))
         if "conversion error" in message.lower():
             line = _line_at(path, offset) + _first_failing_line(piece, lambda prefix: _fails(run, prefix))
-            return DataError(f"{path}:{line}: {message} (the file's first part decided this column's type; "
-                             "name its dtype, e.g. `str`, to read it otherwise)")
-        return DataError(f"{path}: {message}")
+            return DataError(f"{message} (the file's first part decided this column's type; "
+                             "name its dtype, e.g. `str`, to read it otherwise)", path=str(path), line=line)
+        return DataError(message, path=str(path))
 
 
 def column_names(schema: pa.Schema, path: str) -> list[str]:
@@ -204,25 +204,25 @@ def column_names(schema: pa.Schema, path: str) -> list[str]:
     try:
         return schema.names
     except UnicodeDecodeError as error:
-        raise DataError(f"{path}: a column name is not valid UTF-8 (byte 0x{error.object[error.start]:02x})") from None
+        raise DataError(f"a column name is not valid UTF-8 (byte 0x{error.object[error.start]:02x})", path=str(path)) from None
 
 
 def open_csv(path: str, options: CsvOptions) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     """(schema, tables of the file's pieces, estimated row count)."""
     size = os.path.getsize(path)
     if size == 0:
-        raise DataError(f"{path}: empty file")
+        raise DataError("empty file", path=str(path))
     reader = CsvFile(path, options)
     pieces = _csv_pieces(path)
     try:
         first, _, quoted = next(pieces)
     except StopIteration:
-        raise DataError(f"{path}: empty file") from None
+        raise DataError("empty file", path=str(path)) from None
     table = reader.parse_first(first, quoted)
     column_names(table.schema, path)
     binary = [f.name for f in table.schema if pa.types.is_binary(f.type) or pa.types.is_large_binary(f.type)]
     if binary:
-        raise DataError(f"{path}: column {binary[0]!r} is not valid UTF-8 text")
+        raise DataError(f"column {binary[0]!r} is not valid UTF-8 text", path=str(path))
     schema = table.schema
     types = {f.name: f.type for f in schema}
     # The row count, estimated from the first piece, sets the summaries' sampling stride.
@@ -282,7 +282,7 @@ def _csv_pieces(path: str) -> Iterator[tuple[pa.Buffer, int, bool]]:
     try:
         source = pa.input_stream(path, compression="detect")
     except (pa.ArrowInvalid, OSError) as error:
-        raise DataError(f"{path}: cannot read: {str(error).splitlines()[0]}") from None
+        raise DataError(f"cannot read: {str(error).splitlines()[0]}", path=str(path)) from None
     if not isinstance(source, pa.CompressedInputStream):
         source.close()
         yield from _mapped_pieces(path)
@@ -294,7 +294,7 @@ def _csv_pieces(path: str) -> Iterator[tuple[pa.Buffer, int, bool]]:
             try:
                 block = source.read(_CSV_BLOCK)
             except (pa.ArrowInvalid, OSError) as error:
-                raise DataError(f"{path}: cannot read: {str(error).splitlines()[0]}") from None
+                raise DataError(f"cannot read: {str(error).splitlines()[0]}", path=str(path)) from None
             data = carry + block
             if not block:
                 if data:

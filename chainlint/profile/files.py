@@ -36,7 +36,7 @@ def data_format(path: str) -> str:
     ):
         if lower.endswith(suffix):
             return kind
-    raise DataError(f"{path}: unknown data format (expected .csv, .csv.gz, .parquet, .feather/.arrow, .jsonl)")
+    raise DataError("unknown data format (expected .csv, .csv.gz, .parquet, .feather/.arrow, .jsonl)", path=str(path))
 
 
 def expand(arguments: Sequence[str]) -> list[str]:
@@ -46,10 +46,10 @@ def expand(arguments: Sequence[str]) -> list[str]:
         if any(char in argument for char in "*?["):
             matched = sorted(glob.glob(argument, recursive=True))
             if not matched:
-                raise DataError(f"{argument}: no file matches this pattern")
+                raise DataError("no file matches this pattern", path=str(argument))
             paths.extend(matched)
         elif not os.path.exists(argument):
-            raise DataError(f"{argument}: no such file or folder")
+            raise DataError("no such file or folder", path=str(argument))
         else:
             paths.append(argument)
     return paths
@@ -85,9 +85,9 @@ def describe(path: str) -> SourceFile:
     try:
         stat = os.stat(path)
     except OSError as error:
-        raise DataError(f"{path}: cannot read: {error.strerror}") from None
+        raise DataError(f"cannot read: {error.strerror}", path=str(path)) from None
     if not os.access(path, os.R_OK):
-        raise DataError(f"{path}: cannot read: permission denied")
+        raise DataError("cannot read: permission denied", path=str(path))
     modified = datetime.fromtimestamp(stat.st_mtime, UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
     return SourceFile(path, stat.st_size, modified)
 

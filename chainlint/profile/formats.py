@@ -31,7 +31,7 @@ def open_parquet(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Tab
         if strings:
             handle = pq.ParquetFile(path, read_dictionary=strings)
     except (pa.ArrowInvalid, OSError) as error:
-        raise DataError(f"{path}: not a readable Parquet file ({str(error).splitlines()[0]})") from None
+        raise DataError(f"not a readable Parquet file ({str(error).splitlines()[0]})", path=str(path)) from None
 
     def stream() -> Iterator[pa.Table]:
         try:
@@ -41,7 +41,7 @@ def open_parquet(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Tab
                 for batch in handle.iter_batches(batch_size=batch_rows, row_groups=[group]):
                     yield pa.Table.from_batches([batch])
         except (pa.ArrowInvalid, OSError) as error:
-            raise DataError(f"{path}: {str(error).splitlines()[0]}") from None
+            raise DataError(str(error).splitlines()[0], path=str(path)) from None
 
     return _plain_schema(handle.schema_arrow), stream(), handle.metadata.num_rows
 
@@ -59,14 +59,14 @@ def open_parquet_dataset(paths: Sequence[str], batch_rows: int) -> tuple[pa.Sche
         dataset = parts[0] if len(parts) == 1 else pads.dataset(parts)
         rows = dataset.count_rows()  # reads every part's footer: a corrupt part fails here
     except (pa.ArrowInvalid, OSError) as error:  # pyarrow's message names the part
-        raise DataError(f"{paths[0]}: not a readable Parquet dataset ({str(error).splitlines()[0]})") from None
+        raise DataError(f"not a readable Parquet dataset ({str(error).splitlines()[0]})", path=str(paths[0])) from None
 
     def stream() -> Iterator[pa.Table]:
         try:
             for batch in dataset.to_batches(batch_size=batch_rows, use_threads=True):
                 yield pa.Table.from_batches([batch])
         except (pa.ArrowInvalid, OSError) as error:
-            raise DataError(f"{paths[0]}: {str(error).splitlines()[0]}") from None
+            raise DataError(str(error).splitlines()[0], path=str(paths[0])) from None
 
     return _plain_schema(dataset.schema), stream(), rows
 
@@ -90,23 +90,23 @@ def open_arrow(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table
                 for batch in stream_reader:
                     yield from table_batches(batch, batch_rows)
     except (pa.ArrowInvalid, OSError) as error:
-        raise DataError(f"{path}: not a readable Arrow/Feather file ({str(error).splitlines()[0]})") from None
+        raise DataError(f"not a readable Arrow/Feather file ({str(error).splitlines()[0]})", path=str(path)) from None
     return schema, stream(), None
 
 
 def open_jsonl(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     if os.path.getsize(path) == 0:
-        raise DataError(f"{path}: empty file")
+        raise DataError("empty file", path=str(path))
     try:
         reader = pajson.open_json(path, read_options=pajson.ReadOptions(block_size=_JSON_BLOCK, use_threads=False))
     except (pa.ArrowInvalid, OSError) as error:
-        raise DataError(f"{path}: {str(error).splitlines()[0]}") from None
+        raise DataError(str(error).splitlines()[0], path=str(path)) from None
 
     def stream() -> Iterator[pa.Table]:
         try:
             for batch in reader:
                 yield from table_batches(batch, batch_rows)
         except pa.ArrowInvalid as error:
-            raise DataError(f"{path}: {str(error).splitlines()[0]}") from None
+            raise DataError(str(error).splitlines()[0], path=str(path)) from None
 
     return reader.schema, stream(), None

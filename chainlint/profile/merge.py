@@ -109,17 +109,17 @@ def _merge_column(
 def _open_sketch(part: dict[str, Any], name: str, column: dict[str, Any], key: bytes) -> HyperLogLog:
     where = f"profile {part['name']!r}, column {name!r}"
     if "sketch" not in column:
-        raise ProfileError(f"{where}: no distinct-count sketch to merge")
+        raise ProfileError("no distinct-count sketch to merge", path=str(where))
     if part.get("format_version", 1) < 2:
-        raise ProfileError(f"{where}: format version 1 stored sketches anyone could read, which do not merge with sealed ones; profile the part again")
+        raise ProfileError("format version 1 stored sketches anyone could read, which do not merge with sealed ones; profile the part again", path=str(where))
     if not key:
-        raise ProfileError(f"{where}: merging needs the sketch key that profiled the parts ({SKETCH_KEY} in the store); this store has none")
+        raise ProfileError(f"merging needs the sketch key that profiled the parts ({SKETCH_KEY} in the store); this store has none", path=str(where))
     try:
         return unseal(column["sketch"], key, name)
     except SketchKeyError:
-        raise ProfileError(f"{where}: its sketch was sealed with another key than this store's {SKETCH_KEY}; profile the parts with one store's key") from None
+        raise ProfileError(f"its sketch was sealed with another key than this store's {SKETCH_KEY}; profile the parts with one store's key", path=str(where)) from None
     except ValueError as error:
-        raise ProfileError(f"{where}: unreadable sketch: {error}") from None
+        raise ProfileError(f"unreadable sketch: {error}", path=str(where)) from None
 
 
 def _key(value: Any) -> tuple[str, Any]:

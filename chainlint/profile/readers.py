@@ -107,11 +107,11 @@ def _chain_csv(files: list[str], schema: pa.Schema, first: Iterator[pa.Table], b
 
 def _check_columns(schema: pa.Schema, path: str) -> None:
     if len(schema) == 0:
-        raise DataError(f"{path}: no columns")
+        raise DataError("no columns", path=str(path))
     names = column_names(schema, path)
     duplicates = sorted({n for n in names if names.count(n) > 1})
     if duplicates:
-        raise DataError(f"{path}: duplicate column names: {', '.join(repr(n) for n in duplicates)}")
+        raise DataError(f"duplicate column names: {', '.join(repr(n) for n in duplicates)}", path=str(path))
 
 
 def memory_dataset(table: pa.Table, batch_rows: int = BATCH_ROWS) -> Dataset:
