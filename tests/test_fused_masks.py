@@ -18,7 +18,7 @@ from test_check import project  # noqa: F401  (the flights project: data and its
 from chainlint.engine.run import analyse_source
 from chainlint.cli import main
 from chainlint.evaluate.pandas_masks import apply_step
-from chainlint.model import ChainForm, StepKind
+from chainlint.model import ChainForm, Span, StepKind
 from chainlint.parse.source import decode_source
 
 MASKS = '''import pandas as pd
@@ -141,3 +141,17 @@ def test_a_misspelt_literal_in_a_written_mask_is_located_in_its_conjunct(project
     (finding,) = [f for f in report["findings"] if f["rule"] == "never-matches"]
     line = TYPO.split("\n")[finding["line"] - 1]
     assert line[finding["column"] - 1 : finding["end_column"] - 1] == "carrier == 'UAL'"
+
+
+def test_explain_json_gives_each_conjunct_its_span(tmp_path: Path) -> None:
+    path = tmp_path / "masks.py"
+    path.write_text(MASKS)
+    document = json.loads(CliRunner().invoke(main, ["explain", "--format", "json", str(path)]).output)
+    spans = [[step["conjunct"] for step in chain["steps"]] for chain in document["chains"]]
+    texts = [[_text(MASKS, Span(s["line"], s["column"], s["end_line"], s["end_column"])) for s in chain] for chain in spans]
+    assert texts[0] == ["flights.dep_delay > 10", 'flights.carrier == "UA"', 'flights.dest.isin(["IAH", "ORD"])']
+    assert texts[2] == ["month == 7", "air_time < 120", "dest != 'BOS'"]
+    chained = tmp_path / "chained.py"
+    chained.write_text("out = df[df.a > 1].loc[lambda d: d.b == 2]\n")
+    document = json.loads(CliRunner().invoke(main, ["explain", "--format", "json", str(chained)]).output)
+    assert [step["conjunct"] for step in document["chains"][0]["steps"]] == [None, None]

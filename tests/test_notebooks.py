@@ -239,3 +239,17 @@ def test_fix_leaves_a_notebook_that_changed_on_disk(project: Path) -> None:
     findings, files = attach_fixes(found.findings, results)
     assert all(f.fix is None for f in findings if f.rule == "reorder")
     assert "changed on disk" in files[str(path)].error
+
+
+def test_explain_locates_the_conjuncts_of_a_written_mask_in_their_cell(tmp_path: Path) -> None:
+    path = _write(tmp_path / "mask.ipynb", _notebook(
+        _cell(["import pandas as pd\n", "scans = pd.read_parquet('s.parquet')"], number=0),
+        _cell(["x = 1\n", "late = scans[(scans.weight_kg > 0.5) & (scans.status == 'damaged')]"], number=1),
+    ))
+    document = json.loads(CliRunner().invoke(main, ["explain", "--format", "json", str(path)]).output)
+    (chain,) = document["chains"]
+    assert chain["form"] == "mask" and chain["cell"]["number"] == 2
+    line = "late = scans[(scans.weight_kg > 0.5) & (scans.status == 'damaged')]"
+    texts = [line[s["conjunct"]["column"] - 1 : s["conjunct"]["end_column"] - 1] for s in chain["steps"]]
+    assert [s["conjunct"]["line"] for s in chain["steps"]] == [2, 2]
+    assert texts == ["scans.weight_kg > 0.5", "scans.status == 'damaged'"]

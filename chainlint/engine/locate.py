@@ -36,7 +36,8 @@ def _maps(results: Sequence[FileAnalysis]) -> dict[str, _Map]:
 def locate_chain(chain: Chain, where: _Map) -> Chain:
     span, cell = where.span(chain.span)
     steps = tuple(
-        replace(step, span=where.span(step.span)[0], mask_span=None if step.mask_span is None else where.span(step.mask_span)[0])
+        replace(step, span=where.span(step.span)[0], mask_span=None if step.mask_span is None else where.span(step.mask_span)[0],
+                conjunct=None if step.conjunct is None else where.span(step.conjunct)[0])
         for step in chain.steps
     )
     return replace(chain, span=span, steps=steps, cell=cell)

@@ -30,6 +30,10 @@ def step_record(step: Step) -> dict[str, Any]:
         "barrier": step.barrier.kind.value if step.barrier else None,
         "reason": step.barrier.reason if step.barrier else None,
         "mask_frame": step.mask_frame.value if step.mask_frame else None,
+        "conjunct": None if step.conjunct is None else {
+            "line": step.conjunct.line, "column": step.conjunct.column,
+            "end_line": step.conjunct.end_line, "end_column": step.conjunct.end_column,
+        },
     }
 
 
