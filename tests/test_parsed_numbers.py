@@ -113,3 +113,13 @@ def test_the_estimate_from_the_profile() -> None:
     assert _estimate(numbers).selectivity == pytest.approx(pd.to_numeric(numbers, errors="coerce").notna().mean())
     times = pd.Series(pd.to_datetime(["2020-01-01", None] * 20))
     assert _estimate(times).selectivity == pd.to_numeric(times, errors="coerce").notna().mean() == 1.0
+
+
+
+def test_parsed_numbers_compared_stay_a_barrier_with_their_reason() -> None:
+    from chainlint.engine.run import analyse_source
+    from chainlint.parse.source import text_source
+
+    source = 'import pandas as pd\nout = df.loc[lambda d: d.y > 1].loc[lambda d: pd.to_numeric(d.x, errors="coerce") > 3]\n'
+    (chain,) = analyse_source(text_source("m.py", source)).chains
+    assert not chain.steps[1].movable and "not modelled" in chain.steps[1].barrier.reason

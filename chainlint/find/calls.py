@@ -88,8 +88,8 @@ class Calls:
     def function_call(self, expr: ast.Call, name: str) -> Node:
         qualified = self.dialect.pandas_functions.get(name, name)
         if qualified == "pandas.to_numeric" and any(self.reads_frame(a) for a in expr.args):
-            return self.unknown(expr, "`to_numeric` gives nullable numbers for text columns, whose missing values cannot "
-                                      "mask: only its `.notna()` / `.isna()` with `errors=\"coerce\"` is modelled")
+            return self.unknown(expr, "chainlint models `to_numeric` only as `pd.to_numeric(COLUMN, errors=\"coerce\")` "
+                                      "followed by `.notna()` / `.isna()`; its values compared or computed with are not modelled")
         if qualified.startswith("pandas.") and qualified[7:] in NULL_METHODS and len(expr.args) == 1 and not expr.keywords:
             operand = self.value(expr.args[0])
             return self.null_test(expr, operand, NULL_METHODS[qualified[7:]])
