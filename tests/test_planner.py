@@ -8,7 +8,8 @@ import math
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from chainlint.estimate.cost import FrameShape, step_cost
+from chainlint.estimate.cost import DEFAULT_MODEL, FrameShape, predicate_cost, step_cost
+from chainlint.ir.text import parse_predicate
 from chainlint.plan.groups import groups_cost
 from chainlint.plan.planner import EXACT_LIMIT, order_cost, plan_segment, walk
 
@@ -144,3 +145,13 @@ def test_one_pricing_of_an_order_and_a_share_never_above_one() -> None:
     assert max(seen) == 1.0
     order, planned = plan_segment([0, 1], rows.__getitem__, cost)
     assert planned == order_cost(order, rows.__getitem__, cost)
+
+
+def test_a_string_test_is_priced_as_pandas_runs_it() -> None:
+    # pandas' `.str.contains` reads its pattern as a regular expression unless told
+    # `regex=False`; `match` and `fullmatch` always do (pandas' API reference).
+    shape = FrameShape({"name": "str"})
+    regex = {parse_predicate(t) for t in ('name.str.contains("a.b")', 'name.str.match("a")', 'name.str.fullmatch("ab")')}
+    plain = {parse_predicate(t) for t in ('name.str.contains("ab", regex=False)', 'name.str.startswith("ab")', 'name.str.endswith("b")')}
+    assert {predicate_cost(node, shape) for node in regex} == {DEFAULT_MODEL.regex_test}
+    assert {predicate_cost(node, shape) for node in plain} == {DEFAULT_MODEL.string_test}

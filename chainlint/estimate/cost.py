@@ -3,8 +3,8 @@
 Measured on pandas 3.1.1, a 2,000,000 x 40 frame (the figures issue #4 records). A step costs
 `n_in * (predicate + per-input-row take) + n_out * per-kept-row take + fixed`:
 - predicate per input row: numeric `==`/`>` 0.4-0.9, float `between` 1.4, pyarrow `str` `==`
-  3.7-5.7, `str` `isin` 13-15, int `isin` 3-13, `.str.contains` 40-45, object `==` 31,
-  category `==` 0.13, each `&` 0.23;
+  26 and `isin` 26 (see below), int `isin` 3-13, `.str.contains` of a literal 40-45 and of a
+  regular expression 141, object `==` 31, category `==` 0.13, each `&` 0.23;
 - taking the kept rows: numeric columns 0.2 per input row in all, plus per kept row per column
   8-10 at 5% kept or less, 2.3 at 30%, 1.6 at 70% or more; pyarrow string columns 1.3 per
   input row per column, plus per kept row per column 41-44 at 1-5% and 9.4 at 30% or more;
@@ -13,6 +13,17 @@ Measured on pandas 3.1.1, a 2,000,000 x 40 frame (the figures issue #4 records).
 Kept rows that lie in runs (a filter on a column whose equal values are clustered in row order,
 by the profile's `clustering`) are taken at the dense cost. Values marked "assumed" were not measured; `CostModel` holds all of them so that a
 calibration can replace them.
+
+The tests of a value on strings (`==`, `isin`, for `str`, object and category columns) were
+first measured on labels of different widths, which pyarrow mostly tells apart by their
+length; real columns hold codes of one width (airports, carriers, states), compared in full.
+`calibrate` now measures them on such codes; the shipped figures are the idle machine's label
+figures times the ratio codes/labels measured on the shared machine (median of 5 ratios of
+minimums, 400,000 rows): `str` `==` x5.5, `str` `isin` x1.9, object `isin` x1.2, category
+`isin` x0.5, the others x1.0; the regular expression is `.str.contains` of a literal x3.4.
+Not modelled: pandas copies a pyarrow string column held in several chunks (as `read_parquet`
+and `concat` give) whole on the first filter, whatever it keeps (about 10 ns per row and
+column); every form of a chain pays it once, on its first copy, so it moves no plan.
 """
 
 from __future__ import annotations
@@ -48,11 +59,13 @@ from chainlint.profile.view import Profile
 
 @dataclass(frozen=True)
 class CostModel:
-    compare: dict[str, float] = field(default_factory=lambda: {"numeric": 0.65, "str": 4.7, "object": 31.0, "category": 0.13})
-    member: dict[str, float] = field(default_factory=lambda: {"numeric": 8.0, "str": 14.0, "object": 40.0, "category": 1.0})
+    compare: dict[str, float] = field(default_factory=lambda: {"numeric": 0.65, "str": 26.0, "object": 31.0, "category": 0.13})
+    member: dict[str, float] = field(default_factory=lambda: {"numeric": 8.0, "str": 26.0, "object": 48.0, "category": 0.5})
     between: float = 1.4
     null_test: float = 0.5  # assumed
     string_test: float = 42.0
+    #: `.str.contains` of a regular expression (pandas' default), `.str.match`, `.str.fullmatch`.
+    regex_test: float = 141.0
     arith: float = 0.7  # assumed, per operation
     combine: float = 0.23
     opaque: float = 10.0  # assumed
@@ -152,10 +165,19 @@ _COST: Cases[Callable[[Any, FrameShape, CostModel], float]] = Cases("predicate c
     Range: _range_cost,
     NullTest: lambda node, shape, model: model.null_test,
     NumericTest: _numeric_test_cost,
-    StrTest: lambda node, shape, model: model.string_test,
+    StrTest: lambda node, shape, model: model.regex_test if _regex(node) else model.string_test,
     RowNulls: _row_nulls_cost,
     (Column, Literal, Named): lambda node, shape, model: 0.0,  # read as part of the test that uses them
 })
+
+
+def _regex(node: StrTest) -> bool:
+    """Whether pandas runs the test as a regular expression (`contains` does unless told
+    `regex=False`)."""
+    if node.method in ("match", "fullmatch"):
+        return True
+    regex = dict(node.options).get("regex")
+    return node.method == "contains" and not (isinstance(regex, Literal) and regex.value is False)
 
 
 def _operand_kind(node: Node, shape: FrameShape) -> str:
