@@ -16,6 +16,7 @@ from pygls.exceptions import JsonRpcException
 from pytest_lsp import ClientServerConfig, LanguageClient, client_capabilities
 
 from chainlint.cli import main
+from chainlint.lsp.fixes import fix_title
 
 DEMO = Path(__file__).parent.parent / "examples"
 TIMEOUT = 60
@@ -322,3 +323,8 @@ async def test_severity_is_the_sarif_level_of_each_rule(client: LanguageClient, 
     # SARIF 2.1.0 levels against LSP 3.17 DiagnosticSeverity: error 1, warning 2, note 3 (Information).
     lsp_severity = {"error": 1, "warning": 2, "note": 3}
     assert {d.code: d.severity.value for d in found} == {rule: lsp_severity[level] for rule, level in levels.items()}
+
+
+def test_the_fix_of_a_plan_that_fuses_steps_names_the_mask() -> None:
+    assert fix_title(((2,), (0,), (1,))) == "chainlint: put the filters in the planned order"
+    assert fix_title(((1, 2), (0,))) == "chainlint: run the filters as one mask of steps 2 and 3, then step 1"

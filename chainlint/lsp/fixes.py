@@ -22,6 +22,7 @@ from chainlint.engine.document import DocumentAnalysis
 from chainlint.find.origins import KEEP_COMMENT, directive_near, keep_comment
 from chainlint.model import Chain, Edit, Finding, Span
 from chainlint.parse.source import SourceText
+from chainlint.plan.groups import describe
 from chainlint.engine.fixes import fix_finding
 
 
@@ -39,7 +40,7 @@ def fixes_for(analysis: DocumentAnalysis, finding: Finding) -> list[Fix]:
     found: list[Fix] = []
     fixed = finding if planned is None else fix_finding(analysis.source, planned.chain, finding)
     if fixed.fix is not None:
-        found.append(Fix("chainlint: put the filters in the planned order", finding.rule, (fixed.fix,), True))
+        found.append(Fix(fix_title(finding.groups), finding.rule, (fixed.fix,), True))
     if finding.suggestions:
         found.extend(_literal_fixes(analysis.source, finding))
     if planned is not None:
@@ -47,6 +48,13 @@ def fixes_for(analysis: DocumentAnalysis, finding: Finding) -> list[Fix]:
         if keep is not None:
             found.append(keep)
     return found
+
+
+def fix_title(groups: tuple[tuple[int, ...], ...] | None) -> str:
+    """The title of a `reorder` fix: the plan in words once it fuses steps into one mask."""
+    if groups is None or all(len(group) == 1 for group in groups):
+        return "chainlint: put the filters in the planned order"
+    return f"chainlint: run the filters as {describe(groups)}"
 
 
 def _chain_of(planned: tuple[PlannedChain, ...], finding: Finding) -> PlannedChain | None:

@@ -25,6 +25,7 @@ from chainlint.model import Edit, Finding, Span
 from chainlint.parse.notebooks import notebook_from_cells
 from chainlint.parse.source import SourceText
 from chainlint.engine.fixes import fix_finding
+from chainlint.lsp.fixes import fix_title
 
 logger = logging.getLogger("chainlint.lsp")
 
@@ -177,7 +178,7 @@ def code_actions(ls, params: types.CodeActionParams) -> list[types.CodeAction]: 
             continue
         text_edit = types.TextEdit(range=_range(ls, state.lines, edit.span), new_text=edit.text)
         actions.append(types.CodeAction(
-            title="chainlint: put the filters in the planned order",
+            title=fix_title(finding.groups),
             kind=types.CodeActionKind.QuickFix,
             diagnostics=[d for d in params.context.diagnostics if d.code == finding.rule],
             edit=types.WorkspaceEdit(changes={params.text_document.uri: [text_edit]}),
