@@ -27,9 +27,6 @@ _LINE_REST = re.compile(r"(?P<close>[ \t)\]},;]*?)(?P<comment>[ \t]*#[^\r\n]*)?"
 _DIRECTIVE = re.compile(r"#\s*chainlint:")
 #: The start of a statement of a run, before its first step: `x = x`.
 _RUN_PREFIX = re.compile(r"[ \t]*[\w.]+[ \t]*=[ \t]*[\w.]+[ \t]*")
-#: The chain forms whose steps this edit can put in another order; the conjuncts of a written
-#: mask (form `mask`) need a rewrite that splits or joins masks.
-FORMS = frozenset({ChainForm.METHOD, ChainForm.STATEMENTS})
 
 
 class RewriteError(ChainlintError):
@@ -131,10 +128,9 @@ def _lead_start(source: SourceText, line: int) -> int:
 
 
 def chain_edit(source: SourceText, chain: Chain, order: tuple[int, ...]) -> Edit:
-    """The edit that applies `order` (step indices in their new order) to `chain`."""
+    """The edit that applies `order` (step indices in their new order) to `chain`, a method
+    chain or a statement run (`chainlint.rewrite.fuse` splits a mask written whole)."""
     steps = chain.steps
-    if chain.form not in FORMS:
-        raise RewriteError("the steps are the conjuncts of one written mask, which this rewrite does not split")
     if sorted(order) != list(range(len(steps))):
         raise RewriteError("the order is not a permutation of the chain's steps")
     if tuple(order) == tuple(range(len(steps))):
