@@ -14,10 +14,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from chainlint.engine.run import analyse_source
-from chainlint.estimate.cost import FrameShape, step_cost
+from chainlint.estimate.cost import FrameShape, step_cost, step_costs
 from chainlint.parse.source import text_source
 from chainlint.plan.chains import may_join, plan_segments, precedence
-from chainlint.plan.groups import EXACT_LIMIT, allowed, describe, groups_cost, plan_groups
+from chainlint.plan.groups import EXACT_LIMIT, _merged, allowed, describe, groups_cost, plan_groups
 from chainlint.plan.totality import LATER, judge
 
 shares = st.floats(min_value=0.0, max_value=1.0)
@@ -62,6 +62,16 @@ def _group_cost(predicates: list[float], clustered: list[float], shape: FrameSha
     return cost
 
 
+def _group_costs(predicates: list[float], clustered: list[float], shape: FrameShape, combine: float = 0.23):  # type: ignore[no-untyped-def]
+    """The same costs over arrays, as `plan_chain` gives them to the planner."""
+    def costs(masks, which, rows_in, kept):  # type: ignore[no-untyped-def]
+        members = [[i for i in range(len(predicates)) if mask >> i & 1] for mask in masks]
+        predicate = np.array([sum(predicates[i] for i in m) + combine * (len(m) - 1) for m in members])
+        least = np.array([min(clustered[i] for i in m) for m in members])
+        return step_costs(rows_in, predicate[which], kept, shape, clustered=least[which])
+    return costs
+
+
 step_cases = st.lists(
     st.tuples(costs, st.lists(st.booleans(), min_size=8, max_size=8), st.booleans(), st.sampled_from([None, "mask", "query"]),
               st.sampled_from([0.0, 0.0, 1.0])),
@@ -89,6 +99,10 @@ def test_planned_groups_are_optimal_against_brute_force(steps, shape, rows) -> N
     every = [p for p in _ordered_partitions(list(range(len(steps)))) if allowed(p, before, joinable)]
     best = min(groups_cost(p, rows_after, cost) for p in every)
     assert planned <= best * (1 + 1e-9) + 1e-6
+    # Priced over arrays, as `plan_chain` does, the plan costs the same.
+    arrays, _ = plan_groups(range(len(steps)), rows_after, cost, before, joinable,
+                            costs=_group_costs(predicates, [c for *_, c in steps], shape))
+    assert math.isclose(groups_cost(arrays, rows_after, cost), planned, rel_tol=1e-9, abs_tol=1e-6)
     # Singletons are today's plans: the best order is never better than the best plan.
     orders = [tuple((s,) for s in p) for p in itertools.permutations(range(len(steps)))]
     assert planned <= min(groups_cost(p, rows_after, cost) for p in orders if allowed(p, before, joinable)) * (1 + 1e-9) + 1e-6
@@ -115,8 +129,19 @@ def test_long_segments_merge_within_limits_and_never_cost_more_than_their_order(
 def test_a_segment_at_the_exact_limit_is_planned_whole() -> None:
     rows_after = _rows([[bool((i * 7 + r * 3) % 5) for r in range(8)] for i in range(EXACT_LIMIT)], 1e6)
     cost = _group_cost([float(1 + i % 4) for i in range(EXACT_LIMIT)], [0.0] * EXACT_LIMIT, FrameShape({f"c{i}": "str" for i in range(30)}))
-    plan, _ = plan_groups(range(EXACT_LIMIT), rows_after, cost, {}, lambda mask: True)
+    costs = _group_costs([float(1 + i % 4) for i in range(EXACT_LIMIT)], [0.0] * EXACT_LIMIT, FrameShape({f"c{i}": "str" for i in range(30)}))
+    plan, planned = plan_groups(range(EXACT_LIMIT), rows_after, cost, {}, lambda mask: True, costs=costs)
     assert sorted(s for g in plan for s in g) == list(range(EXACT_LIMIT))
+    # No greedy plan beats it: the order planner's order with neighbours merged.
+    assert planned <= _merged(list(range(EXACT_LIMIT)), rows_after, cost, {}, lambda mask: True, None)[1] * (1 + 1e-9)
+
+
+@settings(max_examples=200, deadline=None, derandomize=True)
+@given(st.lists(st.tuples(st.floats(0.0, 1e8), st.floats(0.0, 100.0), shares, st.sampled_from([0.0, 0.3, 1.0])), min_size=1, max_size=20), shapes)
+def test_step_costs_over_arrays_are_step_cost(cases, shape) -> None:
+    rows, predicate, kept, clustered = (np.array(column) for column in zip(*cases))
+    expected = [step_cost(*case[:3], shape, clustered=case[3]) for case in cases]
+    assert np.allclose(step_costs(rows, predicate, kept, shape, clustered=clustered), expected, rtol=1e-12, atol=1e-6)
 
 
 # -- the limits, against pandas ---------------------------------------------------------------

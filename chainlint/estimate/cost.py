@@ -34,6 +34,7 @@ from dataclasses import dataclass, field
 from functools import cached_property
 from typing import Any
 
+import numpy as np
 
 from chainlint.ir import (
     And,
@@ -212,13 +213,34 @@ def take_cost(rows_in: float, kept: float, shape: FrameShape, model: CostModel =
     def per_row(points: tuple[tuple[float, float], ...]) -> float:
         return (1.0 - clustered) * _interpolate(points, kept) + clustered * points[-1][1]
 
-    weight = model.take_weight
-    copied = shape.copied
-    numeric_weight = sum(n * weight.get(kind, 1.0) for kind, n in copied.items() if kind not in ("str", "object"))
-    string_weight = sum(n * weight.get(kind, 1.0) for kind, n in copied.items() if kind in ("str", "object"))
+    numeric_weight, string_weight = _weights(shape, model)
     numeric = rows_in * model.numeric_take_in + rows_out * numeric_weight * per_row(model.numeric_take_kept)
     strings = shape.string_columns * rows_in * model.string_take_in + rows_out * string_weight * per_row(model.string_take_kept)
     return numeric + strings
+
+
+def _weights(shape: FrameShape, model: CostModel) -> tuple[float, float]:
+    """The columns copied, numeric and string families, each weighted by its kind's cost."""
+    weight, copied = model.take_weight, shape.copied
+    return (sum(n * weight.get(kind, 1.0) for kind, n in copied.items() if kind not in ("str", "object")),
+            sum(n * weight.get(kind, 1.0) for kind, n in copied.items() if kind in ("str", "object")))
+
+
+def step_costs(rows_in: np.ndarray, predicate: np.ndarray, kept: np.ndarray, shape: FrameShape,
+               model: CostModel = DEFAULT_MODEL, clustered: np.ndarray | float = 0.0) -> np.ndarray:
+    """`step_cost` over arrays at once: the planner prices every group at every set of rows
+    it may receive (3^12 of them for 12 steps)."""
+    numeric_weight, string_weight = _weights(shape, model)
+
+    def per_row(points: tuple[tuple[float, float], ...]) -> np.ndarray:
+        shares, values = zip(*points)
+        return (1.0 - clustered) * np.interp(kept, shares, values) + clustered * points[-1][1]
+
+    rows_out = rows_in * kept
+    numeric = rows_in * model.numeric_take_in + rows_out * numeric_weight * per_row(model.numeric_take_kept)
+    strings = shape.string_columns * rows_in * model.string_take_in + rows_out * string_weight * per_row(model.string_take_kept)
+    take = np.where(kept >= 1.0, 0.0, numeric + strings)
+    return rows_in * predicate + take + model.fixed
 
 
 def step_cost(rows_in: float, predicate: float, kept: float, shape: FrameShape, model: CostModel = DEFAULT_MODEL,

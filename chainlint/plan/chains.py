@@ -9,8 +9,10 @@ raise on rows an earlier step removes never moving before the steps written befo
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+
+import numpy as np
 
 from chainlint.bind.binding import Binding
 from chainlint.estimate.cost import (
@@ -19,6 +21,7 @@ from chainlint.estimate.cost import (
     FrameShape,
     predicate_cost,
     step_cost,
+    step_costs,
 )
 from chainlint.estimate.selectivity import Basis, Estimate, Estimator
 from chainlint.ir import And, Column, Compare, Member, Node, Not, NullTest, NumericTest, Or, Range, StrTest
@@ -150,6 +153,12 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
     def single_cost(step: int, rows_in: float, kept: float) -> float:
         return cost(1 << step, rows_in, kept)
 
+    def costs(masks: Sequence[int], which: np.ndarray, rows_in: np.ndarray, kept: np.ndarray) -> np.ndarray:
+        for mask in masks:
+            cost(mask, 0.0, 1.0)  # fills per_mask
+        known = np.array([per_mask[mask] for mask in masks], dtype=float).reshape(-1, 2)
+        return step_costs(rows_in, known[which, 0], kept, shape, model, known[which, 1])
+
     planned: list[tuple[int, ...]] = []
     single: list[int] = []
     done = 0
@@ -172,7 +181,7 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
         single.extend(order)
         if any(joinable(1 << a | 1 << b) for a, b in zip(order, order[1:])) or (
                 len(segment) <= GROUP_LIMIT and any(joinable(1 << a | 1 << b) for a in segment for b in segment if a < b)):
-            planned.extend(plan_groups(segment, segment_rows, cost, before, joinable, order)[0])
+            planned.extend(plan_groups(segment, segment_rows, cost, before, joinable, order, costs)[0])
         else:  # nothing may join: the plan is the order
             planned.extend((step,) for step in order)
         for step in segment:
