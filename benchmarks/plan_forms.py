@@ -178,7 +178,7 @@ def bench_table(label: str, frame: pd.DataFrame, source: str, repeat: int, model
           f"{sum(1 for d in dtypes.values() if d[0] in 'IUF' or d == 'boolean')} nullable, "
           f"{int(frame.select_dtypes('number').isna().any().sum())} numeric with missing values); {repeat} repeats, median; load average {_load()}")
     print(f"{'chain':6} {'forms':>5} {'planned form':16} {'planned':>9} {'fastest':>9} {'regret':>7} {'vs written':>10} {'speedup':>8} "
-          f"{'best order':>10} {'fastest form':16} {'grouped':>7} {'est/meas before':>15} {'est/meas after':>14}")
+          f"{'best order':>10} {'fastest form':16} {'grouped':>7} {'shipped plan':16} {'regret':>7} {'est/meas before':>15} {'est/meas after':>14}")
     rows = []
     for item, calibrated in zip(planned["shipped"], planned["calibrated"]):
         chain = item.chain
@@ -209,7 +209,8 @@ def bench_table(label: str, frame: pd.DataFrame, source: str, repeat: int, model
         r = rows[-1]
         print(f"{chain.span.line:<6} {len(every):5} {_words(calibrated.plan.groups):16} {plan * 1e3:8.1f}ms {best[fastest] * 1e3:8.1f}ms "
               f"{r['regret']:7.3f} {r['vs_written']:10.3f} {r['speedup']:7.2f}x {r['single_regret']:10.3f} {_words(fastest):16} "
-              f"{'yes' if r['grouped'] else 'no':>7} {_pair(r['error_before']):>15} {_pair(r['error_after']):>14}")
+              f"{'yes' if r['grouped'] else 'no':>7} {_words(item.plan.groups):16} {r['regret_shipped']:7.3f} "
+              f"{_pair(r['error_before']):>15} {_pair(r['error_after']):>14}")
     regrets = [r["regret"] for r in rows]
     print(f"{label}: planned (calibrated model) median regret {statistics.median(regrets):.3f} (goal <= 1.05), max {max(regrets):.3f} "
           f"(goal <= 1.25); planned / written max {max(r['vs_written'] for r in rows):.3f} (goal <= 1.0); median speedup over "
