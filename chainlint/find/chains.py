@@ -16,7 +16,7 @@ from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
 from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
 from chainlint.find.positions import Positions
-from chainlint.find.runs import bound, inplace_dropna, mentioned, read_elsewhere, steps_over
+from chainlint.find.runs import Walked, bound, inplace_dropna, mentioned, read_elsewhere
 from chainlint.find.screen import Seams
 from chainlint.find.shapes import Masks, Names, Shape, is_mask_value, mask_frames, peel, rows_axis
 from chainlint.find.steps import StepContext, build_step, selected_columns
@@ -285,10 +285,18 @@ class _Finder:
         filters the frame the one before produced (under the same name or a new one), with
         statements that touch neither the run's frames nor the names its filters read between."""
         found: dict[int, list[_Member]] = {}
+        walked = Walked()
+        shaped: dict[int, tuple[str, _Decomposed] | None] = {}
+
+        def filtering(number: int) -> tuple[str, _Decomposed] | None:
+            if number not in shaped:
+                self.masks = self.block_masks[number]
+                shaped[number] = self.assignment(statements[number]) or self.inplace(statements[number])
+            return shaped[number]
+
         index = 0
         while index < len(statements):
-            self.masks = self.block_masks[index]
-            first = self.assignment(statements[index]) or self.inplace(statements[index])
+            first = filtering(index)
             if first is None:
                 index += 1
                 continue
@@ -301,8 +309,7 @@ class _Finder:
             following = last = index + 1
             while following < len(statements):
                 statement = statements[following]
-                self.masks = self.block_masks[following]
-                later = self.assignment(statement) or self.inplace(statement)
+                later = filtering(following)
                 if later is not None and dotted_name(later[1].base) == members[-1].target:
                     value = mentioned(later[1].shapes[-1].node)
                     for number, names in between:
@@ -313,9 +320,9 @@ class _Finder:
                     read |= value
                     following = last = following + 1
                     continue
-                if not steps_over(statement, frames):
+                if not walked.steps_over(statement, frames):
                     break
-                names = bound(statement)
+                names = walked.bound(statement)
                 between.append((len(members), names))
                 if names & read:
                     fences.setdefault(len(members), sorted(names & read)[0])

@@ -41,10 +41,30 @@ def bound(statement: ast.stmt) -> set[str]:
     return names
 
 
-def steps_over(statement: ast.stmt, frames: set[str]) -> bool:
-    """Whether a run may continue across `statement` (`frames`: the run's frame names so far).
-    Where it binds a name a filter reads, no step may cross it: the run marks a barrier there."""
-    return isinstance(statement, _SIMPLE) and not (mentioned(statement) & frames)
+class Walked:
+    """`mentioned` and `bound` of a block's statements, each statement walked once: the scan for
+    runs passes the same statements again from every filter statement before them."""
+
+    def __init__(self) -> None:
+        self._mentioned: dict[int, set[str]] = {}
+        self._bound: dict[int, set[str]] = {}
+
+    def bound(self, statement: ast.stmt) -> set[str]:
+        found = self._bound.get(id(statement))
+        if found is None:
+            found = self._bound[id(statement)] = bound(statement)
+        return found
+
+    def steps_over(self, statement: ast.stmt, frames: set[str]) -> bool:
+        """Whether a run may continue across `statement` (`frames`: the run's frame names so
+        far). Where it binds a name a filter reads, no step may cross it: the run marks a
+        barrier there."""
+        if not isinstance(statement, _SIMPLE):
+            return False
+        found = self._mentioned.get(id(statement))
+        if found is None:
+            found = self._mentioned[id(statement)] = mentioned(statement)
+        return not (found & frames)
 
 
 def inplace_dropna(statement: ast.stmt) -> ast.Call | None:
