@@ -47,12 +47,14 @@ notebooks.register(server, options_for)
 
 # -- positions ------------------------------------------------------------------------------
 
-def _range(ls: LanguageServer, lines: list[str], span: Span) -> types.Range:
+def _range(ls: LanguageServer, lines: list[str], span: Span, ascii: bool = False) -> types.Range:
+    """A span in the client's units; `ascii`: the text is ASCII, where every encoding counts
+    one unit a character (the codec counts them one by one)."""
     internal = types.Range(
         start=types.Position(line=span.line - 1, character=span.column - 1),
         end=types.Position(line=span.end_line - 1, character=span.end_column - 1),
     )
-    return ls.workspace.position_codec.range_to_client_units(lines, internal)
+    return internal if ascii else ls.workspace.position_codec.range_to_client_units(lines, internal)
 
 
 def _internal(ls: LanguageServer, lines: list[str], position: types.Position) -> tuple[int, int]:
@@ -80,6 +82,7 @@ def diagnostics(ls: LanguageServer, state: DocumentState, made: dict[tuple[objec
         return [types.Diagnostic(range=start, message=analysis.refusal, severity=types.DiagnosticSeverity.Information,
                                  source="chainlint")]
     lines = analysis.source.lines
+    ascii = analysis.source.text.isascii()
     listed: list[str] | None = None
     before = dict(made)
     made.clear()
@@ -89,7 +92,7 @@ def diagnostics(ls: LanguageServer, state: DocumentState, made: dict[tuple[objec
         diagnostic = before.get(key)
         if diagnostic is None:
             listed = list(lines) if listed is None else listed
-            diagnostic = types.Diagnostic(range=_range(ls, listed, finding.span), message=finding.message,
+            diagnostic = types.Diagnostic(range=_range(ls, listed, finding.span, ascii), message=finding.message,
                                           severity=severity(finding.rule), code=finding.rule, source="chainlint")
         made[key] = diagnostic
         out.append(diagnostic)
