@@ -285,7 +285,7 @@ class _Finder:
         filters the frame the one before produced (under the same name or a new one), with
         statements that touch neither the run's frames nor the names its filters read between."""
         found: dict[int, list[_Member]] = {}
-        walked = Walked()
+        walked = Walked(statements)
         shaped: dict[int, tuple[str, _Decomposed] | None] = {}
 
         def filtering(number: int) -> tuple[str, _Decomposed] | None:
@@ -307,26 +307,23 @@ class _Finder:
             between: list[tuple[int, set[str]]] = []
             fences: dict[int, str] = {}
             following = last = index + 1
-            while following < len(statements):
-                statement = statements[following]
-                later = filtering(following)
-                if later is not None and dotted_name(later[1].base) == members[-1].target:
-                    value = mentioned(later[1].shapes[-1].node)
-                    for number, names in between:
-                        if names & value:
-                            fences.setdefault(number, sorted(names & value)[0])
-                    members.append(_Member(statement, later[0], later[1]))
-                    frames.add(later[0])
-                    read |= value
-                    following = last = following + 1
-                    continue
-                if not walked.steps_over(statement, frames):
-                    break
-                names = walked.bound(statement)
-                between.append((len(members), names))
-                if names & read:
-                    fences.setdefault(len(members), sorted(names & read)[0])
-                following += 1
+            while (stop := walked.stop(following, frames)) < len(statements):
+                later = filtering(stop)
+                if later is None or dotted_name(later[1].base) != members[-1].target:
+                    break  # a statement the run may not step over
+                for statement in statements[following:stop]:  # stepped over
+                    names = walked.bound(statement)
+                    between.append((len(members), names))
+                    if names & read:
+                        fences.setdefault(len(members), sorted(names & read)[0])
+                value = mentioned(later[1].shapes[-1].node)
+                for number, names in between:
+                    if names & value:
+                        fences.setdefault(number, sorted(names & value)[0])
+                members.append(_Member(statements[stop], later[0], later[1]))
+                frames.add(later[0])
+                read |= value
+                following = last = stop + 1
             if len(members) >= 2:
                 members = [replace(m, fence=fences.get(n)) for n, m in enumerate(members)]
             if len(members) >= 2 and self.seams.meets(members[0].statement.lineno, members[-1].statement.end_lineno or 0):

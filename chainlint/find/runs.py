@@ -10,6 +10,7 @@ filter after it becomes a barrier). Anything else ends the run.
 from __future__ import annotations
 
 import ast
+import bisect
 
 #: Statements a run may step over (never control flow: a `return` between filters is a branch;
 #: never `pass`, which separates a notebook's cells, since a run never spans two cells).
@@ -42,12 +43,16 @@ def bound(statement: ast.stmt) -> set[str]:
 
 
 class Walked:
-    """`mentioned` and `bound` of a block's statements, each statement walked once: the scan for
-    runs passes the same statements again from every filter statement before them."""
+    """A block's statements as the scan for runs reads them, each walked once: from every
+    filter statement the scan goes on over the simple statements that mention none of the
+    run's frames, so where it stops is looked up (the next statement that is not simple, or
+    that mentions one of the frames) instead of walked to, statement by statement."""
 
-    def __init__(self) -> None:
-        self._mentioned: dict[int, set[str]] = {}
+    def __init__(self, statements: list[ast.stmt]) -> None:
+        self.statements = statements
         self._bound: dict[int, set[str]] = {}
+        self._walls: list[int] | None = None
+        self._mentions: dict[str, list[int]] = {}
 
     def bound(self, statement: ast.stmt) -> set[str]:
         found = self._bound.get(id(statement))
@@ -55,16 +60,25 @@ class Walked:
             found = self._bound[id(statement)] = bound(statement)
         return found
 
-    def steps_over(self, statement: ast.stmt, frames: set[str]) -> bool:
-        """Whether a run may continue across `statement` (`frames`: the run's frame names so
-        far). Where it binds a name a filter reads, no step may cross it: the run marks a
-        barrier there."""
-        if not isinstance(statement, _SIMPLE):
-            return False
-        found = self._mentioned.get(id(statement))
-        if found is None:
-            found = self._mentioned[id(statement)] = mentioned(statement)
-        return not (found & frames)
+    def stop(self, start: int, frames: set[str]) -> int:
+        """The index of the first statement from `start` on that a run of `frames` may not step
+        over (it is not simple, or it mentions one of the frames; a later filter of the run
+        mentions its frame), or the block's length. Every statement before it is one the run
+        may step over."""
+        if self._walls is None:
+            self._walls = []
+            for number, statement in enumerate(self.statements):
+                if not isinstance(statement, _SIMPLE):
+                    self._walls.append(number)
+                    continue
+                for name in mentioned(statement):
+                    self._mentions.setdefault(name, []).append(number)
+        found = len(self.statements)
+        for numbers in [self._walls, *(self._mentions.get(frame, ()) for frame in frames)]:
+            at = bisect.bisect_left(numbers, start)
+            if at < len(numbers):
+                found = min(found, numbers[at])
+        return found
 
 
 def inplace_dropna(statement: ast.stmt) -> ast.Call | None:
