@@ -64,6 +64,9 @@ PIECES = [
     'def bump2():\n    global SCANS\n    SCANS = "x.parquet"\n',
     "def k(x=scans[scans.attempts > 1][m]):\n    return x\n",
     "@register(scans[scans.attempts > 1][scans.depot == 'WEST'])\ndef q():\n    return 1\n",
+    # Masks written whole: each step's conjunct has a span of its own.
+    "def fm(scans):\n    return scans[(scans.weight_kg > 1) & (scans.status == 'lost')]\n",
+    'fused = scans[(scans.weight_kg > 1) & (scans.status == "lost")]\n',
 ]
 #: The pieces of statement runs, drawn as often as all the others: runs joined and split by an
 #: edit, across other top-level statements, are where reuse by a statement's text goes wrong.
@@ -173,7 +176,10 @@ def test_an_edit_far_above_a_chain_reaches_it(project: Path, before: str, after:
 
 #: (text before, text after): an edit that joins or splits a statement run across top-level
 #: statements, or moves statements the run reaches.
-RUN_EDITS = [
+MOVING_EDITS = [
+    # A function reused below a line added at the top: its mask written whole moves with it.
+    ("import pandas as pd\ndef fm(scans):\n    return scans[(scans.weight_kg > 1) & (scans.status == 'lost')]\n",
+     "x = 1\nimport pandas as pd\ndef fm(scans):\n    return scans[(scans.weight_kg > 1) & (scans.status == 'lost')]\n"),
     # A run's first statement inserted at the top: the run now spans the imports to a statement
     # the edit moved.
     ('import pandas as pd\nimport pandas as pd\nreview = review[review.status == "lost"]\n',
@@ -187,8 +193,8 @@ RUN_EDITS = [
 ]
 
 
-@pytest.mark.parametrize("before, after", RUN_EDITS)
-def test_an_edit_that_joins_or_splits_a_run(project: Path, before: str, after: str) -> None:
+@pytest.mark.parametrize("before, after", MOVING_EDITS)
+def test_an_edit_that_joins_splits_or_moves_a_chain(project: Path, before: str, after: str) -> None:
     options = Options(rules=frozenset(RULES))
     path = str(project / "m.py")
     analyser = DocumentAnalyser(path)

@@ -138,6 +138,8 @@ class DocumentAnalyser:
         self.max_bytes = max_bytes
         self._lock = threading.Lock()
         self._units: dict[Key, _Unit] = {}
+        #: The plan and findings of each chain of the last analysis, moved to its first line.
+        self._plans: dict[Chain, tuple[PlannedChain, tuple[Finding, ...]]] = {}
         self._parser = Reparser()
         self._stores = LoadedStores() if stores is None else stores
         self._setting: tuple[Any, ...] | None = None
@@ -162,7 +164,7 @@ class DocumentAnalyser:
         store = (options.store or find_store(Path(self.path))).resolve()
         setting = (options, store, self._stores.load(store), module_names(tree), _imports(source, tree))
         if self._setting is None or any(a is not b and a != b for a, b in zip(setting, self._setting)):
-            self._units = {}
+            self._units, self._plans = {}, {}
             self._setting = setting
         asking = _Asking(tree)
         self._reusable(source, groups, seams, asking)
@@ -173,8 +175,7 @@ class DocumentAnalyser:
             return self._failed(error.line, error.column, error.message, source)
         except RecursionError:
             return self._failed(1, 1, "nesting too deep to analyse", source)
-        planned, _ = plan_results([FileAnalysis(self.path, chains=tuple(chains))], options, self._stores)
-        findings, _ = apply_rules(planned, options)
+        planned, findings = self._planned(chains, options)
         fresh = [g.first for g in groups if g.reused is None]
         chains_of: dict[int, list[PlannedChain]] = {first: [] for first in fresh}
         findings_of: dict[int, list[Finding]] = {first: [] for first in fresh}
@@ -198,6 +199,31 @@ class DocumentAnalyser:
                 kept[group.key] = unit  # as analysed: each later analysis moves it from there
         self._units = kept
         return DocumentAnalysis(source, tuple(parts), statements=tuple((g.first, g.last) for g in groups))
+
+    def _planned(self, chains: list[Chain], options: Options) -> tuple[list[PlannedChain], list[Finding]]:
+        """Bind, plan and check the chains found; a chain found in the last analysis too (the
+        same chain, perhaps moved by whole lines) keeps its plan and findings, which depend on
+        nothing else under one setting."""
+        keys = [_shift_chain(chain, 1 - chain.span.line) for chain in chains]
+        missing = [chain for chain, key in zip(chains, keys) if key not in self._plans]
+        fresh = iter(plan_results([FileAnalysis(self.path, chains=tuple(missing))], options, self._stores)[0] if missing else ())
+        planned: list[PlannedChain] = []
+        findings: list[Finding] = []
+        kept: dict[Chain, tuple[PlannedChain, tuple[Finding, ...]]] = {}
+        for chain, key in zip(chains, keys):
+            delta = chain.span.line - 1
+            known = self._plans.get(key)
+            if known is None:
+                item = next(fresh)
+                found = tuple(apply_rules([item], options)[0])
+                known = (_shift((item,), -delta)[0], _shift(found, -delta))
+            else:
+                item, found = _shift((known[0],), delta)[0], _shift(known[1], delta)
+            kept[key] = known
+            planned.append(item)
+            findings.extend(found)
+        self._plans = kept
+        return planned, findings
 
     def _failed(self, line: int, column: int, message: str, source: SourceText) -> DocumentAnalysis:
         return DocumentAnalysis(source, errors=(FileProblem(self.path, line, column, message),))
@@ -333,6 +359,15 @@ def _moved(value: Any, **changes: Any) -> Any:
     return copy
 
 
+def _shift_chain(chain: Chain, delta: int) -> Chain:
+    """A chain with every line moved by `delta`."""
+    if not delta:
+        return chain
+    steps = tuple(_moved(s, span=_span(s.span, delta), mask_span=_span(s.mask_span, delta), conjunct=_span(s.conjunct, delta))
+                  for s in chain.steps)
+    return _moved(chain, span=_span(chain.span, delta), steps=steps)  # type: ignore[no-any-return]
+
+
 def _shift(items: tuple[Any, ...], delta: int) -> tuple[Any, ...]:
     """Planned chains or findings with every line moved by `delta` (a unit moves by whole lines)."""
     if not delta:
@@ -342,9 +377,7 @@ def _shift(items: tuple[Any, ...], delta: int) -> tuple[Any, ...]:
         if isinstance(item, Finding):
             moved.append(_moved(item, span=_span(item.span, delta)))
             continue
-        chain = item.chain
-        steps = tuple(_moved(s, span=_span(s.span, delta), mask_span=_span(s.mask_span, delta)) for s in chain.steps)
-        chain = _moved(chain, span=_span(chain.span, delta), steps=steps)
+        chain = _shift_chain(item.chain, delta)
         plan = None if item.plan is None else _moved(item.plan, chain=chain)
         moved.append(_moved(item, chain=chain, plan=plan))
     return tuple(moved)
