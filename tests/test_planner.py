@@ -8,7 +8,7 @@ import math
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from chainlint.estimate.cost import DEFAULT_MODEL, FrameShape, predicate_cost, step_cost
+from chainlint.estimate.cost import DEFAULT_MODEL, FrameShape, fixed_cost, predicate_cost, step_cost
 from chainlint.ir.text import parse_predicate
 from chainlint.plan.groups import groups_cost
 from chainlint.plan.planner import EXACT_LIMIT, order_cost, plan_segment, walk
@@ -155,3 +155,13 @@ def test_a_string_test_is_priced_as_pandas_runs_it() -> None:
     plain = {parse_predicate(t) for t in ('name.str.contains("ab", regex=False)', 'name.str.startswith("ab")', 'name.str.endswith("b")')}
     assert {predicate_cost(node, shape) for node in regex} == {DEFAULT_MODEL.regex_test}
     assert {predicate_cost(node, shape) for node in plain} == {DEFAULT_MODEL.string_test}
+
+
+def test_the_fixed_cost_of_a_step_counts_the_columns_pandas_holds_apart() -> None:
+    # pandas keeps numpy columns of one dtype in one block, and each pyarrow string,
+    # categorical or nullable column as an array of its own (pandas' internals guide).
+    numeric = FrameShape({f"n{i}": "numeric" for i in range(8)})
+    mixed = FrameShape({"s": "str", "c": "category", "m": "numeric", "o": "object"}, {"m": "nullable"})
+    assert fixed_cost(numeric) == DEFAULT_MODEL.fixed
+    assert fixed_cost(mixed) == DEFAULT_MODEL.fixed + 3 * DEFAULT_MODEL.fixed_per_column
+    assert step_cost(0.0, 1.0, 1.0, mixed) == fixed_cost(mixed)

@@ -93,6 +93,8 @@ def calibrate(rows: int = 400_000, seed: int = 1) -> CostModel:
     tiny_mask = np.ones(10, dtype=bool)
     tiny_mask[0] = False
     fixed = _best(lambda: tiny[tiny_mask], repeat=50) * 1e9
+    tiny_strings = strings.iloc[:10]
+    per_column = max(_best(lambda: tiny_strings[tiny_mask], repeat=50) * 1e9 - fixed, 0.0) / _COLUMNS
     default = CostModel()
     return CostModel(
         compare=compare,
@@ -109,6 +111,7 @@ def calibrate(rows: int = 400_000, seed: int = 1) -> CostModel:
         numeric_take_kept=_curve(numeric_points),
         string_take_kept=_curve(string_points),
         fixed=fixed,
+        fixed_per_column=per_column,
         take_weight=weights,
     )
 
