@@ -31,7 +31,14 @@ from chainlint.profile.pieces import plan_pieces
 from chainlint.profile.readers import open_dataset
 
 distributed = pytest.importorskip("distributed", reason="Dask is not installed: pip install '.[dask]' to run the cluster tests")
-from chainlint.cluster.run import profile_on_cluster  # noqa: E402
+from chainlint.cluster.run import connect, profile_on_cluster  # noqa: E402
+
+# Every test is bounded, on a loaded two-core machine too: the cluster's start and its client's
+# calls by `connect`'s timeout, each run by RUN_SECONDS, the whole test (fixtures included)
+# by pytest-timeout, which fails it rather than letting the suite stall.
+START_SECONDS = 120
+RUN_SECONDS = 180
+pytestmark = pytest.mark.timeout(2 * START_SECONDS + RUN_SECONDS)
 
 PIPELINE = '''def correlated(frame):
     return frame.loc[lambda d: d.dest == "HNL"].loc[lambda d: d.carrier == "HA"].loc[lambda d: d.distance > 1000]
@@ -41,9 +48,13 @@ KEYS = Settings(sketch_key=bytes(range(32)), redaction_key=bytes(range(32, 64)))
 
 @pytest.fixture(scope="module")
 def client():  # type: ignore[no-untyped-def]
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None,
-                                  silence_logs=50) as cluster, distributed.Client(cluster) as connected:
+    """Two worker processes, as `--dask local:2` starts them; closed (bounded) however the tests end."""
+    with connect("local:2", timeout=START_SECONDS) as connected:
         yield connected
+
+
+def _run(client, plan, name: str, settings: Settings, **options) -> dict:  # type: ignore[no-untyped-def]
+    return profile_on_cluster(client, plan, name, settings, timeout=RUN_SECONDS, **options)
 
 
 @pytest.fixture(scope="module")
@@ -100,7 +111,7 @@ def test_csv_byte_ranges_equal_the_local_profile(client, data: Path, monkeypatch
     local = profile_dataset(open_dataset([path]), "flights", KEYS)
     plan = plan_pieces([path])
     assert len(plan.pieces) > 20 and plan.pieces[1].start == plan.pieces[0].end
-    _same_but_time(local, profile_on_cluster(client, plan, "flights", KEYS))
+    _same_but_time(local, _run(client, plan, "flights", KEYS))
 
 
 def test_estimated_columns_stay_within_their_stated_error(client, data: Path) -> None:  # type: ignore[no-untyped-def]
@@ -108,8 +119,8 @@ def test_estimated_columns_stay_within_their_stated_error(client, data: Path) ->
     path = str(data / "flights.parquet")
     local = profile_dataset(open_dataset([path]), "flights", settings)
     plan = plan_pieces([path])
-    first = profile_on_cluster(client, plan, "flights", settings)
-    _same_but_time(first, profile_on_cluster(client, plan, "flights", settings))  # deterministic for a split
+    first = _run(client, plan, "flights", settings)
+    _same_but_time(first, _run(client, plan, "flights", settings))  # deterministic for a split
     frame = flights()
     estimated = [name for name, column in first["columns"].items() if not column["distinct"].get("exact", True)]
     assert {"dep_delay", "tailnum", "time_hour"} <= set(estimated)
@@ -142,11 +153,11 @@ def test_hive_folders_and_fsspec_urls_equal_the_local_profile(client, data: Path
     local = profile_dataset(open_dataset([str(folder)]), "flights", KEYS)
     plan = plan_pieces([str(folder)])
     assert len({p.path for p in plan.pieces}) == 3 < len(plan.pieces)
-    _same_but_time(local, profile_on_cluster(client, plan, "flights", KEYS))
+    _same_but_time(local, _run(client, plan, "flights", KEYS))
     # The same Parquet files behind a file:// URL (fsspec's local implementation: no network).
     parts = sorted(str(p) for p in folder.rglob("*.parquet"))
     local = profile_dataset(open_dataset(parts), "flights", KEYS)
-    remote = profile_on_cluster(client, plan_pieces([f"file://{folder}/**/*.parquet"]), "flights", KEYS)
+    remote = _run(client, plan_pieces([f"file://{folder}/**/*.parquet"]), "flights", KEYS)
     assert [f["path"] for f in remote["source"]["files"]] == [f"file://{p}" for p in parts]
     assert remote["source"]["fingerprint"] == local["source"]["fingerprint"]
     remote["source"] = local["source"]
@@ -162,7 +173,7 @@ def test_bad_data_names_the_piece_and_writes_nothing(client, data: Path, monkeyp
     plan = plan_pieces([str(path)])
     bad = next(p for p in plan.pieces if p.start <= sum(len(x) + 1 for x in lines[:2500]) < p.end)
     with pytest.raises(DataError) as raised:
-        profile_on_cluster(client, plan, "broken", KEYS)
+        _run(client, plan, "broken", KEYS)
     assert f"{path}:2501: malformed CSV row" in str(raised.value)
     assert f"bytes {bad.start}-{bad.end} of {path}" in str(raised.value)
     store = data / "broken-store"
@@ -183,5 +194,14 @@ def test_a_worker_killed_mid_run_is_replaced_and_the_profile_is_the_same(client,
             os.kill(victims[0], signal.SIGKILL)
             killed.append(victims[0])
 
-    _same_but_time(local, profile_on_cluster(client, plan_pieces([path]), "flights", KEYS, progress=kill_one))
+    _same_but_time(local, _run(client, plan_pieces([path]), "flights", KEYS, progress=kill_one))
     assert killed and victims[0] not in client.run(os.getpid).values()
+
+
+def test_a_run_past_its_time_limit_is_cancelled(client, data: Path) -> None:  # type: ignore[no-untyped-def]
+    from chainlint.cluster.run import ClusterError
+
+    plan = plan_pieces([str(data / "flights.parquet")])
+    with pytest.raises(ClusterError, match=r"did not finish within 0.001 s; it was cancelled"):
+        profile_on_cluster(client, plan, "flights", KEYS, timeout=0.001)  # 14 row groups: never done in 1 ms
+    _same_but_time(_run(client, plan, "flights", KEYS), profile_dataset(open_dataset([str(data / "flights.parquet")]), "flights", KEYS))

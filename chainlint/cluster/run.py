@@ -37,11 +37,19 @@ class ClusterError(Exception):
     """The cluster cannot be reached, or lost the run (not a fault of the data)."""
 
 
+#: Seconds a cluster may take to start its workers or answer the client before the run gives up.
+START_SECONDS = 120.0
+#: Seconds a client or a cluster may take to close.
+CLOSE_SECONDS = 30.0
+
+
 @contextmanager
-def connect(address: str) -> Iterator[Client]:
+def connect(address: str, timeout: float = START_SECONDS) -> Iterator[Client]:
     """A client of the scheduler at `address`, or of a LocalCluster of N worker processes for
-    `local[:N]` (N: this machine's cores when not given), closed on leaving."""
+    `local[:N]` (N: this machine's cores when not given), closed on leaving. Starting and
+    connecting are bounded by `timeout` seconds, closing by `CLOSE_SECONDS`."""
     local = _LOCAL.fullmatch(address)
+    cluster = None
     try:
         if local:
             workers = int(local.group(1) or os.cpu_count() or 1)
@@ -51,24 +59,35 @@ def connect(address: str) -> Iterator[Client]:
             # shared out instead, so that one worker uses them all as the local path does.
             threads = max(1, (os.cpu_count() or 1) // workers)
             environ = {**dask.config.get("distributed.nanny.pre-spawn-environ"), "OMP_NUM_THREADS": threads}
-            with dask.config.set({"distributed.nanny.pre-spawn-environ": environ}), \
-                    LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=":0",
-                                 silence_logs=50) as cluster, Client(cluster) as client:
-                yield client
-            return
-        client = Client(address, timeout="10s")
-    except (OSError, ValueError) as error:
+            with dask.config.set({"distributed.nanny.pre-spawn-environ": environ}):
+                cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=":0",
+                                       silence_logs=50, death_timeout=timeout)
+            client = Client(cluster, timeout=timeout)
+        else:
+            client = Client(address, timeout=min(timeout, 10.0))
+    except (OSError, ValueError, TimeoutError, RuntimeError) as error:
+        if cluster is not None:
+            cluster.close(timeout=CLOSE_SECONDS)
+        if local:
+            raise ClusterError(f"--dask {address}: the local cluster did not start ({error})") from None
         raise ClusterError(f"--dask {address}: cannot reach the scheduler ({error}); give tcp://HOST:PORT, or local[:N]") from None
-    with client:
+    try:
         yield client
+    finally:
+        try:
+            client.close(timeout=CLOSE_SECONDS)
+        finally:
+            if cluster is not None:
+                cluster.close(timeout=CLOSE_SECONDS)
 
 
 def profile_on_cluster(
     client: Client, plan: Plan, name: str, settings: Settings, joint: JointCounter | None = None,
-    progress: Callable[[int, int], None] | None = None,
+    progress: Callable[[int, int], None] | None = None, timeout: float | None = None,
 ) -> dict[str, Any]:
     """The profile document of `plan`'s dataset, counted by `client`'s workers; `progress` is
-    told the tasks done of the total as they finish."""
+    told the tasks done of the total as they finish. With `timeout` (seconds), a run that has
+    not finished by then is cancelled (ClusterError)."""
     unknown = sorted(settings.redact - set(plan.schema.names))
     if unknown:
         raise DataError(f"--redact names no column of the data: {', '.join(unknown)}")
@@ -97,7 +116,8 @@ def profile_on_cluster(
     total = len(pending)
     del level  # the client keeps a piece's partial only until its merge is done
     done = 0
-    waiting = as_completed(pending + digests)
+    deadline = None if timeout is None else time.monotonic() + timeout
+    waiting = as_completed(pending + digests, timeout=timeout)
     digest_keys = {d.key for d in digests}
     pending = []
     try:
@@ -109,8 +129,12 @@ def profile_on_cluster(
                 done += 1
                 if progress is not None:
                     progress(done, total)
-        sealed = root.result()  # pickled on the way: it arrives sealed
-        fingerprint = hashlib.sha256("".join(d.result() for d in digests).encode()).hexdigest()
+        left = None if deadline is None else max(1.0, deadline - time.monotonic())
+        sealed = root.result(timeout=left)  # pickled on the way: it arrives sealed
+        fingerprint = hashlib.sha256("".join(d.result(timeout=left) for d in digests).encode()).hexdigest()
+    except TimeoutError:
+        client.cancel([root, context, *digests, *[f for pair in inputs.values() for f in pair]], force=True)
+        raise ClusterError(f"the run did not finish within {timeout:g} s; it was cancelled") from None
     except BaseException:
         client.cancel([root, context, *digests, *[f for pair in inputs.values() for f in pair]], force=True)
         raise
