@@ -94,3 +94,22 @@ def test_a_partial_travels_sealed(tmp_path: Path) -> None:
         open_partial(sealed, secrets.token_bytes(32))
     with pytest.raises(PartialKeyError):
         open_partial(sealed[:-1] + bytes([sealed[-1] ^ 1]), key)
+
+
+def test_merged_estimates_stay_within_their_stated_error(tmp_path: Path) -> None:
+    # Counts estimated from samples (1,001 values past a cap of 300), checked against pandas'
+    # `value_counts`: "daily" repeats its 1,001 values with a period that divides the pieces'
+    # length (100 row groups of 2,002 rows), so pieces whose picks all started at their first
+    # row would pick the same values in each piece; "spread" holds values in no order.
+    rows, period = 100 * 2002, 1001
+    rng = np.random.default_rng(11)
+    table = pa.table({"daily": np.arange(rows) % period, "spread": rng.integers(0, period, rows)})
+    path = tmp_path / "periodic.parquet"
+    pq.write_table(table, path, row_group_size=2 * period)
+    settings = Settings(distinct_cap=300, sketch_key=b"s" * 32)
+    for document in (_tree(path, settings, 2 * period), _local(path, settings, 2 * period)):
+        for name in ("daily", "spread"):
+            top, truth = document["columns"][name]["top"], table.to_pandas()[name].value_counts()
+            assert top["exact"] is False and len(top["values"]) == 100
+            for value, count in top["values"]:
+                assert abs(count - truth[value]) <= top["error"], (name, value, count, truth[value], top["error"])

@@ -121,13 +121,27 @@ def _top_sampled(profiler: ColumnProfiler, points: np.ndarray, weights: np.ndarr
     sizes = np.diff(np.append(starts, points.size))
     keep = np.flatnonzero((sizes >= profiler.sampled_rows_needed()) & (sums >= profiler.settings.min_count))
     ranked = keep[np.argsort(-sums[keep], kind="stable")][: profiler.settings.top]  # ties stay in value order
-    heaviest = float(weights.max())
     return {
         "values": [[plain(points[starts[i]]), int(round(sums[i]))] for i in ranked],
         "exact": False,
         "complete": False,
-        "error": int(math.ceil(2 * heaviest + profiler.sample.rank_error * (profiler.rows - profiler.nulls))),  # type: ignore[union-attr]
+        "error": _sampled_error(profiler, float(weights.max()), float(sums[ranked[0]]) if ranked.size else 0.0),
     }
+
+
+def _sampled_error(profiler: ColumnProfiler, heaviest: float, largest: float) -> int:
+    """How far a listed estimated count may be off: two of the heaviest points (where a run of
+    the value starts and ends between picks), the compactions' rank error, and the pick's own
+    spread. One row in `stride` picked from rows in no particular order counts a value of c
+    rows with a standard deviation of at most sqrt(c * stride); four of them, at the largest
+    count listed, bound every listed count but rarely (common practice for a bound that holds
+    with high probability). A merge of pieces sampled apart adds a start of the pick per
+    piece, within the same spread; only values repeating with the stride's own period escape
+    it, as they escape any systematic pick."""
+    sample = profiler.sample
+    assert sample is not None
+    spread = 4.0 * math.sqrt(largest * sample.stride) if sample.stride > 1 else 0.0
+    return int(math.ceil(2 * heaviest + sample.rank_error * (profiler.rows - profiler.nulls) + spread))
 
 
 def _bounds(profiler: ColumnProfiler, values: np.ndarray, weights: np.ndarray, held: np.ndarray,

@@ -47,9 +47,19 @@ class PartialKeyError(ValueError):
 
 class PieceProfiler(ColumnProfiler):
     """The local profiler, also keeping the piece's first value: a merge needs it to count the
-    value change where one piece ends and the next begins."""
+    value change where one piece ends and the next begins. Its sample's systematic pick starts
+    at a place drawn for the piece and column (`pick_start`): were every piece to start at its
+    first value, data repeating with the pieces' length (a day per row group) would be picked
+    at the same places in every piece and the merged counts would be off by a whole stride per
+    piece, beyond the stated error; drawn starts make the pieces' picks independent."""
 
     first: Any = None
+    pick_start: int = 0
+
+    def start_summaries(self) -> None:
+        super().start_summaries()
+        assert self.sample is not None
+        self.sample.offset = self.pick_start % self.sample.stride
 
     def count_changes(self, comparable: Any, first: Any, last: Any) -> None:
         if self.last is None:
@@ -74,6 +84,9 @@ def count_piece(piece: Piece, layout: Layout, settings: Settings, expected_rows:
     """A piece counted by the local path's own loop (`count_batches`); `expected_rows`: the
     whole dataset's, so that every piece samples with the local profile's stride."""
     profilers = new_profilers(layout.schema, worker_settings(settings), expected_rows, PieceProfiler)
+    for column, profiler in enumerate(profilers):
+        drawn = hashlib.blake2b(f"{piece.number}:{column}".encode(), digest_size=8).digest()
+        profiler.pick_start = int.from_bytes(drawn, "big")  # type: ignore[attr-defined]
     own = copy.deepcopy(joint)
     rows = count_batches(piece_batches(piece, layout), profilers, own)
     for profiler in profilers:

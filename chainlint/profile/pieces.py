@@ -12,7 +12,7 @@ import hashlib
 import mmap
 import os
 from collections.abc import Iterator, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import UTC, datetime
 from typing import Any
 
@@ -42,6 +42,7 @@ class Piece:
     end: int = 0
     quoted: bool = False  # the range holds a quote (values may hold line breaks)
     fragment: Any = None  # a row group of a Parquet folder (pyarrow dataset fragment)
+    number: int = 0  # the piece's place in row order (set by `Plan`): seeds where its samples start
 
     def where(self) -> str:
         """The piece as an error message names it."""
@@ -73,6 +74,9 @@ class Plan:
     files: list[SourceFile]
     pieces: list[Piece]
     expected_rows: int | None
+
+    def __post_init__(self) -> None:
+        self.pieces = [replace(piece, number=index) for index, piece in enumerate(self.pieces)]
 
     @property
     def schema(self) -> pa.Schema:
