@@ -199,6 +199,24 @@ def test_a_run_past_its_time_limit_is_cancelled(client, data: Path) -> None:  # 
     from chainlint.cluster.run import ClusterError
 
     plan = plan_pieces([str(data / "flights.parquet")])
-    with pytest.raises(ClusterError, match=r"did not finish within 0.001 s; it was cancelled"):
+    with pytest.raises(ClusterError, match=r"did not finish within 0.001 s \(\d+ of 27 tasks done; .*\); it was cancelled"):
         profile_on_cluster(client, plan, "flights", KEYS, timeout=0.001)  # 14 row groups: never done in 1 ms
     _same_but_time(_run(client, plan, "flights", KEYS), profile_dataset(open_dataset([str(data / "flights.parquet")]), "flights", KEYS))
+
+
+def test_a_run_does_not_depend_on_the_default_client(client, data: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # type: ignore[no-untyped-def]
+    # A client that failed to connect (`--dask nowhere`) stays the process's default client, its
+    # loop never serving: a run that tracked its futures on the default client's loop stalled
+    # (once the whole suite). A run must use its own client's loop only.
+    from chainlint.cluster.run import ClusterError
+
+    with pytest.raises(ClusterError, match="cannot reach the scheduler"):
+        with connect("nowhere"):
+            pass
+
+    def no_default(*_: object) -> None:
+        raise AssertionError("the run asked for the process's default client")
+
+    monkeypatch.setattr(distributed.client, "default_client", no_default)
+    path = str(data / "flights.parquet")
+    _same_but_time(_run(client, plan_pieces([path]), "flights", KEYS), profile_dataset(open_dataset([path]), "flights", KEYS))

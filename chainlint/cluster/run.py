@@ -59,7 +59,9 @@ def connect(address: str, timeout: float = START_SECONDS) -> Iterator[Client]:
             # shared out instead, so that one worker uses them all as the local path does.
             threads = max(1, (os.cpu_count() or 1) // workers)
             environ = {**dask.config.get("distributed.nanny.pre-spawn-environ"), "OMP_NUM_THREADS": threads}
-            with dask.config.set({"distributed.nanny.pre-spawn-environ": environ}):
+            # Dask's statistical profiler samples every thread's stack 100 times a second in the
+            # scheduler and each worker: CPU taken from the counting, for a dashboard nobody reads here.
+            with dask.config.set({"distributed.nanny.pre-spawn-environ": environ, "distributed.worker.profile.enabled": False}):
                 cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=":0",
                                        silence_logs=50, death_timeout=timeout)
             client = Client(cluster, timeout=timeout)
@@ -97,8 +99,10 @@ def profile_on_cluster(
                             key=f"chainlint-context-{run}", pure=False)
     level = [client.submit(tasks.count, piece, context, key, key=f"chainlint-count-{run}-{index}", pure=False, retries=0)
              for index, piece in enumerate(plan.pieces)]
+    # A file's digest is taken by its first piece's task; a file with no piece (no row group) has its own.
+    hashed = {piece.path for piece in plan.pieces if piece.hashes}
     digests = [client.submit(tasks.digest, location, key=f"chainlint-digest-{run}-{i}", pure=False)
-               for i, location in enumerate(plan.locations())]
+               for i, location in enumerate(plan.locations()) if location not in hashed]
     inputs: dict[str, tuple[Future, Future]] = {}
     pending = list(level)
     depth = 0
@@ -117,7 +121,9 @@ def profile_on_cluster(
     del level  # the client keeps a piece's partial only until its merge is done
     done = 0
     deadline = None if timeout is None else time.monotonic() + timeout
-    waiting = as_completed(pending + digests, timeout=timeout)
+    # This client's own loop: without it Dask tracks the futures on the process's default client,
+    # which may be another one (one that failed to connect stays the default) and never runs.
+    waiting = as_completed(pending + digests, loop=client.loop, timeout=timeout)
     digest_keys = {d.key for d in digests}
     pending = []
     try:
@@ -131,10 +137,15 @@ def profile_on_cluster(
                     progress(done, total)
         left = None if deadline is None else max(1.0, deadline - time.monotonic())
         sealed = root.result(timeout=left)  # pickled on the way: it arrives sealed
-        fingerprint = hashlib.sha256("".join(d.result(timeout=left) for d in digests).encode()).hexdigest()
+        partial = sealed.open(key)
+        for location, future in zip([loc for loc in plan.locations() if loc not in hashed], digests):
+            partial.digests[location] = future.result(timeout=left)
+        fingerprint = hashlib.sha256("".join(partial.digests[loc] for loc in plan.locations()).encode()).hexdigest()
     except TimeoutError:
+        running = _running(client, plan, run)
         client.cancel([root, context, *digests, *[f for pair in inputs.values() for f in pair]], force=True)
-        raise ClusterError(f"the run did not finish within {timeout:g} s; it was cancelled") from None
+        raise ClusterError(f"the run did not finish within {timeout:g} s ({done} of {total} tasks done{running}); "
+                           "it was cancelled") from None
     except BaseException:
         client.cancel([root, context, *digests, *[f for pair in inputs.values() for f in pair]], force=True)
         raise
@@ -143,7 +154,7 @@ def profile_on_cluster(
         "files": [{"path": f.path, "bytes": f.bytes, "modified": f.modified} for f in plan.files],
         "fingerprint": "sha256:" + fingerprint,
     }
-    return partial_document(sealed.open(key), name, settings, source)
+    return partial_document(partial, name, settings, source)
 
 
 class TaskProgress:
@@ -165,6 +176,23 @@ class TaskProgress:
             self.shown = done * 10 // total
             self.stream.write(f"{done:,} of {total:,} tasks done\n")
         self.stream.flush()
+
+
+def _running(client: Client, plan: Plan, run: str) -> str:
+    """What the workers were still running when the run gave up (a piece by its place in the
+    data), for the error message."""
+    try:
+        processing = client.processing()
+    except (OSError, TimeoutError):
+        return ""
+    shown = []
+    for worker, keys in sorted(processing.items()):
+        for task in keys:
+            name = str(task)
+            if name.startswith(f"chainlint-count-{run}-"):
+                name = plan.pieces[int(name.rsplit("-", 1)[1])].where()
+            shown.append(f"{name} on {worker}")
+    return "; running: " + ", ".join(shown[:5]) + (" ..." if len(shown) > 5 else "") if shown else "; none running"
 
 
 def _raise(future: Future) -> None:

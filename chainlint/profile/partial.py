@@ -25,7 +25,8 @@ import hashlib
 import hmac
 import os
 import pickle
-from dataclasses import dataclass, replace
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -35,7 +36,7 @@ from chainlint.profile.columns import ColumnProfiler
 from chainlint.profile.errors import DataError
 from chainlint.profile.joint import JointCounter
 from chainlint.profile.settings import Settings
-from chainlint.profile.pieces import Layout, Piece, piece_batches
+from chainlint.profile.pieces import Layout, Piece, file_digest, piece_batches
 
 _NONCE_BYTES = 16
 _TAG_BYTES = 32
@@ -72,6 +73,7 @@ class Partial:
     rows: int
     profilers: list[PieceProfiler]
     joint: JointCounter | None
+    digests: dict[str, str] = field(default_factory=dict)  # each file's sha256, taken by its first piece
 
 
 def worker_settings(settings: Settings) -> Settings:
@@ -88,11 +90,16 @@ def count_piece(piece: Piece, layout: Layout, settings: Settings, expected_rows:
         drawn = hashlib.blake2b(f"{piece.number}:{column}".encode(), digest_size=8).digest()
         profiler.pick_start = int.from_bytes(drawn, "big")  # type: ignore[attr-defined]
     own = copy.deepcopy(joint)
-    rows = count_batches(piece_batches(piece, layout), profilers, own)
+    # The file's digest is read alongside the counting, as the local path reads it: no task
+    # of its own waiting for a worker thread.
+    with ThreadPoolExecutor(max_workers=1) as hasher:
+        digest = hasher.submit(file_digest, piece.path) if piece.hashes else None
+        rows = count_batches(piece_batches(piece, layout), profilers, own)
+        digests = {piece.path: digest.result()} if digest is not None else {}
     for profiler in profilers:
         if profiler.exact:
             len(profiler.counter)  # fold the last Parquet dictionary's counts: only values counted travel
-    return Partial(rows, profilers, own)  # type: ignore[arg-type]
+    return Partial(rows, profilers, own, digests)  # type: ignore[arg-type]
 
 
 def merge_partials(earlier: Partial, later: Partial) -> Partial:
@@ -102,6 +109,7 @@ def merge_partials(earlier: Partial, later: Partial) -> Partial:
     if earlier.joint is not None and later.joint is not None:
         _merge_joint(earlier.joint, later.joint)
     earlier.rows += later.rows
+    earlier.digests.update(later.digests)
     return earlier
 
 

@@ -43,6 +43,7 @@ class Piece:
     quoted: bool = False  # the range holds a quote (values may hold line breaks)
     fragment: Any = None  # a row group of a Parquet folder (pyarrow dataset fragment)
     number: int = 0  # the piece's place in row order (set by `Plan`): seeds where its samples start
+    hashes: bool = False  # the file's first piece (set by `Plan`): its task also takes the file's sha256
 
     def where(self) -> str:
         """The piece as an error message names it."""
@@ -76,7 +77,8 @@ class Plan:
     expected_rows: int | None
 
     def __post_init__(self) -> None:
-        self.pieces = [replace(piece, number=index) for index, piece in enumerate(self.pieces)]
+        firsts = {piece.path: index for index, piece in reversed(list(enumerate(self.pieces)))}
+        self.pieces = [replace(piece, number=index, hashes=firsts[piece.path] == index) for index, piece in enumerate(self.pieces)]
 
     @property
     def schema(self) -> pa.Schema:
