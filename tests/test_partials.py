@@ -15,16 +15,12 @@ import pytest
 from chainlint.profile.build import profile_dataset
 from chainlint.profile.columns import Settings
 from chainlint.profile.format import dumps
-from chainlint.profile.partial import (
-    PartialKeyError,
-    count_piece,
-    merge_partials,
-    open_partial,
-    partial_document,
-    seal_partial,
-)
+from chainlint.profile.partial import count_piece, merge_partials, partial_document
 from chainlint.profile.pieces import plan_pieces
 from chainlint.profile.readers import open_dataset
+
+pytest.importorskip("cryptography", reason="the sealing needs cryptography: pip install '.[dask]'")
+from chainlint.cluster.sealing import PartialKeyError, open_partial, seal_partial  # noqa: E402
 
 SETTINGS = Settings(min_count=3, sketch_key=b"s" * 32, redaction_key=b"r" * 32, redact=frozenset({"code"}))
 

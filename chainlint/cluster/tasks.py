@@ -1,14 +1,15 @@
 """What the workers run: thin calls into the profiler, taking and returning sealed partials.
 
 Plain Python (no dask import), so that a worker unpickles a task without loading more than
-chainlint's profiler.
+chainlint's profiler and the sealing.
 """
 
 from __future__ import annotations
 
 from typing import Any
 
-from chainlint.profile.partial import Sealed, count_piece, merge_partials
+from chainlint.cluster.sealing import Sealed
+from chainlint.profile.partial import count_piece, merge_partials
 from chainlint.profile.pieces import Piece, file_digest
 
 

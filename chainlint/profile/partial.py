@@ -5,10 +5,10 @@ count (rare ones too), the distinct-count registers, the weighted sample, the va
 and the first and last values, and the joint counts of every pattern however small. The
 privacy rule (min-count, folded complements, safe bounds, redaction, sealed sketches) applies
 to the merged counts only, in `partial_document`, exactly as the local path applies it to its
-one pass. That is why a partial leaves its process only sealed (`seal_partial`): encrypted
-and authenticated under a key made for the run, held in memory by the client and passed to
-the tasks with their arguments, never written to a file; the store's redaction and sketch keys
-never leave the client.
+one pass. That is why a partial leaves its process only sealed (`chainlint.cluster.sealing`):
+encrypted and authenticated under a key made for the run, held in memory by the client and
+passed to the tasks with their arguments, never written to a file; the store's redaction and
+sketch keys never leave the client.
 
 Merging is exact where the local profile is exact: counts add, the value changes add plus
 one where the later piece's first value differs from the earlier piece's last, registers take
@@ -22,14 +22,9 @@ from __future__ import annotations
 
 import copy
 import hashlib
-import hmac
-import os
-import pickle
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
 from typing import Any
-
-import numpy as np
 
 from chainlint.profile.build import count_batches, new_profilers, profile_document
 from chainlint.profile.columns import ColumnProfiler
@@ -37,14 +32,6 @@ from chainlint.profile.errors import DataError
 from chainlint.profile.joint import JointCounter
 from chainlint.profile.settings import Settings
 from chainlint.profile.pieces import Layout, Piece, file_digest, piece_batches
-
-_NONCE_BYTES = 16
-_TAG_BYTES = 32
-
-
-class PartialKeyError(ValueError):
-    """A sealed partial that the run's key did not seal, or that was altered."""
-
 
 class PieceProfiler(ColumnProfiler):
     """The local profiler, also keeping the piece's first value: a merge needs it to count the
@@ -163,73 +150,3 @@ def partial_document(partial: Partial, name: str, settings: Settings, source: di
     for profiler in partial.profilers:
         profiler.settings = settings
     return profile_document(name, settings, source, partial.profilers, partial.rows, partial.joint)  # type: ignore[arg-type]
-
-
-class Sealed:
-    """A partial as a task returns it: the partial itself while it stays in the worker's
-    memory, sealed whenever it is pickled (sent to another worker or the client, or spilled to
-    disk). Each partial feeds one merge, which may change it in place."""
-
-    __slots__ = ("_partial", "_key", "_sealed")
-
-    def __init__(self, partial: Partial | None, key: bytes, sealed: bytes | None = None) -> None:
-        self._partial, self._key, self._sealed = partial, key, sealed
-
-    def __reduce__(self) -> tuple[Any, tuple[bytes]]:
-        assert self._partial is not None or self._sealed is not None
-        return _arrived, (self._sealed if self._sealed is not None else seal_partial(self._partial, self._key),)  # type: ignore[arg-type]
-
-    def open(self, key: bytes) -> Partial:
-        if self._partial is not None:
-            return self._partial
-        assert self._sealed is not None
-        return open_partial(self._sealed, key)
-
-    def __sizeof__(self) -> int:
-        """About the bytes held (for Dask's memory accounting)."""
-        if self._partial is None:
-            return len(self._sealed or b"")
-        held = 0
-        for profiler in self._partial.profilers:
-            counter = profiler.counter
-            held += counter.counts.nbytes * 2 + (counter.values.nbytes if counter.values is not None else 0)
-            if profiler.sample is not None:
-                held += sum(values.nbytes + weights.nbytes for values, weights in profiler.sample.chunks)
-        return held + 4096
-
-
-def _arrived(sealed: bytes) -> Sealed:
-    return Sealed(None, b"", sealed)
-
-
-def seal_partial(partial: Partial, key: bytes) -> bytes:
-    """The partial encrypted (SHAKE-256 keystream from the key and a random nonce) and
-    authenticated (HMAC-SHA256 over nonce and ciphertext) under the run's key."""
-    plain = pickle.dumps(partial, protocol=pickle.HIGHEST_PROTOCOL)
-    nonce = os.urandom(_NONCE_BYTES)
-    body = _xor(plain, _keystream(key, nonce, len(plain)))
-    return nonce + _tag(key, nonce, body) + body
-
-
-def open_partial(sealed: bytes, key: bytes) -> Partial:
-    """A sealed partial's contents; PartialKeyError when `key` did not seal it."""
-    nonce, tag, body = sealed[:_NONCE_BYTES], sealed[_NONCE_BYTES:_NONCE_BYTES + _TAG_BYTES], sealed[_NONCE_BYTES + _TAG_BYTES:]
-    if len(nonce) != _NONCE_BYTES or not hmac.compare_digest(tag, _tag(key, nonce, body)):
-        raise PartialKeyError("a partial profile was not sealed with this run's key")
-    return pickle.loads(_xor(body, _keystream(key, nonce, len(body))))  # authenticated: sealed by this run
-
-
-def _subkey(key: bytes, purpose: bytes) -> bytes:
-    return hmac.new(key, b"chainlint partial " + purpose, hashlib.sha256).digest()
-
-
-def _tag(key: bytes, nonce: bytes, body: bytes) -> bytes:
-    return hmac.new(_subkey(key, b"tag"), nonce + body, hashlib.sha256).digest()
-
-
-def _keystream(key: bytes, nonce: bytes, size: int) -> bytes:
-    return hashlib.shake_256(_subkey(key, b"stream") + nonce).digest(size)
-
-
-def _xor(data: bytes, stream: bytes) -> bytes:
-    return (np.frombuffer(data, dtype=np.uint8) ^ np.frombuffer(stream, dtype=np.uint8)).tobytes()
