@@ -220,3 +220,30 @@ def test_a_run_does_not_depend_on_the_default_client(client, data: Path, monkeyp
     monkeypatch.setattr(distributed.client, "default_client", no_default)
     path = str(data / "flights.parquet")
     _same_but_time(_run(client, plan_pieces([path]), "flights", KEYS), profile_dataset(open_dataset([path]), "flights", KEYS))
+
+
+def test_csv_json_lines_and_arrow_urls_equal_the_local_profile(client, data: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # type: ignore[no-untyped-def]
+    # Behind file:// URLs (fsspec's local implementation: no network), read by the workers: a
+    # CSV and a JSON Lines file whole, an Arrow IPC file in runs of its record batches.
+    import pyarrow.ipc as paipc
+
+    from chainlint.profile import pieces
+
+    monkeypatch.setattr(pieces, "ARROW_PIECE_ROWS", 4_000)
+    frame = flights().iloc[:20_000]
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    pacsv.write_csv(table, data / "part.csv")
+    frame.to_json(data / "part.jsonl", orient="records", lines=True)
+    with paipc.new_file(data / "part.arrow", table.schema) as writer:
+        for batch in table.to_batches(max_chunksize=1_000):
+            writer.write_batch(batch)
+    for name, count in (("part.csv", 1), ("part.jsonl", 1), ("part.arrow", 5)):
+        path = str(data / name)
+        plan = plan_pieces([f"file://{path}"])
+        assert len(plan.pieces) == count, name
+        local = profile_dataset(open_dataset([path]), "part", KEYS)
+        remote = _run(client, plan, "part", KEYS)
+        assert [f["path"] for f in remote["source"]["files"]] == [f"file://{path}"]
+        assert remote["source"]["fingerprint"] == local["source"]["fingerprint"]
+        remote["source"] = local["source"]
+        _same_but_time(local, remote)

@@ -3,12 +3,15 @@ byte for byte (exact columns), and a partial leaves its process only sealed."""
 
 from __future__ import annotations
 
+import json
 import pickle
 import secrets
 from pathlib import Path
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.csv as pacsv
+import pyarrow.ipc as paipc
 import pyarrow.parquet as pq
 import pytest
 
@@ -16,7 +19,9 @@ from chainlint.profile.build import profile_dataset
 from chainlint.profile.columns import Settings
 from chainlint.profile.format import dumps
 from chainlint.profile.partial import count_piece, merge_partials, partial_document
-from chainlint.profile.pieces import plan_pieces
+from chainlint.profile import pieces
+from chainlint.profile.files import sha256_of
+from chainlint.profile.pieces import file_digest, plan_pieces
 from chainlint.profile.readers import open_dataset
 
 pytest.importorskip("cryptography", reason="the sealing needs cryptography: pip install '.[dask]'")
@@ -25,7 +30,7 @@ from chainlint.cluster.sealing import PartialKeyError, open_partial, seal_partia
 SETTINGS = Settings(min_count=3, sketch_key=b"s" * 32, redaction_key=b"r" * 32, redact=frozenset({"code"}))
 
 
-def _tree(path: Path, settings: Settings = SETTINGS, batch_rows: int = 7) -> dict:
+def _tree(path: Path | str, settings: Settings = SETTINGS, batch_rows: int = 7) -> dict:
     """Pieces counted one by one, sealed, and merged pairwise level by level, as on a cluster."""
     plan = plan_pieces([str(path)], batch_rows=batch_rows)
     key = secrets.token_bytes(32)
@@ -109,3 +114,57 @@ def test_merged_estimates_stay_within_their_stated_error(tmp_path: Path) -> None
             assert top["exact"] is False and len(top["values"]) == 100
             for value, count in top["values"]:
                 assert abs(count - truth[value]) <= top["error"], (name, value, count, truth[value], top["error"])
+
+
+def _table(rows: int) -> pa.Table:
+    rng = np.random.default_rng(5)
+    return pa.table({
+        "depot": pa.array([f"d{k}" for k in rng.integers(0, 9, rows)]),
+        "stop": np.arange(rows) // 3,
+        "weight": np.round(rng.lognormal(1, 1, rows), 1),
+        "code": [f"c{i % 4}" for i in range(rows)],
+    })
+
+
+def _write(table: pa.Table, path: Path, batch: int = 500) -> None:
+    if path.suffix == ".csv":
+        pacsv.write_csv(table, path)
+    elif path.suffix == ".jsonl":
+        path.write_text("".join(json.dumps(row) + "\n" for row in table.to_pylist()))
+    else:
+        with paipc.new_file(path, table.schema) as writer:
+            for start in range(0, table.num_rows, batch):
+                writer.write_batch(table.slice(start, batch).to_batches()[0])
+
+
+def test_arrow_files_are_cut_into_runs_of_record_batches(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(pieces, "ARROW_PIECE_ROWS", 1000)
+    path = tmp_path / "t.arrow"
+    _write(_table(10_000), path)  # 20 record batches of 500 rows
+    plan = plan_pieces([str(path)])
+    assert [p.batches for p in plan.pieces] == [(i, i + 2) for i in range(0, 20, 2)]
+    assert plan.pieces[3].where() == f"record batches 6-7 of {path}"
+    merged, local = _tree(path, batch_rows=300), _local(path, batch_rows=300)
+    merged["created"] = local["created"]
+    assert dumps(merged) == dumps(local)
+
+
+@pytest.mark.parametrize("name", ["t.csv", "t.jsonl", "t.arrow"])
+def test_csv_json_lines_and_arrow_behind_fsspec_urls(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, name: str) -> None:
+    # fsspec's in-memory filesystem (no network): the same bytes as the local file, read
+    # through the URL, give the local profile; only the recorded source differs.
+    fsspec = pytest.importorskip("fsspec", reason="fsspec comes with the dask extra: pip install '.[dask]'")
+    monkeypatch.setattr(pieces, "ARROW_PIECE_ROWS", 1000)
+    path = tmp_path / name
+    _write(_table(3_000), path)
+    url = f"memory:///chainlint-tests/{tmp_path.name}/{name}"  # as fsspec writes memory URLs
+    with fsspec.open(url, "wb") as handle:
+        handle.write(path.read_bytes())
+    plan = plan_pieces([url])
+    assert {p.path for p in plan.pieces} == {url} and len(plan.pieces) == (3 if name.endswith("arrow") else 1)
+    assert [f.path for f in plan.files] == [url] and plan.files[0].bytes == path.stat().st_size
+    assert file_digest(url) == sha256_of(str(path))
+    merged, local = _tree(url, batch_rows=400), _local(path, batch_rows=400)
+    assert merged["source"]["files"][0]["path"] == url
+    merged["created"], merged["source"] = local["created"], local["source"]
+    assert dumps(merged) == dumps(local)

@@ -1,5 +1,6 @@
 """A dataset cut into pieces that can be counted apart: Parquet row groups, CSV byte ranges that
-end on record boundaries, whole JSON Lines, Arrow and compressed CSV files.
+end on record boundaries, runs of an Arrow IPC file's record batches, whole JSON Lines, Arrow
+streams and compressed CSV files; behind fsspec URLs, a CSV or JSON Lines file is one piece.
 
 Each piece is read with the local path's own readers, so that its batches are the rows the
 local profile counts, in the same order; `count_piece` counts them with the local path's
@@ -8,15 +9,15 @@ own loop. Nothing here knows how pieces are scheduled (see `chainlint.cluster`).
 
 from __future__ import annotations
 
-import hashlib
 import mmap
 import os
 from collections.abc import Iterator, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass, replace
-from datetime import UTC, datetime
 from typing import Any
 
 import pyarrow as pa
+import pyarrow.ipc as paipc
 import pyarrow.parquet as pq
 
 from chainlint.profile import formats, readers
@@ -24,6 +25,8 @@ from chainlint.profile.files import data_format, dataset_files, sha256_of
 from chainlint.profile.csv_reader import CsvFile, _compressed, _mapped_pieces, open_csv
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import CsvOptions
+from chainlint.profile.remote import described as described_url
+from chainlint.profile.remote import filesystem, is_url, listed, local_copy, url_digest
 from chainlint.profile.files import SourceFile
 from chainlint.profile.formats import table_batches
 from chainlint.profile.readers import BATCH_ROWS
@@ -42,6 +45,7 @@ class Piece:
     end: int = 0
     quoted: bool = False  # the range holds a quote (values may hold line breaks)
     fragment: Any = None  # a row group of a Parquet folder (pyarrow dataset fragment)
+    batches: tuple[int, int] | None = None  # record batches [first, last) of an Arrow IPC file
     number: int = 0  # the piece's place in row order (set by `Plan`): seeds where its samples start
     hashes: bool = False  # the file's first piece (set by `Plan`): its task also takes the file's sha256
 
@@ -49,6 +53,8 @@ class Piece:
         """The piece as an error message names it."""
         if self.group is not None:
             return f"row group {self.group} of {self.path}"
+        if self.batches is not None:
+            return f"record batches {self.batches[0]}-{self.batches[1] - 1} of {self.path}"
         if self.end:
             return f"bytes {self.start}-{self.end} of {self.path}"
         return self.path
@@ -87,15 +93,16 @@ class Plan:
     def locations(self) -> list[str]:
         """Where a worker reads each file: absolute paths (workers may start in another folder)
         or URLs."""
-        return [f.path if _is_url(f.path) else os.path.abspath(f.path) for f in self.files]
+        return [f.path if is_url(f.path) else os.path.abspath(f.path) for f in self.files]
 
 
 def plan_pieces(arguments: Sequence[str], batch_rows: int = BATCH_ROWS, csv: CsvOptions | None = None) -> Plan:
     """Cut DATA arguments into pieces, reading only what the cut needs: Parquet footers, the
     first CSV piece (it decides the types) and the CSV files' quote parity, the first JSON
-    Lines block. Raises DataError naming the file, as the local path does."""
+    Lines block, Arrow files' batch lengths (behind a URL, the first CSV or JSON Lines file is
+    read whole). Raises DataError naming the file, as the local path does."""
     csv = csv or CsvOptions()
-    if any(_is_url(argument) for argument in arguments):
+    if any(is_url(argument) for argument in arguments):
         return _url_plan(arguments, batch_rows, csv)
     kind, paths, files, described = dataset_files(arguments)
     scan_schema = None
@@ -109,75 +116,95 @@ def plan_pieces(arguments: Sequence[str], batch_rows: int = BATCH_ROWS, csv: Csv
         sizes = [d.bytes for d in described]
         expected = None if rows is None else round(rows * sum(sizes) / max(sizes[0], 1))
         pieces = [piece for path in files for piece in _csv_pieces(path)]
+    elif kind == "arrow":
+        schema, _, expected = formats.open_arrow(files[0], batch_rows)
+        pieces = [piece for path in files for piece in _arrow_pieces(os.path.abspath(path), pa.memory_map(path))[1]]
     else:
-        opener = formats.open_arrow if kind == "arrow" else formats.open_jsonl
-        schema, _, expected = opener(files[0], batch_rows)
+        schema, _, expected = formats.open_jsonl(files[0], batch_rows)
         pieces = [Piece(kind, os.path.abspath(path)) for path in files]
     readers._check_columns(schema, files[0])
     return Plan(Layout(schema, scan_schema, csv, batch_rows, files[0]), kind, described, pieces, expected)
 
 
-def _is_url(path: str) -> bool:
-    return "://" in path
-
-
-def _filesystem(url: str) -> tuple[Any, str]:
-    """The fsspec filesystem of a URL and the path within it."""
-    try:
-        import fsspec  # installed with the dask extra; other implementations (s3fs, ...) as the data needs
-    except ImportError:
-        raise DataError(f"{url}: reading URLs needs fsspec (pip install 'chainlint[dask]')") from None
-    try:
-        return fsspec.core.url_to_fs(url)
-    except (ImportError, ValueError) as error:
-        raise DataError(f"{url}: no fsspec implementation for this URL ({error})") from None
-
-
 def _url_plan(arguments: Sequence[str], batch_rows: int, csv: CsvOptions) -> Plan:
-    """Parquet files behind fsspec URLs (a file, a glob, or a folder of files), a piece per row
-    group, read where the task runs; other formats are read from paths only."""
-    described, pieces, schema, rows = [], [], None, 0
+    """Files behind fsspec URLs (a file, a glob, or a folder of files), read where the task
+    runs: a piece per Parquet row group or run of Arrow record batches, a CSV or JSON Lines
+    file whole."""
+    described: list[SourceFile] = []
+    pieces: list[Piece] = []
     for argument in arguments:
-        if not _is_url(argument):
+        if not is_url(argument):
             raise DataError(f"{argument}: give every DATA as a URL or none (mixed with {arguments[0]})")
-        fs, inner = _filesystem(argument)
-        try:
-            found = sorted(fs.glob(inner)) if any(c in inner for c in "*?[") else [inner]
-            found = [f for path in found for f in (sorted(fs.find(path)) if fs.isdir(path) else [path])]
-        except OSError as error:
-            raise DataError(f"{argument}: cannot list: {error}") from None
-        if not found:
-            raise DataError(f"{argument}: no file matches this pattern")
+        fs, found = listed(argument)
         for path in found:
-            url = fs.unstrip_protocol(path)
-            if data_format(url) != "parquet":
-                raise DataError(f"{url}: only Parquet is read from URLs; give CSV, JSON Lines and Arrow files as paths")
-            info = fs.info(path)
-            handle = _parquet_handle(path, fs, url)
+            file = described_url(fs, path)
+            if described and data_format(file.path) != data_format(described[0].path):
+                raise DataError(f"mixed data formats ({data_format(described[0].path)}, {data_format(file.path)}); "
+                                "profile one format at a time")
+            described.append(file)
+    kind, urls = data_format(described[0].path), [d.path for d in described]
+    schema, expected = None, None
+    if kind == "parquet":
+        rows = 0
+        for url in urls:
+            fs, inner = filesystem(url)
+            handle = _parquet_handle(inner, fs, url)
             other = formats._plain_schema(handle.schema_arrow)
             if schema is None:
-                schema, first = other, url
+                schema = other
             elif not other.equals(schema):
-                raise DataError(readers._differs(url, first))
-            modified = datetime.fromtimestamp(info.get("mtime", 0), UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
-            described.append(SourceFile(url, int(info["size"]), modified))
+                raise DataError(readers._differs(url, urls[0]))
             pieces.extend(Piece("parquet", url, group) for group in range(handle.metadata.num_row_groups))
             rows += handle.metadata.num_rows
+        expected = rows
+    elif kind == "arrow":
+        for url in urls:
+            fs, inner = filesystem(url)
+            try:
+                with fs.open(inner, "rb") as handle:
+                    other, cut = _arrow_pieces(url, handle)
+            except (pa.ArrowInvalid, OSError) as error:
+                raise DataError(f"{url}: not a readable Arrow/Feather file ({str(error).splitlines()[0]})") from None
+            schema = schema or other
+            pieces.extend(cut)
+    else:
+        with _opened(Piece(kind, urls[0])) as path:
+            if kind == "csv":
+                schema, first, rows_seen = open_csv(path, csv)
+                first.close()
+                sizes = [d.bytes for d in described]
+                expected = None if rows_seen is None else round(rows_seen * sum(sizes) / max(sizes[0], 1))
+            else:
+                schema, _, expected = formats.open_jsonl(path, batch_rows)
+        pieces = [Piece(kind, url) for url in urls]
     assert schema is not None
-    readers._check_columns(schema, described[0].path)
-    return Plan(Layout(schema, None, csv, batch_rows, described[0].path), "parquet", described, pieces, rows)
+    readers._check_columns(schema, urls[0])
+    return Plan(Layout(schema, None, csv, batch_rows, urls[0]), kind, described, pieces, expected)
 
 
 def file_digest(path: str) -> str:
     """A file's sha256 (a path or an fsspec URL), for the profile's fingerprint."""
-    if not _is_url(path):
-        return sha256_of(path)
-    fs, inner = _filesystem(path)
-    digest = hashlib.sha256()
-    with fs.open(inner, "rb") as handle:
-        for chunk in iter(lambda: handle.read(1 << 20), b""):
-            digest.update(chunk)
-    return digest.hexdigest()
+    return url_digest(path) if is_url(path) else sha256_of(path)
+
+
+#: Rows an Arrow IPC file's piece holds at least (whole record batches), where the file has them.
+ARROW_PIECE_ROWS = 1 << 20
+
+
+def _arrow_pieces(path: str, source: Any) -> tuple[pa.Schema, list[Piece]]:
+    """The schema and runs of an Arrow IPC file's record batches of about ARROW_PIECE_ROWS rows
+    (sized by its first batch, the only one read here); an Arrow stream (no footer to seek by)
+    is one piece."""
+    try:
+        reader = paipc.open_file(source)
+    except pa.ArrowInvalid:
+        source.seek(0)
+        return paipc.open_stream(source).schema, [Piece("arrow", path)]
+    count = reader.num_record_batches
+    if count <= 1:
+        return reader.schema, [Piece("arrow", path)]
+    per = max(1, -(-ARROW_PIECE_ROWS // max(reader.get_batch(0).num_rows, 1)))
+    return reader.schema, [Piece("arrow", path, batches=(first, min(first + per, count))) for first in range(0, count, per)]
 
 
 def _parquet_pieces(files: list[str]) -> tuple[pa.Schema, list[Piece], int]:
@@ -243,11 +270,39 @@ def _batches(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
     if piece.kind == "csv" and piece.end:
         yield from _csv_range(piece, layout)
         return
+    if piece.batches is not None:
+        yield from _arrow_batches(piece, layout)
+        return
     opener = {"csv": lambda p, _: open_csv(p, layout.csv), "arrow": formats.open_arrow, "jsonl": formats.open_jsonl}[piece.kind]
-    schema, stream, _ = opener(piece.path, rows)
-    _same_schema(schema, piece.path, layout)
-    for table in stream:
-        yield from table_batches(table, rows)
+    with _opened(piece) as path:
+        schema, stream, _ = opener(path, rows)
+        _same_schema(schema, piece.path, layout)
+        for table in stream:
+            yield from table_batches(table, rows)
+
+
+@contextmanager
+def _opened(piece: Piece) -> Iterator[str]:
+    """A path the local readers can open: the piece's own, or a local copy of its URL."""
+    if not is_url(piece.path):
+        yield piece.path
+        return
+    with local_copy(piece.path) as path:
+        yield path
+
+
+def _arrow_batches(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
+    assert piece.batches is not None
+    if is_url(piece.path):
+        fs, inner = filesystem(piece.path)
+        source = fs.open(inner, "rb")
+    else:
+        source = pa.memory_map(piece.path)
+    with source:
+        reader = paipc.open_file(source)
+        _same_schema(reader.schema, piece.path, layout)
+        for index in range(*piece.batches):
+            yield from table_batches(reader.get_batch(index), layout.batch_rows)
 
 
 def _parquet_handle(inner: str, fs: Any, shown: str) -> pq.ParquetFile:
@@ -261,7 +316,7 @@ def _parquet_handle(inner: str, fs: Any, shown: str) -> pq.ParquetFile:
 
 
 def _row_group(path: str, group: int, rows: int) -> Iterator[pa.Table]:
-    fs, inner = _filesystem(path) if _is_url(path) else (None, path)
+    fs, inner = filesystem(path) if is_url(path) else (None, path)
     handle = _parquet_handle(inner, fs, path)
     for batch in handle.iter_batches(batch_size=rows, row_groups=[group]):
         yield pa.Table.from_batches([batch])
