@@ -39,7 +39,10 @@ def listed(argument: str) -> tuple[Any, list[str]]:
     sorted), as fsspec paths."""
     fs, inner = filesystem(argument)
     try:
-        found = sorted(fs.glob(inner)) if any(c in inner for c in "*?[") else [inner]
+        pattern = any(c in inner for c in "*?[")
+        if not pattern and not fs.exists(inner):
+            raise DataError(f"{argument}: no such file or folder")
+        found = sorted(fs.glob(inner)) if pattern else [inner]
         found = [f for path in found for f in (sorted(fs.find(path)) if fs.isdir(path) else [path])]
     except OSError as error:
         raise DataError(f"{argument}: cannot list: {error}") from None
