@@ -134,7 +134,7 @@ def _url_plan(arguments: Sequence[str], batch_rows: int, csv: CsvOptions) -> Pla
     pieces: list[Piece] = []
     for argument in arguments:
         if not is_url(argument):
-            raise DataError(f"{argument}: give every DATA as a URL or none (mixed with {arguments[0]})")
+            raise DataError(f"give every DATA as a URL or none (mixed with {arguments[0]})", path=argument)
         fs, found = listed(argument)
         for path in found:
             file = described_url(fs, path)
@@ -164,7 +164,7 @@ def _url_plan(arguments: Sequence[str], batch_rows: int, csv: CsvOptions) -> Pla
                 with fs.open(inner, "rb") as handle:
                     other, cut = _arrow_pieces(url, handle)
             except (pa.ArrowInvalid, OSError) as error:
-                raise DataError(f"{url}: not a readable Arrow/Feather file ({str(error).splitlines()[0]})") from None
+                raise DataError(f"not a readable Arrow/Feather file ({str(error).splitlines()[0]})", path=url) from None
             schema = schema or other
             pieces.extend(cut)
     else:

@@ -27,11 +27,11 @@ def filesystem(url: str) -> tuple[Any, str]:
     try:
         import fsspec  # installed with the dask extra; other implementations (s3fs, ...) as the data needs
     except ImportError:
-        raise DataError(f"{url}: reading URLs needs fsspec (pip install 'chainlint[dask]')") from None
+        raise DataError("reading URLs needs fsspec (pip install 'chainlint[dask]')", path=url) from None
     try:
         return fsspec.core.url_to_fs(url)
     except (ImportError, ValueError) as error:
-        raise DataError(f"{url}: no fsspec implementation for this URL ({error})") from None
+        raise DataError(f"no fsspec implementation for this URL ({error})", path=url) from None
 
 
 def listed(argument: str) -> tuple[Any, list[str]]:
@@ -41,13 +41,13 @@ def listed(argument: str) -> tuple[Any, list[str]]:
     try:
         pattern = any(c in inner for c in "*?[")
         if not pattern and not fs.exists(inner):
-            raise DataError(f"{argument}: no such file or folder")
+            raise DataError("no such file or folder", path=argument)
         found = sorted(fs.glob(inner)) if pattern else [inner]
         found = [f for path in found for f in (sorted(fs.find(path)) if fs.isdir(path) else [path])]
     except OSError as error:
-        raise DataError(f"{argument}: cannot list: {error}") from None
+        raise DataError(f"cannot list: {error}", path=argument) from None
     if not found:
-        raise DataError(f"{argument}: no file matches this pattern")
+        raise DataError("no file matches this pattern", path=argument)
     return fs, found
 
 
@@ -56,7 +56,7 @@ def described(fs: Any, path: str) -> SourceFile:
     try:
         info = fs.info(path)
     except OSError as error:
-        raise DataError(f"{fs.unstrip_protocol(path)}: cannot read: {error}") from None
+        raise DataError(f"cannot read: {error}", path=fs.unstrip_protocol(path)) from None
     stamp = info.get("mtime") or info.get("LastModified") or info.get("created") or 0
     if isinstance(stamp, datetime):
         stamp = stamp.timestamp()
@@ -86,10 +86,12 @@ def local_copy(url: str) -> Iterator[str]:
             with fs.open(inner, "rb") as source, open(path, "wb") as target:
                 shutil.copyfileobj(source, target, 1 << 20)
         except OSError as error:
-            raise DataError(f"{url}: cannot read: {error}") from None
+            raise DataError(f"cannot read: {error}", path=url) from None
         try:
             yield path
         except DataError as error:
-            raise DataError(str(error).replace(path, url)) from None
+            if error.path != path:
+                raise
+            raise DataError(error.reason, path=url, line=error.line, column=error.column) from None
     finally:
         shutil.rmtree(folder, ignore_errors=True)
