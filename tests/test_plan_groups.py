@@ -192,7 +192,7 @@ def test_a_step_that_may_raise_never_shares_a_mask_with_the_steps_written_before
     # ... while every plan the limits allow returns what the written chain returns.
     written = _run(_GUARDED, frame)
     assert not isinstance(written, Exception)
-    from chainlint.rewrite.fuse import plan_edit
+    from chainlint.rewrite.plans import plan_edit
     from chainlint.rewrite.permute import apply_edits
     from chainlint.rewrite.verify import verify
 

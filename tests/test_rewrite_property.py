@@ -30,7 +30,7 @@ from chainlint.model import ChainForm
 from chainlint.parse.source import text_source
 from chainlint.plan.chains import may_join, plan_segments, precedence
 from chainlint.plan.totality import ANY, judge
-from chainlint.rewrite.fuse import plan_edit
+from chainlint.rewrite.plans import plan_edit
 from chainlint.rewrite.permute import apply_edits
 from chainlint.rewrite.verify import verify
 

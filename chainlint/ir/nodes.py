@@ -69,7 +69,9 @@ class Literal(Node):
         return type(self.value) is type(other.value) and _same_value(self.value, other.value)
 
     def __hash__(self) -> int:
-        return hash((type(self.value).__name__, self.value))
+        # Equal literals hash alike: every NaN is the same literal, and `hash(nan)` differs per object.
+        value = self.value
+        return hash((type(value).__name__, "nan" if isinstance(value, float) and math.isnan(value) else value))
 
 
 @dataclass(frozen=True, slots=True)

@@ -17,8 +17,8 @@ from chainlint.model import Chain, Edit, FileAnalysis, Finding
 from chainlint.parse.notebooks import is_notebook, notebook_from_text
 from chainlint.parse.source import SourceError, SourceText, decode_source, read_source, text_digest, text_source
 from chainlint.rewrite.cells import rewrite_cells
-from chainlint.rewrite.fuse import plan_edit
 from chainlint.rewrite.permute import RewriteError, apply_edits
+from chainlint.rewrite.plans import plan_edits
 from chainlint.rewrite.verify import verify
 from chainlint.writer import WriteError, read_snapshot, write_file
 
@@ -83,20 +83,21 @@ def fix_text(source: SourceText, reorders: Sequence[tuple[Finding, Chain]]) -> t
     made, for a file (`check --fix`, `--diff`) and for an editor's text (a quick fix)."""
     updated: dict[int, Finding] = {}
     prepared: list[tuple[Finding, Chain, Edit]] = []
-    for finding, chain in reorders:
-        assert finding.groups is not None
-        try:
-            prepared.append((finding, chain, plan_edit(source, chain, finding.groups)))
-        except RewriteError as error:
-            updated[id(finding)] = replace(finding, fix_error=str(error))
+    edits = plan_edits(source, [(chain, finding.groups) for finding, chain in reorders])  # type: ignore[misc]
+    for (finding, chain), edit in zip(reorders, edits):
+        if isinstance(edit, RewriteError):
+            updated[id(finding)] = replace(finding, fix_error=str(edit))
+        else:
+            prepared.append((finding, chain, edit))
     prepared = _apart(prepared, updated)
-    # One verification of the whole text; only when it fails is each edit tried alone, to keep
-    # the good ones and say which chain could not be rewritten.
+    # One verification of the whole text; only when it fails are the edits tried in halves,
+    # down to each bad edit alone, to keep the good ones and say which chain could not be
+    # rewritten (a failing edit costs a verification per halving, not one per edit).
     accepted = _verified(source, prepared)
     if len(accepted) < len(prepared):
-        alone = [item for item in prepared if _verified(source, [item], updated)]
-        # Edits that pass alone must still pass together.
-        accepted = _verified(source, alone, updated)
+        good = _passing(source, prepared, updated)
+        # Edits that pass in their parts must still pass together.
+        accepted = _verified(source, good, updated)
     for finding, _, edit in accepted:
         updated[id(finding)] = replace(finding, fix=edit)
     return [updated.get(id(finding), finding) for finding, _ in reorders], [edit for _, _, edit in accepted]
@@ -107,12 +108,26 @@ def _apart(items: list[tuple[Finding, Chain, Edit]], refusals: dict[int, Finding
     text waits for the next run (noting so), instead of spoiling every fix of the file."""
     kept: list[tuple[Finding, Chain, Edit]] = []
     for item in sorted(items, key=lambda item: (item[2].start, -item[2].end)):
-        holder = next((k for k in kept if item[2].start < k[2].end and k[2].start < item[2].end), None)
+        # The kept edits are apart and by start: only the last one can reach this one.
+        holder = kept[-1] if kept and item[2].start < kept[-1][2].end and kept[-1][2].start < item[2].end else None
         if holder is None:
             kept.append(item)
         else:
             refusals[id(item[0])] = replace(item[0], fix_error=(
                 f"overlaps the rewrite of the chain at line {holder[1].span.line}; run --fix again to rewrite it"))
+    return kept
+
+
+def _passing(source: SourceText, items: list[tuple[Finding, Chain, Edit]],
+             refusals: dict[int, Finding]) -> list[tuple[Finding, Chain, Edit]]:
+    """Of `items`, which failed verification together, those in halves that pass, halving down
+    to each edit that fails alone (noting why)."""
+    if len(items) == 1:
+        return _verified(source, items, refusals)
+    half = len(items) // 2
+    kept: list[tuple[Finding, Chain, Edit]] = []
+    for part in (items[:half], items[half:]):
+        kept += _verified(source, part, refusals if len(part) == 1 else None) or (_passing(source, part, refusals) if len(part) > 1 else [])
     return kept
 
 

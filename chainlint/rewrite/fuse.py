@@ -19,19 +19,29 @@ import tokenize
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from chainlint.find.chains import find_chains
-from chainlint.find.screen import Seams
 from chainlint.ir import Or
 from chainlint.model import Chain, ChainForm, Edit, Span, Step, StepKind
-from chainlint.parse.source import SourceError, SourceText, parse_tree, text_source
-from chainlint.rewrite.permute import RewriteError, step_slots, apply_edits, chain_edit
+from chainlint.parse.source import SourceText
+from chainlint.rewrite.permute import RewriteError, step_slots, chain_edit
 
 Groups = Sequence[Sequence[int]]
 _BETWEEN = re.compile(r"[ \t\r\n\\]*")
 
 
-def plan_edit(source: SourceText, chain: Chain, groups: Groups) -> Edit:
-    """The edit that applies `groups` (step indices, each group run as one mask, in order)."""
+@dataclass(frozen=True)
+class Started:
+    """A plan that fuses steps, begun: `moved` puts the steps into the plan's order (None when
+    they are in it already); the chain must then be found again in the moved text
+    (`chainlint.rewrite.plans`, for every chain of a file at once) and its groups fused."""
+
+    chain: Chain
+    groups: tuple[tuple[int, ...], ...]
+    moved: Edit | None
+
+
+def start_plan(source: SourceText, chain: Chain, groups: Groups) -> Edit | Started:
+    """The edit that applies `groups` (step indices, each group run as one mask, in order), or,
+    for a plan that fuses steps, its first half."""
     groups = [sorted(group) for group in groups]
     order = tuple(i for group in groups for i in group)
     if chain.form is ChainForm.MASK:
@@ -46,9 +56,12 @@ def plan_edit(source: SourceText, chain: Chain, groups: Groups) -> Edit:
         if len(group) > 1 and any(not chain.steps[i].movable for i in group):
             raise RewriteError("a step that may not move cannot join a mask")
     moved = chain_edit(source, chain, order) if order != tuple(range(len(chain.steps))) else None
-    text = apply_edits(source.text, [moved]) if moved else source.text
-    permuted = text_source(source.path, text, source.encoding)
-    again = _permuted(permuted, chain, order)
+    return Started(chain, tuple(tuple(group) for group in groups), moved)
+
+
+def fused_edits(permuted: SourceText, again: Chain, groups: Groups) -> list[Edit]:
+    """The edits of `permuted` that write each group of two or more steps of `again` (the chain
+    found again there, its steps in the plan's order) as one mask."""
     fused: list[Edit] = []
     position = 0
     slots = step_slots(permuted, again)
@@ -56,27 +69,7 @@ def plan_edit(source: SourceText, chain: Chain, groups: Groups) -> Edit:
         if len(group) > 1:
             fused.append(_group_edit(permuted, again, slots, position, position + len(group) - 1))
         position += len(group)
-    final = apply_edits(text, fused)
-    start = min([e.start for e in fused] + ([moved.start] if moved else []))
-    tail = min([len(text) - e.end for e in fused] + ([len(source.text) - moved.end] if moved else []))
-    end = len(source.text) - tail
-    line, column = source.position(start)
-    end_line, end_column = source.position(end)
-    return Edit(start, end, final[start : len(final) - tail], Span(line, column, end_line, end_column))
-
-
-def _permuted(source: SourceText, chain: Chain, order: tuple[int, ...]) -> Chain:
-    """The chain in the permuted text: same steps in `order`, nearest to where it was."""
-    try:
-        tree = parse_tree(source)
-    except SourceError as error:
-        raise RewriteError(f"the reordered chain does not parse: {error.message}") from None
-    expected = [chain.steps[i].predicate for i in order]
-    found = [c for c in find_chains(source, tree, Seams(None))
-             if c.form == chain.form and [s.predicate for s in c.steps] == expected]
-    if not found:
-        raise RewriteError("the reordered chain is not found again")
-    return min(found, key=lambda c: (abs(c.span.line - chain.span.line), abs(c.span.column - chain.span.column)))
+    return fused
 
 
 @dataclass(frozen=True)

@@ -217,6 +217,8 @@ def apply_edits(text: str, edits: list[Edit]) -> str:
     for before, after in zip(ordered, ordered[1:]):
         if after.start < before.end:
             raise RewriteError("two edits overlap")
-    for edit in reversed(ordered):
-        text = text[: edit.start] + edit.text + text[edit.end :]
-    return text
+    pieces, cursor = [], 0
+    for edit in ordered:
+        pieces += [text[cursor : edit.start], edit.text]
+        cursor = edit.end
+    return "".join(pieces) + text[cursor:]

@@ -14,15 +14,16 @@ comments still applying.
 from __future__ import annotations
 
 import ast
+import bisect
 import tokenize
-from collections import Counter
+from collections import Counter, defaultdict
 from collections.abc import Sequence
 
 import libcst
 
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import Seams, find_seams
-from chainlint.ir import make_and
+from chainlint.ir import Node, make_and
 from chainlint.model import Chain, ChainForm, Span
 from chainlint.parse.source import SourceError, SourceText, parse_tree, text_source
 from chainlint.rewrite.permute import RewriteError
@@ -36,19 +37,20 @@ class _Blank(ast.NodeTransformer):
 
     def __init__(self, source: SourceText, chains: Sequence[Chain]) -> None:
         self.spans: set[tuple[int, int, int, int]] = set()
-        self.runs: list[tuple[int, int]] = []
+        runs: list[tuple[int, int]] = []
         for chain in chains:
             if chain.form is ChainForm.STATEMENTS:
-                self.runs.append((chain.span.line, chain.span.end_line))
+                runs.append((chain.span.line, chain.span.end_line))
             else:
                 span = chain.span
                 self.spans.add((span.line, _byte_column(source, span.line, span.column),
                                 span.end_line, _byte_column(source, span.end_line, span.end_column)))
+        self.runs = _Lines(runs)
 
     def visit(self, node: ast.AST) -> ast.AST:
         if isinstance(node, (ast.Subscript, ast.Call)) and (node.lineno, node.col_offset, node.end_lineno, node.end_col_offset) in self.spans:
             return ast.Name(id=_PLACEHOLDER, ctx=ast.Load())
-        if isinstance(node, ast.Assign) and any(first <= node.lineno <= last for first, last in self.runs):
+        if isinstance(node, ast.Assign) and self.runs.holds(node.lineno):
             node.value = ast.Name(id=_PLACEHOLDER, ctx=ast.Load())
             return node
         return self.generic_visit(node)
@@ -58,30 +60,91 @@ def _byte_column(source: SourceText, line: int, column: int) -> int:
     return len(source.lines[line - 1][: column - 1].encode("utf-8"))
 
 
-def _found_again(found: Sequence[Chain], chain: Chain, groups: Groups, used: set[int]) -> Chain:
+class _Lines:
+    """Line ranges (first, last), sorted once, so that a question about one line or one range
+    costs a bisection, not a pass over every range: verification stays linear in the file."""
+
+    def __init__(self, ranges: Sequence[tuple[int, int]]) -> None:
+        self.order = sorted(range(len(ranges)), key=lambda index: ranges[index])
+        self.ranges = [ranges[index] for index in self.order]
+        self.firsts = [first for first, _ in self.ranges]
+        self.reach: list[int] = []  # the furthest last line of the ranges up to each one
+        for _, last in self.ranges:
+            self.reach.append(max(last, self.reach[-1]) if self.reach else last)
+
+    def holds(self, line: int) -> bool:
+        """Whether a range holds `line`."""
+        index = bisect.bisect_right(self.firsts, line)
+        return index > 0 and self.reach[index - 1] >= line
+
+    def meeting(self, first: int, last: int) -> list[int]:
+        """The indices (in the order given) of the ranges that share a line with first..last."""
+        index = bisect.bisect_right(self.firsts, last)
+        found = []
+        while index > 0 and self.reach[index - 1] >= first:
+            index -= 1
+            if self.ranges[index][1] >= first:
+                found.append(self.order[index])
+        return found
+
+
+class _Found:
+    """The chains the finder sees in the new text, indexed by form and steps (predicate and
+    whether it may move), each list in the finder's order (by position)."""
+
+    def __init__(self, found: Sequence[Chain]) -> None:
+        self.by_steps: dict[tuple[ChainForm, tuple[tuple[Node, bool], ...]], list[tuple[int, Chain]]] = defaultdict(list)
+        for index, chain in enumerate(found):
+            self.by_steps[(chain.form, tuple((s.predicate, s.movable) for s in chain.steps))].append((index, chain))
+        self.lines = {key: [chain.span.line for _, chain in chains] for key, chains in self.by_steps.items()}
+        self.used: set[int] = set()
+
+    def nearest(self, key: tuple[ChainForm, tuple[tuple[Node, bool], ...]], line: int, column: int) -> tuple[tuple[int, int, int], Chain] | None:
+        """The unused chain under `key` nearest to line:column, by (lines apart, columns
+        apart, then the finder's order), with that rank; None when there is none."""
+        chains, lines = self.by_steps.get(key, []), self.lines.get(key, [])
+        below, above = bisect.bisect_left(lines, line) - 1, bisect.bisect_left(lines, line)
+        while below >= 0 or above < len(chains):
+            apart = min(([line - lines[below]] if below >= 0 else []) + ([lines[above] - line] if above < len(chains) else []))
+            best: tuple[tuple[int, int, int], Chain] | None = None
+            while below >= 0 and line - lines[below] == apart:
+                best = _better(best, apart, column, *chains[below], self.used)
+                below -= 1
+            while above < len(chains) and lines[above] - line == apart:
+                best = _better(best, apart, column, *chains[above], self.used)
+                above += 1
+            if best is not None:
+                return best
+        return None
+
+
+def _better(best: tuple[tuple[int, int, int], Chain] | None, apart: int, column: int, index: int, chain: Chain,
+            used: set[int]) -> tuple[tuple[int, int, int], Chain] | None:
+    rank = (apart, abs(chain.span.column - column), index)
+    return best if index in used or (best is not None and best[0] <= rank) else (rank, chain)
+
+
+def _found_again(found: _Found, chain: Chain, groups: Groups) -> Chain:
     """The chain of the new text that is `chain` in the planned plan: same form, and a step
     for each group (its steps' predicates joined with `and`, movable unless it is a step that
     was not), or each step in the planned order, nearest to where it was (an edit moves no
     line outside the chain's own text)."""
-    fused = [(make_and(chain.steps[i].predicate for i in group), all(chain.steps[i].movable for i in group)) for group in groups]
-    flat = [(chain.steps[i].predicate, chain.steps[i].movable) for group in groups for i in group]
+    fused = tuple((make_and(chain.steps[i].predicate for i in group), all(chain.steps[i].movable for i in group)) for group in groups)
+    flat = tuple((chain.steps[i].predicate, chain.steps[i].movable) for group in groups for i in group)
     # One group is one mask: a chain of its conjuncts where the finder reads written masks so.
     # A mask written whole and split is a method chain of its groups.
     if chain.form is ChainForm.MASK:
         forms = {ChainForm.MASK, ChainForm.METHOD} if len(groups) == 1 else {ChainForm.METHOD}
     else:
         forms = {chain.form, ChainForm.MASK} if len(groups) == 1 else {chain.form}
-    candidates = [
-        again for again in found
-        if id(again) not in used and again.form in forms
-        and [(s.predicate, s.movable) for s in again.steps] in (fused, flat)
-    ]
+    candidates = [near for form in forms for steps in {fused, flat}
+                  if (near := found.nearest((form, steps), chain.span.line, chain.span.column)) is not None]
     if not candidates:
         raise RewriteError(f"after rewriting, the chain at line {chain.span.line} is not found again with its steps in the planned order")
-    again = min(candidates, key=lambda c: (abs(c.span.line - chain.span.line), abs(c.span.column - chain.span.column)))
+    (_, _, index), again = min(candidates, key=lambda near: near[0])
     if (again.profile_comment, again.keep) != (chain.profile_comment, chain.keep):
         raise RewriteError(f"after rewriting, the chain at line {chain.span.line} would lose its `# chainlint:` comment")
-    used.add(id(again))
+    found.used.add(index)
     return again
 
 
@@ -99,17 +162,17 @@ def verify(old: SourceText, new_text: str, rewritten: Sequence[tuple[Chain, Grou
     # A chain fused into one mask is one step: found only when single steps are looked for.
     single = any(len(groups) == 1 for _, groups in rewritten)
     found = find_chains(new, new_tree, Seams(None) if single else find_seams(new_text), least=1 if single else 2)
-    used: set[int] = set()
-    new_chains = [_found_again(found, chain, order, used) for chain, order in rewritten]
+    index = _Found(found)
+    new_chains = [_found_again(index, chain, order) for chain, order in rewritten]
     old_tree = parse_tree(old)
     if len(old_tree.body) != len(new_tree.body):
         raise RewriteError("the rewrite would change code outside the chain")
     old_comments, new_comments = _fragments(_between(old, old_tree)), _fragments(_between(new, new_tree))
     old_blank, new_blank = _Blank(old, old_chains), _Blank(new, new_chains)
-    old_steps = [step.span for chain in old_chains for step in chain.steps]
-    new_steps = [step.span for chain in new_chains for step in chain.steps]
+    old_steps, new_steps = _Steps(old_chains), _Steps(new_chains)
+    touched = _Lines([(c.span.line, c.span.end_line) for c in old_chains])
     for before, after in zip(old_tree.body, new_tree.body):
-        if _touches(before, old_chains):
+        if touched.meeting(before.lineno, before.end_lineno or before.lineno):
             # Statements holding a chain: every token outside the steps unchanged (comments may
             # move with their step, but none may change, vanish or swallow code), the same
             # `ast` once the chains are blanked out, and the text must read through libcst.
@@ -131,11 +194,6 @@ def verify(old: SourceText, new_text: str, rewritten: Sequence[tuple[Chain, Grou
         raise RewriteError("the rewrite would change, lose or split a comment")
 
 
-def _touches(statement: ast.stmt, chains: Sequence[Chain]) -> bool:
-    last = statement.end_lineno or statement.lineno
-    return any(c.span.line <= last and c.span.end_line >= statement.lineno for c in chains)
-
-
 def _text(source: SourceText, statement: ast.stmt) -> str:
     return "".join(source.lines[statement.lineno - 1 : statement.end_lineno])
 
@@ -155,9 +213,21 @@ def _fragments(comments: Sequence[str]) -> Counter[str]:
     return Counter(piece.strip() for comment in comments for piece in comment.split("#") if piece.strip())
 
 
-def _tokens(source: SourceText, statement: ast.stmt, steps: Sequence[Span], comments: Counter[str]) -> list[tuple[int, str]]:
+class _Steps:
+    """The spans of the chains' steps, found by the lines they meet."""
+
+    def __init__(self, chains: Sequence[Chain]) -> None:
+        self.spans = [step.span for chain in chains for step in chain.steps]
+        self.lines = _Lines([(span.line, span.end_line) for span in self.spans])
+
+    def meeting(self, first: int, last: int) -> list[Span]:
+        return [self.spans[index] for index in self.lines.meeting(first, last)]
+
+
+def _tokens(source: SourceText, statement: ast.stmt, all_steps: _Steps, comments: Counter[str]) -> list[tuple[int, str]]:
     """A top-level statement's tokens outside the steps; its comments are added to `comments`."""
     first = statement.lineno
+    steps = all_steps.meeting(first, statement.end_lineno or first)
     lines = iter([line.rstrip("\r\n") + "\n" for line in source.lines[first - 1 : statement.end_lineno]])
     code: list[tuple[int, str]] = []
     try:
