@@ -22,7 +22,7 @@ from dataclasses import dataclass
 from chainlint.ir import Or
 from chainlint.model import Chain, ChainForm, Edit, Span, Step, StepKind
 from chainlint.parse.source import SourceText
-from chainlint.rewrite.permute import RewriteError, step_slots, chain_edit
+from chainlint.rewrite.permute import RewriteError, chain_edit, line_break, line_start, step_slots
 
 Groups = Sequence[Sequence[int]]
 _BETWEEN = re.compile(r"[ \t\r\n\\]*")
@@ -101,17 +101,15 @@ def _group_edit(source: SourceText, chain: Chain, slots, first: int, last: int) 
         if not _BETWEEN.fullmatch(between):
             raise RewriteError("code between the steps to fuse cannot be kept")
     start, end = slots[first].start, slots[last].end
-    line_start = max(text.rfind("\n", 0, start), text.rfind("\r", 0, start)) + 1
-    prefix = text[line_start:start]
+    prefix = text[line_start(source, start) : start]
     indent = (prefix[: len(prefix) - len(prefix.lstrip())] if prefix.strip() == "" else re.match(r"[ \t]*", prefix).group()) + "    "  # type: ignore[union-attr]
     families = {"query" if s.kind is StepKind.QUERY else "mask" for s in steps}
     if len(families) != 1 or any(s.kind is StepKind.DROPNA for s in steps):
         raise RewriteError("only lambdas and masks, or only queries, are fused into one mask")
-    newline = "\r\n" if "\r\n" in text else "\r" if "\r" in text else "\n"
     if families == {"query"}:
-        body = _query_group(source, steps, comments, indent).replace("\n", newline)
+        body = _query_group(source, steps, comments, indent).replace("\n", line_break(text))
     else:
-        body = _mask_group(source, steps, comments, indent).replace("\n", newline)
+        body = _mask_group(source, steps, comments, indent).replace("\n", line_break(text))
     line, column = source.position(start)
     end_line, end_column = source.position(end)
     return Edit(start, end, body, Span(line, column, end_line, end_column))

@@ -15,6 +15,7 @@ class's names. (Masks that are realigned as written, outer masks, are barriers a
 from __future__ import annotations
 
 import ast
+import bisect
 import re
 from dataclasses import dataclass
 from functools import lru_cache
@@ -69,13 +70,22 @@ class _Slot:
     anchor: int = -1  # the start of its line, when comment lines above it may be its own
 
 
-def _line_end(text: str, offset: int) -> int:
-    ends = [i for i in (text.find("\n", offset), text.find("\r", offset)) if i >= 0]
-    return min(ends) if ends else len(text)
+def _line_end(source: SourceText, offset: int) -> int:
+    """Where the line holding `offset` ends, before its line break (found by the source's
+    lines: a search for a break character that the file lacks would read to its end)."""
+    line = source.position(offset)[0]
+    return source.line_starts[line - 1] + len(source.lines[line - 1].rstrip("\r\n"))
 
 
-def _line_start(text: str, offset: int) -> int:
-    return max(text.rfind("\n", 0, offset), text.rfind("\r", 0, offset)) + 1
+def line_start(source: SourceText, offset: int) -> int:
+    """Where the line holding `offset` starts."""
+    return source.line_starts[source.position(offset)[0] - 1]
+
+
+@lru_cache(maxsize=8)
+def line_break(text: str) -> str:
+    """The text's line break: `\r\n` or `\r` where it holds one, else `\n`."""
+    return "\r\n" if "\r\n" in text else "\r" if "\r" in text else "\n"
 
 
 def step_slots(source: SourceText, chain: Chain) -> list[_Slot]:
@@ -85,7 +95,7 @@ def step_slots(source: SourceText, chain: Chain) -> list[_Slot]:
     for index, step in enumerate(steps):
         start = _offset(source, step.span.line, step.span.column)
         end = _offset(source, step.span.end_line, step.span.end_column)
-        slot = _Slot(start, end, _line_end(text, end))
+        slot = _Slot(start, end, _line_end(source, end))
         before_alone = index == 0 or steps[index - 1].span.end_line < step.span.line
         after_alone = index == len(steps) - 1 or steps[index + 1].span.line > step.span.end_line
         if chain.form is ChainForm.STATEMENTS:
@@ -98,15 +108,15 @@ def step_slots(source: SourceText, chain: Chain) -> list[_Slot]:
                 slot.trail = comment
             else:
                 slot.fixed = comment
-        line_start = _line_start(text, start)
-        prefix = text[line_start:start]
+        begin = line_start(source, start)
+        prefix = text[begin:start]
         leads = not prefix.strip() if chain.form is ChainForm.METHOD else _RUN_PREFIX.fullmatch(prefix) is not None
         if before_alone and after_alone and leads and (step.span.line > chain.span.line or chain.form is ChainForm.STATEMENTS):
             lead_start = _lead_start(source, step.span.line)
             # Above a run's first statement, a `# chainlint:` comment over the comment lines
             # would start or stop applying to the run if they moved.
             if step.span.line > chain.span.line or not _directive_above(source, source.position(lead_start)[0]):
-                slot.anchor, slot.lead_start = line_start, lead_start
+                slot.anchor, slot.lead_start = begin, lead_start
         slots.append(slot)
     return slots
 
@@ -177,13 +187,31 @@ def chain_edit(source: SourceText, chain: Chain, order: tuple[int, ...]) -> Edit
     return Edit(begin, cursor, "".join(pieces), Span(start_line, start_column, end_line, end_column))
 
 
+@dataclass(frozen=True)
+class _Bodies:
+    """The bodies of a module's classes, functions and lambdas as character ranges, sorted by
+    start (outer first), each with the index of the nearest range around it: the innermost
+    body around an offset is found by a bisection and a walk outwards."""
+
+    starts: tuple[int, ...]
+    ends: tuple[int, ...]
+    classes: tuple[bool, ...]
+    parents: tuple[int, ...]  # -1: none around it
+
+    def in_class(self, offset: int) -> bool:
+        index = bisect.bisect_right(self.starts, offset) - 1
+        while index >= 0 and self.ends[index] <= offset:
+            index = self.parents[index]
+        return index >= 0 and self.classes[index]
+
+
 @lru_cache(maxsize=8)
-def _class_bodies(text: str) -> tuple[tuple[int, int, bool], ...]:
-    """(start, end, is class body) character ranges of class bodies and of function bodies."""
+def _class_bodies(text: str) -> _Bodies:
+    """The class bodies and function bodies of `text`."""
     try:
         tree = ast.parse(text)
     except (SyntaxError, ValueError, RecursionError, MemoryError):
-        return ((0, len(text), True),)  # unknown: assume the worst
+        return _Bodies((0,), (len(text),), (True,), (-1,))  # unknown: assume the worst
     lines = text.splitlines(keepends=True)
     starts = [0]
     for line in lines:
@@ -202,13 +230,23 @@ def _class_bodies(text: str) -> tuple[tuple[int, int, bool], ...]:
         elif isinstance(node, ast.Lambda):
             ranges.append((offset(node.body.lineno, node.body.col_offset),
                            offset(node.body.end_lineno or node.body.lineno, node.body.end_col_offset or 0), False))
-    return tuple(ranges)
+    # Of equal ranges the first met in the walk counts: it sorts last, next to the offsets in it.
+    ordered = sorted(range(len(ranges)), key=lambda n: (ranges[n][0], -ranges[n][1], -n))
+    parents: list[int] = []
+    around: list[int] = []  # the ranges holding the current one, innermost last
+    for position, n in enumerate(ordered):
+        start, end, _ = ranges[n]
+        while around and not (ranges[ordered[around[-1]]][0] <= start and end <= ranges[ordered[around[-1]]][1]):
+            around.pop()
+        parents.append(around[-1] if around else -1)
+        around.append(position)
+    return _Bodies(tuple(ranges[n][0] for n in ordered), tuple(ranges[n][1] for n in ordered),
+                   tuple(ranges[n][2] for n in ordered), tuple(parents))
 
 
 def _in_class_body(text: str, offset: int) -> bool:
     """Whether code at `offset` runs in a class body's scope (the innermost scope around it)."""
-    around = [r for r in _class_bodies(text) if r[0] <= offset < r[1]]
-    return bool(around) and min(around, key=lambda r: r[1] - r[0])[2]
+    return _class_bodies(text).in_class(offset)
 
 
 def apply_edits(text: str, edits: list[Edit]) -> str:
