@@ -8,6 +8,7 @@ meet a seam of the textual screen are walked; the screen proves the others hold 
 from __future__ import annotations
 
 import ast
+from collections import Counter
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, replace
 
@@ -16,7 +17,7 @@ from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
 from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
 from chainlint.find.positions import Positions
-from chainlint.find.runs import Walked, bound, inplace_dropna, mentioned, read_elsewhere
+from chainlint.find.runs import Walked, bound, inplace_dropna, mentioned, reads
 from chainlint.find.screen import Seams
 from chainlint.find.shapes import Masks, Names, Shape, is_mask_value, mask_frames, peel, rows_axis
 from chainlint.find.steps import StepContext, build_step, selected_columns
@@ -100,6 +101,8 @@ class _Finder:
         self.chains: list[Chain] = []
         self.least = 2
         self.absorbed: set[int] = set()
+        #: How many times each name is read in a scope (by the id of its node), counted once.
+        self.reads: dict[int, Counter[str]] = {}
         self.origins = Origins(names.pandas, source.lines, bindings, lambda: self.scope)
         self.positions = Positions(source)
         self.visit: Visit | None = None
@@ -348,13 +351,17 @@ class _Finder:
         steps: list[Step] = []
         assigned = frozenset(member.target for member in members)
         scope = self.scope if self.scope is not None else self.bindings.tree
-        statements = [member.statement for member in members]
+        if id(scope) not in self.reads:
+            self.reads[id(scope)] = reads(scope)
+        inside: Counter[str] = Counter()
+        for member in members:
+            inside.update(reads(member.statement))
         for number, member in enumerate(members):
             own = dotted_name(member.decomposed.base)
             outer = frozenset(name for name in (root, own) if name)
             built = list(self.steps(member.decomposed, own, outer, statement=number, assigned=assigned))
             before = members[number - 1].target if number else None
-            if before is not None and before != member.target and read_elsewhere(scope, before, statements):
+            if before is not None and before != member.target and self.reads[id(scope)][before] > inside[before]:
                 reason = f"`{before}`, the frame this step receives, is read elsewhere: no step moves across its statement"
                 built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, reason))
             elif member.fence is not None:

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import ast
 import bisect
+from collections import Counter
 
 #: Statements a run may step over (never control flow: a `return` between filters is a branch;
 #: never `pass`, which separates a notebook's cells, since a run never spans two cells).
@@ -95,11 +96,9 @@ def inplace_dropna(statement: ast.stmt) -> ast.Call | None:
     return None
 
 
-def read_elsewhere(scope: ast.AST, name: str, run: list[ast.stmt]) -> bool:
-    """Whether `name` is read anywhere in `scope` outside the statements of the run (a read
-    inside the run is a barrier of its own: a mask of another frame, or a name the run assigns)."""
-    inside = {id(n) for statement in run for n in ast.walk(statement)}
-    for node in ast.walk(scope):
-        if isinstance(node, ast.Name) and node.id == name and isinstance(node.ctx, ast.Load) and id(node) not in inside:
-            return True
-    return False
+def reads(node: ast.AST) -> Counter[str]:
+    """How many times each name is read in `node` (a scope, or a statement of a run). A name
+    is read elsewhere than in a run when its scope reads it more often than the run's
+    statements do (a read inside the run is a barrier of its own: a mask of another frame,
+    or a name the run assigns); counting the scope once serves all its runs."""
+    return Counter(n.id for n in ast.walk(node) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Load))

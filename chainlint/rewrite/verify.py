@@ -24,7 +24,7 @@ import libcst
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import Seams, find_seams
 from chainlint.ir import Node, make_and
-from chainlint.model import Chain, ChainForm, Span
+from chainlint.model import Chain, ChainForm
 from chainlint.parse.source import SourceError, SourceText, parse_tree, text_source
 from chainlint.rewrite.permute import RewriteError
 
@@ -214,20 +214,25 @@ def _fragments(comments: Sequence[str]) -> Counter[str]:
 
 
 class _Steps:
-    """The spans of the chains' steps, found by the lines they meet."""
+    """The spans of the chains' steps, by start, with the furthest end reached so far: whether
+    a step holds a piece of text is one bisection, however many steps a statement holds."""
 
     def __init__(self, chains: Sequence[Chain]) -> None:
-        self.spans = [step.span for chain in chains for step in chain.steps]
-        self.lines = _Lines([(span.line, span.end_line) for span in self.spans])
+        spans = sorted(((s.span.line, s.span.column), (s.span.end_line, s.span.end_column)) for c in chains for s in c.steps)
+        self.starts = [start for start, _ in spans]
+        self.reach: list[tuple[int, int]] = []
+        for _, end in spans:
+            self.reach.append(max(end, self.reach[-1]) if self.reach else end)
 
-    def meeting(self, first: int, last: int) -> list[Span]:
-        return [self.spans[index] for index in self.lines.meeting(first, last)]
+    def holds(self, start: tuple[int, int], end: tuple[int, int]) -> bool:
+        """Whether a step starts at or before `start` and ends at or after `end`."""
+        index = bisect.bisect_right(self.starts, start)
+        return index > 0 and self.reach[index - 1] >= end
 
 
-def _tokens(source: SourceText, statement: ast.stmt, all_steps: _Steps, comments: Counter[str]) -> list[tuple[int, str]]:
+def _tokens(source: SourceText, statement: ast.stmt, steps: _Steps, comments: Counter[str]) -> list[tuple[int, str]]:
     """A top-level statement's tokens outside the steps; its comments are added to `comments`."""
     first = statement.lineno
-    steps = all_steps.meeting(first, statement.end_lineno or first)
     lines = iter([line.rstrip("\r\n") + "\n" for line in source.lines[first - 1 : statement.end_lineno]])
     code: list[tuple[int, str]] = []
     try:
@@ -239,7 +244,7 @@ def _tokens(source: SourceText, statement: ast.stmt, all_steps: _Steps, comments
             if token.type == tokenize.COMMENT:
                 # Counted wherever it is: a step's comment may move into a fused mask.
                 comments.update(_fragments([token.string]))
-            elif any((s.line, s.column) <= start and end <= (s.end_line, s.end_column) for s in steps):
+            elif steps.holds(start, end):
                 continue
             else:
                 code.append((token.type, token.string))
