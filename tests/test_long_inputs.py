@@ -1,0 +1,105 @@
+"""A long file gets the same findings and the same rewrite as its chains checked one file each.
+
+The rewrite finds the chains of a whole file again in one pass (`chainlint/rewrite/plans.py`)
+and verifies all its fixes together; splitting the file into one small file per chain must not
+change a finding, a message or a byte of the fixed text. (How the time grows with the length is
+`benchmarks/long_inputs.py`'s job: never a timed assertion here.)
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from chainlint.cli import main
+
+#: Chains of every kind the rewrite treats apart: neighbours fused into one mask, a statement
+#: run, a run under new names, a barrier that stays, a mask written whole, a chain already in
+#: a good order, a comment that moves with its step.
+_PIECES = (
+    '''
+def heavy_{n}(scans):
+    return (
+        scans  # chainlint: profile=parcel_scans
+        .loc[lambda d: d["weight_kg"] > 0.5]
+        .loc[lambda d: d["depot"] == "WEST"]
+        .loc[lambda d: d["status"] == "damaged"]
+    )
+''',
+    '''
+def cash_{n}():
+    scans = pd.read_parquet(SCANS)  # chainlint: profile=parcel_scans
+    review = scans[scans.service_level.isin(["standard", "economy", "express"])]
+    review = review[review.vehicle_type != "bike"]
+    # cash on delivery only
+    review = review.dropna(subset=["cod_amount"])
+    review = review.query("attempts >= 3")
+    return review
+''',
+    '''
+def renamed_{n}():
+    scans = pd.read_parquet(SCANS)  # chainlint: profile=parcel_scans
+    heavy = scans[scans.weight_kg > 0.5]
+    west = heavy[heavy.depot == "WEST"]
+    damaged = west[west.status == "damaged"]
+    return damaged
+''',
+    '''
+def above_average_{n}(scans):
+    return (
+        scans  # chainlint: profile=parcel_scans
+        .query("recipient_type == 'business'")
+        .loc[lambda d: d.declared_value > d.declared_value.mean()]
+        .query("zone == 'Z07'")
+        .query("attempts >= 3")
+    )
+''',
+    '''
+def whole_mask_{n}(scans):
+    return scans[(scans.weight_kg > 0.5) & (scans.status == "damaged")]  # chainlint: profile=parcel_scans
+''',
+    '''
+def good_{n}(scans):
+    return scans[scans.status == "returned"].loc[lambda d: d.vehicle_type == "van"]  # chainlint: profile=parcel_scans
+''',
+)
+_HEADER = 'import pandas as pd\n\nSCANS = "data/parcel_scans.parquet"\n'
+_COPIES = 25
+
+
+def _check(paths: list[str], *flags: str) -> str:
+    result = CliRunner().invoke(main, ["check", *paths, "--jobs", "1", *flags])
+    assert result.exit_code in (0, 1), result.output
+    return result.output
+
+
+def _findings(report: str) -> list[tuple[str, str, object, bool, object]]:
+    return [(f["rule"], f["message"], f["groups"], f["fix"] is not None, f["fix_error"]) for f in json.loads(report)["findings"]]
+
+
+@pytest.mark.usefixtures("project")
+def test_a_long_file_is_checked_and_fixed_as_its_chains_one_file_each() -> None:
+    pieces = [piece.format(n=n) for n in range(_COPIES) for piece in _PIECES]
+    apart = Path("apart")
+    apart.mkdir()
+    names = []
+    for number, piece in enumerate(pieces):
+        names.append(str(apart / f"piece_{number:04d}.py"))
+        Path(names[-1]).write_text(_HEADER + piece)
+    Path("whole.py").write_text(_HEADER + "".join(pieces))
+
+    whole = _findings(_check(["whole.py"], "--format", "json"))
+    one_each = _findings(_check(names, "--format", "json"))
+    assert whole == one_each
+    # A fused plan, a run and a renamed run in each copy, every one fixed.
+    assert sum(finding[3] for finding in whole) == 3 * _COPIES
+    assert any(len(group) > 1 for finding in whole for group in finding[2])  # type: ignore[attr-defined]
+
+    _check(["whole.py"], "--fix")
+    _check(names, "--fix")
+    fixed_apart = "".join(Path(name).read_text()[len(_HEADER):] for name in names)
+    assert Path("whole.py").read_text() == _HEADER + fixed_apart
+    assert fixed_apart != "".join(pieces)
