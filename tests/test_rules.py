@@ -84,6 +84,10 @@ def test_joint_uncounted() -> None:
     (computed,) = findings(JOINT_UNCOUNTED, "# chainlint: profile=t\nd = d[d.weight_kg > 10]\nd = d[d.extra > 2]\n",
                            profile_of(PARCELS_COLUMNS, joint=[]))
     assert "reads `extra`, which the data of profile `t` does not have" in computed.message
+    parsed_source = ("import pandas as pd\n# chainlint: profile=t\n"
+                     "d = d[lambda d: pd.to_numeric(d.status, errors='coerce').notna()]\nd = d[d.weight_kg > 10]\n")
+    (parsed,) = findings(JOINT_UNCOUNTED, parsed_source, profile_of(PARCELS_COLUMNS, joint=[]))
+    assert "`status is numeric` cannot be counted on data: it parses values as pandas' `to_numeric` does" in parsed.message
     assert findings(JOINT_UNCOUNTED, COSTLY, _counted("m.py:d")) == []  # stale, not uncounted
     assert findings(JOINT_UNCOUNTED, COSTLY, PARCELS) == []
 

@@ -16,7 +16,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from chainlint.arrays import filled_numpy, packed_bits, to_numpy
-from chainlint.evaluate.support import NotEvaluable, unevaluable
+from chainlint.evaluate.support import PARSES_NUMBERS, NotEvaluable, unevaluable
 from chainlint.ir import (
     And,
     Arith,
@@ -66,7 +66,7 @@ def _unevaluable(batch: pa.RecordBatch, node: Node) -> Any:
 
 
 def _parsed(batch: pa.RecordBatch, node: NumericTest) -> Any:
-    raise NotEvaluable("it parses values as pandas' `to_numeric` does, which only pandas evaluates exactly")
+    raise NotEvaluable(PARSES_NUMBERS)
 
 
 def _dictionary_operand(batch: pa.RecordBatch, node: Node) -> pa.DictionaryArray | None:

@@ -6,7 +6,7 @@ profiler's pyarrow path never imports pandas).
 
 from __future__ import annotations
 
-from chainlint.ir import Literal, Named, Node, Opaque
+from chainlint.ir import Literal, Named, Node, NumericTest, Opaque
 from chainlint.model import ChainlintError
 
 _INT64 = (-(2**63), 2**63 - 1)
@@ -28,4 +28,22 @@ def unevaluable(node: Node) -> str | None:
         reason = unevaluable(child)
         if reason:
             return reason
+    return None
+
+
+#: Why the profiler, which evaluates with pyarrow, does not count a number parsed by pandas.
+PARSES_NUMBERS = "it parses values as pandas' `to_numeric` does, which only pandas evaluates exactly"
+
+
+def uncountable(node: Node) -> str | None:
+    """Why the profiler cannot count `node` on data (it evaluates with pyarrow), or None."""
+    reason = unevaluable(node)
+    if reason:
+        return reason
+    stack = [node]
+    while stack:
+        part = stack.pop()
+        if isinstance(part, NumericTest):
+            return PARSES_NUMBERS
+        stack.extend(part.children())
     return None

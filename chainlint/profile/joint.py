@@ -20,7 +20,7 @@ import numpy as np
 import pyarrow as pa
 
 from chainlint.evaluate.arrow_masks import bit_mask
-from chainlint.evaluate.support import NotEvaluable, unevaluable
+from chainlint.evaluate.support import NotEvaluable, uncountable
 from chainlint.ir import Node
 from chainlint.model import Chain
 from chainlint.profile.privacy import hide_small_cells
@@ -55,7 +55,7 @@ class JointCounter:
                 chosen: dict[str, Node] = {}
                 for index in segment:
                     predicate = chain.steps[index].predicate
-                    reason = unevaluable(predicate)
+                    reason = uncountable(predicate)
                     if reason is None and not predicate.columns() <= columns:
                         reason = "it reads columns the data does not have"
                     elif reason is None and predicate.columns() & redacted:

@@ -7,7 +7,7 @@ import os
 from datetime import UTC, datetime
 
 from chainlint.estimate.selectivity import Estimator
-from chainlint.evaluate.support import unevaluable
+from chainlint.evaluate.support import uncountable
 from chainlint.plan.chains import ChainPlan
 from chainlint.model import Finding
 from chainlint.rules.base import Rule, Subject
@@ -26,7 +26,7 @@ def gap(plan: ChainPlan, estimator: Estimator, site: str) -> tuple[str, str] | N
         if len(segment) < 2 or estimator.joint_covers(texts):
             continue
         for step in steps:
-            reason = unevaluable(step.predicate)
+            reason = uncountable(step.predicate)
             if reason:
                 return "uncounted", f"`{step.predicate.canonical()}` cannot be counted on data: {reason}"
             redacted = sorted(step.predicate.columns() & set(estimator.profile.settings.redacted))
