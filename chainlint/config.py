@@ -12,6 +12,7 @@ import json
 
 import difflib
 import math
+import re
 import os
 import tomllib
 from dataclasses import dataclass, field, fields, replace
@@ -63,11 +64,11 @@ def find_config(start: Path) -> tuple[Path, dict[str, Any]] | None:
         if os.path.isfile(pyproject):
             tool = _read(pyproject).get("tool", {})
             if not isinstance(tool, dict):
-                raise ConfigError(f"{pyproject}: `tool` must be a table")
+                raise ConfigError("`tool` must be a table", path=str(pyproject))
             table = tool.get("chainlint")
             if table is not None:
                 if not isinstance(table, dict):
-                    raise ConfigError(f"{pyproject}: [tool.chainlint] must be a table")
+                    raise ConfigError("[tool.chainlint] must be a table", path=str(pyproject))
                 return pyproject, table
     return None
 
@@ -76,20 +77,24 @@ def _read(path: Path) -> dict[str, Any]:
     try:
         return tomllib.loads(path.read_text(encoding="utf-8"))
     except (OSError, UnicodeDecodeError) as error:
-        raise ConfigError(f"{path}: cannot read: {error}") from None
+        raise ConfigError(f"cannot read: {error}", path=str(path)) from None
     except tomllib.TOMLDecodeError as error:
-        raise ConfigError(f"{path}: not valid TOML: {error}") from None
+        # tomllib states the place only inside its message: "... (at line 2, column 5)".
+        place = re.search(r"\s*\(at line (\d+), column (\d+)\)$", str(error))
+        reason = str(error)[:place.start()] if place else str(error)
+        line, column = (int(place[1]), int(place[2])) if place else (None, None)
+        raise ConfigError(f"not valid TOML: {reason}", path=str(path), line=line, column=column) from None
 
 
 def _strings(path: Path, key: str, value: Any) -> tuple[str, ...]:
     if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
-        raise ConfigError(f"{path}: `{key}` must be a list of strings")
+        raise ConfigError(f"`{key}` must be a list of strings", path=str(path))
     return tuple(value)
 
 
 def _number(path: Path, key: str, value: Any, low: float) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)) or not low <= value < math.inf:
-        raise ConfigError(f"{path}: `{key}` must be a finite number of at least {low:g}")
+        raise ConfigError(f"`{key}` must be a finite number of at least {low:g}", path=str(path))
     return float(value)
 
 
@@ -100,18 +105,18 @@ def parse_config(path: Path, table: dict[str, Any], known_rules: set[str]) -> Co
         if key not in _KEYS:
             close = difflib.get_close_matches(key, sorted(_KEYS), n=1)
             hint = f"; did you mean `{close[0]}`?" if close else f"; known keys: {', '.join(sorted(_KEYS))}"
-            raise ConfigError(f"{path}: unknown key `{key}`{hint}")
+            raise ConfigError(f"unknown key `{key}`{hint}", path=str(path))
         if key == "store":
             if not isinstance(value, str):
-                raise ConfigError(f"{path}: `store` must be a path")
+                raise ConfigError("`store` must be a path", path=str(path))
             values[key] = str((path.parent / value).resolve())
         elif key in ("bindings", "rows"):
             if not isinstance(value, dict):
-                raise ConfigError(f"{path}: `{key}` must be a table")
+                raise ConfigError(f"`{key}` must be a table", path=str(path))
             kind = str if key == "bindings" else int
             if not all(isinstance(v, kind) and not isinstance(v, bool) and (kind is str or v >= 1) for v in value.values()):
                 what = "profile names" if key == "bindings" else "row counts of at least 1"
-                raise ConfigError(f"{path}: `{key}` must map names to {what}")
+                raise ConfigError(f"`{key}` must map names to {what}", path=str(path))
             values[key] = tuple(value.items())
         elif key in ("min_gain", "min_saving_ms"):
             values[key] = _number(path, key, value, 1.0 if key == "min_gain" else 0.0)
@@ -120,11 +125,11 @@ def parse_config(path: Path, table: dict[str, Any], known_rules: set[str]) -> Co
             if key == "exclude":
                 problem = pattern_problem(items)
                 if problem:
-                    raise ConfigError(f"{path}: `exclude`: {problem}")
+                    raise ConfigError(f"`exclude`: {problem}", path=str(path))
             if key in ("rules", "skip", "fail_rules"):
                 unknown = [r for r in items if r not in known_rules]
                 if unknown:
-                    raise ConfigError(f"{path}: `{key}` names unknown rules: {', '.join(unknown)} (known: {', '.join(sorted(known_rules))})")
+                    raise ConfigError(f"`{key}` names unknown rules: {', '.join(unknown)} (known: {', '.join(sorted(known_rules))})", path=str(path))
             values[key] = items
     origins = {key: str(path) for key in values}
     return Config(**values, source=str(path), origins=origins)

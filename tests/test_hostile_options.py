@@ -64,6 +64,22 @@ def test_bad_configuration_is_an_error_naming_the_file(project: Path, text: str,
     assert code == 2 and wanted in output and "pyproject.toml" in output
 
 
+def test_configuration_errors_carry_their_place_as_fields(tmp_path: Path) -> None:
+    """Reporters and the editor place an error by its fields; the message is `path[:line:col]: reason`."""
+    from chainlint.config import ConfigError, find_config, parse_config
+
+    (tmp_path / "chainlint.toml").write_text("min_gain = 2\nrules = \n")
+    with pytest.raises(ConfigError) as caught:
+        find_config(tmp_path)
+    error = caught.value
+    # tomllib (Python's standard TOML reader) places a missing value after `=` at the line's end.
+    assert (error.path, error.line, error.column) == (str(tmp_path / "chainlint.toml"), 2, 9)
+    assert str(error).startswith(f"{tmp_path / 'chainlint.toml'}:2:9: not valid TOML: ")
+    with pytest.raises(ConfigError) as caught:
+        parse_config(tmp_path / "chainlint.toml", {"min_gian": 2}, set())
+    assert caught.value.path == str(tmp_path / "chainlint.toml") and caught.value.reason.startswith("unknown key `min_gian`")
+
+
 def test_a_store_given_explicitly_that_does_not_exist_is_an_error(project: Path) -> None:
     for command in (["check", str(project / "m.py")], ["explain", str(project / "m.py")], ["profiles"],
                     ["profiles", "show", "t"], ["profiles", "check"]):
