@@ -40,6 +40,11 @@ CASES = [
     ("twohead.csv", {"skiprows": [1]}), ("names.csv", {}), ("words.csv", {"na_values": ["x"]}),
     ("semicolon.csv", {"sep": ";", "skiprows": 2, "na_values": ["-"]}), ("mixed.csv", {"dtype": {"k": "str", "n": "float64"}}),
     ("empty.csv", {"header": None}),
+    # dtypes pandas keeps whatever the values: a categorical, nullable integers and booleans,
+    # `string` (missing values as NA) and `object`.
+    ("mixed.csv", {"dtype": {"k": "category", "v": "string", "n": "Int64"}}),
+    ("words.csv", {"dtype": {"a": "object", "b": "boolean", "c": "category"}}),
+    ("empty.csv", {"dtype": {"id": "Int64", "events": "Int64", "technician": "category"}}),
 ]
 
 

@@ -125,7 +125,9 @@ class FrameShape:
 
 
 def column_kind(pandas_type: str) -> str:
-    if pandas_type == "str":
+    """The kind a profile's dtype is priced as: pandas 3's `string` (missing values as NA) is
+    pyarrow-backed like `str`, and priced as it (not measured apart)."""
+    if pandas_type in ("str", "string"):
         return "str"
     if pandas_type == "object":
         return "object"

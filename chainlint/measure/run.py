@@ -20,6 +20,7 @@ import pyarrow as pa
 from chainlint.evaluate.pandas_masks import apply_group
 from chainlint.evaluate.support import unevaluable
 from chainlint.model import Chain, ChainlintError
+from chainlint.profile.dtypes import fixed_dtype
 from chainlint.profile.read_options import CsvOptions
 from chainlint.profile.readers import open_dataset
 
@@ -95,18 +96,34 @@ def load_table(data: Sequence[str], rows: int | None, columns: Sequence[str] | N
             break
     schema = dataset.schema if not columns else pa.schema([dataset.schema.field(c) for c in columns])
     table = pa.concat_tables([b.cast(schema) if b.schema != schema else b for b in batches]) if batches else schema.empty_table()
-    return table.combine_chunks()
+    # The schema as profiled, its marks of the dtypes pandas gives whatever the values included.
+    return pa.Table.from_arrays(table.combine_chunks().columns, schema=schema)
 
 
 def as_read_csv(table: pa.Table) -> pd.DataFrame:
-    """The table as the frame pandas' readers give: a boolean column with missing values holds
-    NaN, not None, in its object array."""
+    """The table as the frame pandas' readers give: a column whose dtype the data fixes (a
+    categorical, a nullable dtype, a `read_csv` dtype) in that dtype; a boolean column with
+    missing values holds NaN, not None, in its object array."""
     frame = table.to_pandas()
     for field in table.schema:
-        if pa.types.is_boolean(field.type) and table.column(field.name).null_count:
+        dtype = fixed_dtype(field)
+        if dtype == "category":
+            frame[field.name] = _categorical(table.column(field.name))
+        elif dtype is not None:
+            frame[field.name] = frame[field.name].astype(dtype)
+        elif pa.types.is_boolean(field.type) and table.column(field.name).null_count:
             column = frame[field.name]
             frame[field.name] = column.where(column.notna(), float("nan"))
     return frame
+
+
+def _categorical(column: pa.ChunkedArray) -> pd.Categorical:
+    """A column as a categorical of its values in their own type (integers stay integers, as
+    `read_csv` converts categories), in sorted order."""
+    encoded = column.combine_chunks().dictionary_encode()
+    categories = pd.Index(encoded.dictionary.to_pandas())
+    codes = encoded.indices.fill_null(-1).to_numpy(zero_copy_only=False)
+    return pd.Categorical.from_codes(codes, categories).set_categories(categories.sort_values())
 
 
 def measurable(chain: Chain) -> str | None:

@@ -24,6 +24,7 @@ from chainlint.profile.build import profile_dataset
 from chainlint.profile.errors import DataError
 from chainlint.profile.format import ProfileError
 from chainlint.profile.joint import JointCounter
+from chainlint.profile.dtypes import with_dtype
 from chainlint.profile.readers import Dataset, memory_dataset
 from chainlint.profile.settings import Settings
 from chainlint.profile.store import StoreError, check_name, find_store, save_profile
@@ -46,7 +47,9 @@ def _dataset(frame: Any) -> Dataset:
         table = pa.Table.from_pandas(frame, preserve_index=False)
     except (pa.ArrowException, TypeError, ValueError) as error:
         raise MagicError(f"the frame cannot be read as columns of one type each: {error}") from None
-    return memory_dataset(table)
+    # The profile states the frame's own dtypes (an object column of text is not `str`).
+    marked = pa.schema([with_dtype(field, str(dtype)) for field, dtype in zip(table.schema, frame.dtypes)])
+    return memory_dataset(pa.Table.from_arrays(table.columns, schema=marked))
 
 
 def plan_on_frame(chain: Chain, frame: Any, options: Options, model: CostModel = DEFAULT_MODEL) -> LivePlan:

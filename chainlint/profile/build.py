@@ -12,6 +12,7 @@ from typing import Any
 import pyarrow as pa
 
 from chainlint.profile.columns import ColumnProfiler
+from chainlint.profile.dtypes import fixed_dtype
 from chainlint.profile.entries import finished_entry
 from chainlint.profile.errors import DataError
 from chainlint.profile.format import header
@@ -45,7 +46,7 @@ def profile_dataset(
 def new_profilers(schema: pa.Schema, settings: Settings, expected_rows: int,
                   kind: type[ColumnProfiler] = ColumnProfiler) -> list[ColumnProfiler]:
     """One profiler per column; `expected_rows` (of the whole dataset) sets the sampling stride."""
-    return [kind(field.name, field.type, settings, expected_rows) for field in schema]
+    return [kind(field.name, field.type, settings, expected_rows, fixed_dtype(field)) for field in schema]
 
 
 def count_batches(

@@ -18,7 +18,7 @@ import pyarrow.compute as pc
 
 from chainlint.arrays import index_array, to_numpy
 from chainlint.profile.counter import ValueCounter
-from chainlint.profile.dtypes import NUMERIC, temporal_ints, value_kind
+from chainlint.profile.dtypes import NUMERIC, pandas_type, temporal_ints, value_kind
 from chainlint.profile.settings import Settings
 from chainlint.profile.sketches import HyperLogLog, WeightedSample, hash32, hash_strings
 
@@ -48,8 +48,10 @@ class ColumnProfiler:
     #: pyarrow's errors for a type it has no kernel for.
     ARROW_ERRORS = (pa.ArrowNotImplementedError, pa.ArrowInvalid, pa.ArrowTypeError)
 
-    def __init__(self, name: str, arrow_type: pa.DataType, settings: Settings, expected_rows: int = 0) -> None:
+    def __init__(self, name: str, arrow_type: pa.DataType, settings: Settings, expected_rows: int = 0,
+                 dtype: str | None = None) -> None:
         self.name = name
+        self.fixed_dtype = dtype  # the dtype pandas gives the column whatever its values, where the data fixes it
         self.arrow_type = arrow_type.value_type if pa.types.is_dictionary(arrow_type) else arrow_type
         self.kind = value_kind(arrow_type)
         self.counted_type = pa.int64() if self.kind == "temporal" else self.arrow_type  # times count as integers
@@ -75,6 +77,11 @@ class ColumnProfiler:
         except self.ARROW_ERRORS as error:
             self.kind, self.exact = "other", False
             self.unsummarised = f"pyarrow cannot count {self.arrow_type} values ({str(error).splitlines()[0]})"
+
+    def dtype(self) -> str:
+        """The dtype pandas gives the column: fixed by the data (`fixed_dtype`), else by its
+        Arrow type and whether it holds nulls."""
+        return self.fixed_dtype or pandas_type(self.arrow_type, self.nulls > 0)
 
     # -- accumulation ---------------------------------------------------------------------
     def add(self, column: pa.Array | pa.ChunkedArray) -> None:

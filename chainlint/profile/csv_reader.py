@@ -22,6 +22,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.csv as pacsv
 
+from chainlint.profile.dtypes import pandas_schema, with_dtype
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import CsvOptions
 
@@ -39,8 +40,10 @@ _DTYPES = {
     "int64": pa.int64(), "int": pa.int64(), "Int64": pa.int64(), "int32": pa.int32(),
     "float64": pa.float64(), "float": pa.float64(), "float32": pa.float32(),
     "bool": pa.bool_(), "boolean": pa.bool_(),
-    "category": pa.dictionary(pa.int32(), pa.string()),
 }
+#: The `dtype=` names whose dtype pandas gives the column whatever its values (the others
+#: follow the Arrow type and the column's nulls, as without the option).
+_FIXED = frozenset({"Int64", "string", "boolean", "category", "object"})
 
 
 @dataclass(frozen=True)
@@ -122,12 +125,20 @@ class CsvFile:
         self.options = options
         self.delimiter = options.sep or ("\t" if path.lower().endswith((".tsv", ".tsv.gz")) else ",")
         self.layout = _layout(path, options, self.delimiter)
-        self.types = {name: _DTYPES[d] for name, d in options.dtype}
+        # A categorical's values are read as the column's would be without the option: pandas
+        # converts its categories as `read_csv` converts values (numbers, booleans, text).
+        self.types = {name: _DTYPES[d] for name, d in options.dtype if d != "category"}
         for name in options.parse_dates:
             self.types[name] = pa.timestamp("us")
-        missing = sorted(set(self.types) - set(self.layout.names))
+        missing = sorted({name for name, _ in options.dtype} - set(self.layout.names) | set(self.types) - set(self.layout.names))
         if missing:
             raise DataError(f"no column {missing[0]!r} (named by dtype or parse_dates)", path=str(path))
+
+    def profiled(self, schema: pa.Schema) -> pa.Schema:
+        """The parsed schema as profiled: each column given a `dtype=` pandas keeps whatever
+        its values marked with it."""
+        fixed = {name: d for name, d in self.options.dtype if d in _FIXED}
+        return pandas_schema(pa.schema([with_dtype(f, fixed[f.name]) if f.name in fixed else f for f in schema]))
 
     def convert(self, types: dict[str, pa.DataType]) -> pacsv.ConvertOptions:
         return pacsv.ConvertOptions(
@@ -233,7 +244,7 @@ def open_csv(path: str, options: CsvOptions) -> tuple[pa.Schema, Iterator[pa.Tab
         for piece, offset, quoted_piece in pieces:
             yield reader.parse(piece, offset, quoted_piece, types)
 
-    return schema, stream(), expected
+    return reader.profiled(schema), stream(), expected
 
 
 def _compressed(path: str) -> bool:

@@ -3,6 +3,8 @@ dtype pandas 3 reads it as, and how its temporal values are counted and written.
 
 from __future__ import annotations
 
+import json
+import re
 from typing import Any
 
 import numpy as np
@@ -28,8 +30,68 @@ def value_kind(arrow_type: pa.DataType) -> str:
     return "other"
 
 
+#: Field metadata of a schema as profiled: the dtype pandas gives the column whatever its
+#: values (a categorical, a nullable or pyarrow-backed dtype, a `read_csv` dtype); a field
+#: without it gets the dtype its Arrow type and its nulls give (`pandas_type`).
+DTYPE_KEY = b"chainlint.dtype"
+
+#: The extension dtypes pyarrow's `Table.to_pandas` restores from the `numpy_type` the pandas
+#: metadata records (pandas' own names: nullable numbers and booleans, `string`, `str`, and
+#: pyarrow-backed `...[pyarrow]`); other recorded names are numpy dtypes, which follow the
+#: Arrow type.
+_RECORDED = re.compile(r"U?Int(8|16|32|64)|Float(32|64)|boolean|str|string(\[(python|pyarrow)\])?|.+\[pyarrow\]")
+
+
+def pandas_schema(schema: pa.Schema) -> pa.Schema:
+    """The schema as the profiler counts it: dictionary columns as their value type, and each
+    column whose dtype pandas fixes whatever its values marked with it (`DTYPE_KEY`).
+
+    `schema` is what pyarrow reads for `pd.read_parquet`/`pd.read_feather`, with the pandas
+    metadata (`b"pandas"`) a file written by pandas carries; a field already marked keeps its
+    mark (a `read_csv` dtype), so that a schema as profiled is its own. The dtype follows pyarrow's
+    `Table.to_pandas` as pandas 3 calls it: an extension dtype the metadata records, except a
+    string dtype over a dictionary column; else a dictionary column is a categorical."""
+    recorded = _recorded_dtypes(schema.metadata or {})
+    fields = []
+    for field in schema:
+        dtype = fixed_dtype(field) or _fixed_dtype(field.type, recorded.get(field.name))
+        value_type = field.type.value_type if pa.types.is_dictionary(field.type) else field.type
+        fields.append(pa.field(field.name, value_type, metadata={DTYPE_KEY: dtype.encode()} if dtype else None))
+    return pa.schema(fields)
+
+
+def with_dtype(field: pa.Field, dtype: str) -> pa.Field:
+    """The field marked with the dtype pandas gives it whatever its values."""
+    return field.with_metadata({**(field.metadata or {}), DTYPE_KEY: dtype.encode()})
+
+
+def fixed_dtype(field: pa.Field) -> str | None:
+    """The dtype a schema as profiled fixes for the field, or None (it follows its nulls)."""
+    value = (field.metadata or {}).get(DTYPE_KEY)
+    return value.decode() if value is not None else None
+
+
+def _recorded_dtypes(metadata: dict[bytes, bytes]) -> dict[str, str]:
+    """Column name -> the `numpy_type` pandas recorded for it; nothing from metadata that is
+    not pandas' (a file written by other tools may carry anything)."""
+    try:
+        columns = json.loads(metadata[b"pandas"])["columns"]
+        return {str(c.get("field_name", c.get("name"))): c["numpy_type"] for c in columns if isinstance(c.get("numpy_type"), str)}
+    except (KeyError, TypeError, AttributeError, ValueError):
+        return {}
+
+
+def _fixed_dtype(arrow_type: pa.DataType, recorded: str | None) -> str | None:
+    if recorded is not None and _RECORDED.fullmatch(recorded):
+        name = "string" if recorded.startswith("string") else recorded  # pandas 3 reads either storage as `string`
+        if not (name in ("str", "string") and pa.types.is_dictionary(arrow_type)):
+            return name
+    return "category" if pa.types.is_dictionary(arrow_type) else None
+
+
 def pandas_type(arrow_type: pa.DataType, has_nulls: bool) -> str:
-    """The dtype pandas 3 gives this column when it reads the file (default numpy backend)."""
+    """The dtype pandas 3 gives this column when it reads the file (default numpy backend), for
+    a column whose dtype the file does not fix (`fixed_dtype`)."""
     if pa.types.is_dictionary(arrow_type):
         return "category"
     kind = value_kind(arrow_type)

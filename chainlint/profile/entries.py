@@ -13,7 +13,7 @@ import numpy as np
 
 from chainlint.arrays import to_numpy
 from chainlint.profile.columns import ColumnProfiler
-from chainlint.profile.dtypes import iso, pandas_type, plain, unit_nanoseconds
+from chainlint.profile.dtypes import iso, plain, unit_nanoseconds
 from chainlint.profile.privacy import fold_rare, safe_bounds
 from chainlint.profile.sketches import HyperLogLog, seal
 from chainlint.redaction import redact_value
@@ -38,16 +38,15 @@ def finished_entry(profiler: ColumnProfiler) -> dict[str, Any]:
                 reason = "it holds infinite values, which a profile cannot state"
             else:
                 return entry
-    return {"type": pandas_type(profiler.arrow_type, profiler.nulls > 0), "arrow_type": str(profiler.arrow_type),
+    return {"type": profiler.dtype(), "arrow_type": str(profiler.arrow_type),
             "rows": profiler.rows, "nulls": profiler.nulls, "unsummarised": reason}
 
 
 def column_entry(profiler: ColumnProfiler) -> dict[str, Any]:
     """The column's entry in the profile (may raise pyarrow's errors for values it cannot sort)."""
     settings = profiler.settings
-    has_nulls = profiler.nulls > 0
     entry: dict[str, Any] = {
-        "type": pandas_type(profiler.arrow_type, has_nulls),
+        "type": profiler.dtype(),
         "arrow_type": str(profiler.arrow_type),
         "rows": profiler.rows,
         "nulls": profiler.nulls,

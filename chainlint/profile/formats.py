@@ -6,12 +6,14 @@ from __future__ import annotations
 
 import os
 from collections.abc import Iterator, Sequence
+from typing import Any
 
 import pyarrow as pa
 import pyarrow.ipc as paipc
 import pyarrow.json as pajson
 import pyarrow.parquet as pq
 
+from chainlint.profile.dtypes import pandas_schema
 from chainlint.profile.errors import DataError
 
 _JSON_BLOCK = 32 << 20
@@ -24,12 +26,21 @@ def table_batches(part: pa.Table | pa.RecordBatch, rows: int) -> Iterator[pa.Tab
         yield table.slice(start, rows)
 
 
+def parquet_file(source: str, filesystem: Any = None) -> tuple[pq.ParquetFile, pa.Schema]:
+    """A Parquet file opened with its strings read as dictionaries (counted from their indices),
+    and its schema as pandas reads it (`dtypes.pandas_schema`: taken before, since reading
+    strings as dictionaries would make every one a categorical)."""
+    handle = pq.ParquetFile(source, filesystem=filesystem)
+    schema = pandas_schema(handle.schema_arrow)
+    strings = [f.name for f in handle.schema_arrow if pa.types.is_string(f.type) or pa.types.is_large_string(f.type)]
+    if strings:
+        handle = pq.ParquetFile(source, read_dictionary=strings, filesystem=filesystem)
+    return handle, schema
+
+
 def open_parquet(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     try:
-        handle = pq.ParquetFile(path)
-        strings = [f.name for f in handle.schema_arrow if pa.types.is_string(f.type) or pa.types.is_large_string(f.type)]
-        if strings:
-            handle = pq.ParquetFile(path, read_dictionary=strings)
+        handle, schema = parquet_file(path)
     except (pa.ArrowInvalid, OSError) as error:
         raise DataError(f"not a readable Parquet file ({str(error).splitlines()[0]})", path=str(path)) from None
 
@@ -43,19 +54,22 @@ def open_parquet(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Tab
         except (pa.ArrowInvalid, OSError) as error:
             raise DataError(str(error).splitlines()[0], path=str(path)) from None
 
-    return _plain_schema(handle.schema_arrow), stream(), handle.metadata.num_rows
+    return schema, stream(), handle.metadata.num_rows
 
 
-def _plain_schema(schema: pa.Schema) -> pa.Schema:
-    """The schema with dictionary-encoded columns shown as their value type."""
-    return pa.schema([pa.field(f.name, f.type.value_type if pa.types.is_dictionary(f.type) else f.type) for f in schema])
+def hive_dataset(path: str) -> Any:
+    """A folder of Parquet files as pandas' `read_parquet` opens it: its `key=value` folders
+    are columns read as categoricals."""
+    import pyarrow.dataset as pads  # imports pandas: loaded only for folders of Parquet files
+
+    return pads.dataset(path, format="parquet", partitioning=pads.HivePartitioning.discover(infer_dictionary=True))
 
 
 def open_parquet_dataset(paths: Sequence[str], batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     import pyarrow.dataset as pads  # imports pandas: loaded only for folders of Parquet files
 
     try:
-        parts = [pads.dataset(p, format="parquet", partitioning="hive") for p in paths]
+        parts = [hive_dataset(p) for p in paths]
         dataset = parts[0] if len(parts) == 1 else pads.dataset(parts)
         rows = dataset.count_rows()  # reads every part's footer: a corrupt part fails here
     except (pa.ArrowInvalid, OSError) as error:  # pyarrow's message names the part
@@ -68,7 +82,7 @@ def open_parquet_dataset(paths: Sequence[str], batch_rows: int) -> tuple[pa.Sche
         except (pa.ArrowInvalid, OSError) as error:
             raise DataError(str(error).splitlines()[0], path=str(paths[0])) from None
 
-    return _plain_schema(dataset.schema), stream(), rows
+    return pandas_schema(dataset.schema), stream(), rows
 
 
 def open_arrow(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
@@ -91,7 +105,7 @@ def open_arrow(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table
                     yield from table_batches(batch, batch_rows)
     except (pa.ArrowInvalid, OSError) as error:
         raise DataError(f"not a readable Arrow/Feather file ({str(error).splitlines()[0]})", path=str(path)) from None
-    return schema, stream(), None
+    return pandas_schema(schema), stream(), None
 
 
 def open_jsonl(path: str, batch_rows: int) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:

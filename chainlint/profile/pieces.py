@@ -23,6 +23,7 @@ import pyarrow.parquet as pq
 from chainlint.profile import formats, readers
 from chainlint.profile.files import data_format, dataset_files, sha256_of
 from chainlint.profile.csv_reader import CsvFile, _compressed, _mapped_pieces, open_csv
+from chainlint.profile.dtypes import pandas_schema
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import CsvOptions
 from chainlint.profile.remote import described as described_url
@@ -148,8 +149,7 @@ def _url_plan(arguments: Sequence[str], batch_rows: int, csv: CsvOptions) -> Pla
         rows = 0
         for url in urls:
             fs, inner = filesystem(url)
-            handle = _parquet_handle(inner, fs, url)
-            other = formats._plain_schema(handle.schema_arrow)
+            handle, other = _parquet_handle(inner, fs, url)
             if schema is None:
                 schema = other
             elif not other.equals(schema):
@@ -165,7 +165,7 @@ def _url_plan(arguments: Sequence[str], batch_rows: int, csv: CsvOptions) -> Pla
                     other, cut = _arrow_pieces(url, handle)
             except (pa.ArrowInvalid, OSError) as error:
                 raise DataError(f"not a readable Arrow/Feather file ({str(error).splitlines()[0]})", path=url) from None
-            schema = schema or other
+            schema = schema or pandas_schema(other)
             pieces.extend(cut)
     else:
         with _opened(Piece(kind, urls[0])) as path:
@@ -227,14 +227,14 @@ def _folder_pieces(paths: Sequence[str]) -> tuple[pa.Schema, pa.Schema, list[Pie
     import pyarrow.dataset as pads  # imports pandas: loaded only for folders of Parquet files
 
     try:
-        parts = [pads.dataset(os.path.abspath(p), format="parquet", partitioning="hive") for p in paths]
+        parts = [formats.hive_dataset(os.path.abspath(p)) for p in paths]
         dataset = parts[0] if len(parts) == 1 else pads.dataset(parts)
         rows = dataset.count_rows()
         fragments = [group for fragment in dataset.get_fragments() for group in fragment.split_by_row_group()]
     except _ARROW_ERRORS as error:
         raise DataError(f"{paths[0]}: not a readable Parquet dataset ({str(error).splitlines()[0]})") from None
     pieces = [Piece("parquet", f.path, f.row_groups[0].id, fragment=f) for f in fragments]
-    return formats._plain_schema(dataset.schema), dataset.schema, pieces, rows
+    return pandas_schema(dataset.schema), dataset.schema, pieces, rows
 
 
 def _csv_pieces(path: str) -> list[Piece]:
@@ -305,19 +305,18 @@ def _arrow_batches(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
             yield from table_batches(reader.get_batch(index), layout.batch_rows)
 
 
-def _parquet_handle(inner: str, fs: Any, shown: str) -> pq.ParquetFile:
-    """A Parquet file opened as the local reader opens it: strings as dictionaries."""
+def _parquet_handle(inner: str, fs: Any, shown: str) -> tuple[pq.ParquetFile, pa.Schema]:
+    """A Parquet file opened as the local reader opens it (strings as dictionaries), and its
+    schema as profiled."""
     try:
-        handle = pq.ParquetFile(inner, filesystem=fs)
-        strings = [f.name for f in handle.schema_arrow if pa.types.is_string(f.type) or pa.types.is_large_string(f.type)]
-        return pq.ParquetFile(inner, read_dictionary=strings, filesystem=fs) if strings else handle
+        return formats.parquet_file(inner, fs)
     except _ARROW_ERRORS as error:
         raise DataError(f"{shown}: not a readable Parquet file ({str(error).splitlines()[0]})") from None
 
 
 def _row_group(path: str, group: int, rows: int) -> Iterator[pa.Table]:
     fs, inner = filesystem(path) if is_url(path) else (None, path)
-    handle = _parquet_handle(inner, fs, path)
+    handle, _ = _parquet_handle(inner, fs, path)
     for batch in handle.iter_batches(batch_size=rows, row_groups=[group]):
         yield pa.Table.from_batches([batch])
 
@@ -336,5 +335,6 @@ def _csv_range(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
 
 
 def _same_schema(schema: pa.Schema, path: str, layout: Layout) -> None:
-    if not schema.equals(layout.schema):
+    """Whether a piece's file has the columns of the dataset's first file (types as profiled)."""
+    if not pandas_schema(schema).equals(layout.schema):
         raise DataError(readers._differs(path, layout.first_path))
