@@ -167,7 +167,8 @@ def merge(folder: Path, name: str, parts: Sequence[str]) -> None:
 
 @click.command()
 @click.option("--store", type=click.Path(file_okay=False), help="Profile store folder (default: the project's .chainlint/).")
-@click.option("--rows", type=click.IntRange(min=10_000), default=400_000, show_default=True, help="Rows of the frame timed.")
+@click.option("--rows", type=click.IntRange(min=10_000), default=2_000_000, show_default=True,
+              help="Rows of the frames timed (fewer fit in a processor's cache, and price kept rows low).")
 def calibrate(store: str | None, rows: int) -> None:
     """Re-measure the cost model on this machine and keep it in the store (cost-model.json)."""
     folder = store_folder(store)
