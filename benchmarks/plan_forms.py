@@ -47,6 +47,7 @@ from chainlint.engine.options import Options
 from chainlint.engine.run import analyse_source
 from chainlint.cli import main as cli
 from chainlint.estimate.calibrate import calibrate, model_to_json
+from chainlint.estimate.cost import DEFAULT_MODEL
 from chainlint.evaluate.pandas_masks import mask
 from chainlint.parse.source import text_source
 from chainlint.plan.chains import may_join, plan_segments, precedence
@@ -232,6 +233,34 @@ def _words(form) -> str:  # type: ignore[no-untyped-def]
     return " ".join("(" + "&".join(str(i + 1) for i in g) + ")" if len(g) > 1 else str(g[0] + 1) for g in form)
 
 
+def _figures(model) -> str:  # type: ignore[no-untyped-def]
+    """The calibrated figures beside the shipped ones, as ratios: what a quiet run offers for
+    rescaling the shipped model."""
+    shipped = DEFAULT_MODEL
+
+    def ratio(mine: float, theirs: float) -> str:
+        return f"{mine:.3g} ({mine / theirs:.2f}x)" if theirs else f"{mine:.3g}"
+
+    def curve(mine, theirs) -> str:  # type: ignore[no-untyped-def]
+        return " ".join(f"{share:.0%}:{cost:.3g}" for share, cost in mine) + " | shipped " + " ".join(
+            f"{share:.0%}:{cost:.3g}" for share, cost in theirs)
+
+    return "\n".join([
+        "calibrated figures, ns (x the shipped figure):",
+        "  compare " + ", ".join(f"{k} {ratio(v, shipped.compare.get(k, 0.0))}" for k, v in model.compare.items()),
+        "  member " + ", ".join(f"{k} {ratio(v, shipped.member.get(k, 0.0))}" for k, v in model.member.items()),
+        f"  between {ratio(model.between, shipped.between)}, literal .str {ratio(model.string_test, shipped.string_test)}, "
+        f"regex {ratio(model.regex_test, shipped.regex_test)}, null test {ratio(model.null_test, shipped.null_test)}, "
+        f"& {ratio(model.combine, shipped.combine)}",
+        f"  take per input row: numeric {ratio(model.numeric_take_in, shipped.numeric_take_in)}, "
+        f"str per column {ratio(model.string_take_in, shipped.string_take_in)}",
+        "  numeric per kept row " + curve(model.numeric_take_kept, shipped.numeric_take_kept),
+        "  str per kept row " + curve(model.string_take_kept, shipped.string_take_kept),
+        f"  fixed per step {ratio(model.fixed, shipped.fixed)}, per own array {ratio(model.fixed_per_column, shipped.fixed_per_column)}",
+        "  kept row weight " + ", ".join(f"{k} {ratio(v, shipped.take_weight.get(k, 0.0))}" for k, v in model.take_weight.items()),
+    ])
+
+
 def _load() -> str:
     return " ".join(f"{x:.1f}" for x in os.getloadavg())
 
@@ -252,8 +281,10 @@ def main() -> None:
     tables = {"narrow": (narrow_flights, NARROW), "wide-flights": (wide_flights, WIDE_FLIGHTS), "wide-baseball": (wide_baseball, WIDE_BASEBALL)}
     with tempfile.TemporaryDirectory() as folder:
         model_file = Path(folder) / "cost-model.json"
-        model_file.write_text(dumps(model_to_json(calibrate())))
+        measured = calibrate()
+        model_file.write_text(dumps(model_to_json(measured)))
         print(f"calibrated on this machine in {time.perf_counter() - started:.0f} s (load average {_load()})")
+        print(_figures(measured))
         for label, (build, source) in tables.items():
             if args.only and label not in args.only:
                 continue
