@@ -8,8 +8,8 @@ timestamps; a unique, duplicate, unsorted or MultiIndex row index) and random ch
 form (outer masks included, which are barriers; guards and the steps they guard, which may
 raise) are rendered to source, rewritten into any plan the planner may choose for the frame's
 dtypes (`chainlint.plan.totality`): an order, with neighbours fused into one mask where the
-planner lets them join (`&` in a lambda, `and` in a query), and both sources are executed on the
-frame. pandas is the reference: `pandas.testing.assert_frame_equal` with strict dtypes; the
+planner lets them join (`&` in a lambda, `and` in a query; in a statement run, one statement),
+and both sources are executed on the frame. pandas is the reference: `pandas.testing.assert_frame_equal` with strict dtypes; the
 index's class and `freq` are the documented exception (README: the index after a reorder).
 Inputs on which the written chain raises are kept: they show the rewrite may raise there
 (the test runs its own generated code; chainlint itself never executes what it analyses).
@@ -128,13 +128,18 @@ QUERIES = st.sampled_from([
 
 @st.composite
 def chains(draw):
-    """(source of a module computing `out` from `df`, number of steps)."""
+    """(source of a module computing `out` from `df`, number of steps). Statement runs come
+    under one name (`out = out[...]`) or renamed (`s0 = df[...]`, `s1 = s0[...]`), with comments
+    their statements own, a statement the run steps over, at module level or in a function:
+    the planner may join their steps into one statement."""
     count = draw(st.integers(2, 5))
     form = draw(st.sampled_from(["method", "statements"]))
+    renamed = form == "statements" and draw(st.booleans())
+    targets = [f"s{k}" for k in range(count - 1)] + ["out"] if renamed else ["out"] * count
     steps = []
     for position in range(count):
         kind = draw(st.sampled_from(["lambda", "loc_lambda", "mask", "loc_mask", "query", "dropna"]))
-        frame = "df" if form == "method" or position == 0 else "out"
+        frame = "df" if form == "method" or position == 0 else targets[position - 1]
         if kind == "lambda":
             steps.append(f"[lambda t: {draw(_masks('t'))}]")
         elif kind == "loc_lambda":
@@ -154,7 +159,19 @@ def chains(draw):
         else:
             body = "out = (\n    df\n" + "".join(f"    {step}  # note {k}\n" for k, step in enumerate(steps)) + ")"
     else:
-        body = f"out = df{steps[0]}\n" + "".join(f"out = out{step}\n" for step in steps[1:])
+        lines = []
+        for position, step in enumerate(steps):
+            frame = "df" if position == 0 else targets[position - 1]
+            extra = draw(st.sampled_from(["", "above", "after", "between"]))
+            if extra == "above":
+                lines.append(f"# about step {position}")
+            elif extra == "between" and position > 0:
+                lines.append("note = 'stepped over'")
+            lines.append(f"{targets[position]} = {frame}{step}" + (f"  # step {position}" if extra == "after" else ""))
+        if draw(st.booleans()):
+            body = "def run(df):\n" + "".join(f"    {line}\n" for line in lines) + "    return out\n\n\nout = run(df)"
+        else:
+            body = "\n".join(lines)
     return "import pandas as pd\n" + body + "\n", count
 
 

@@ -17,7 +17,7 @@ from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
 from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
 from chainlint.find.positions import Positions
-from chainlint.find.runs import Walked, bound, inplace_dropna, mentioned, reads
+from chainlint.find.runs import Walked, bound, inplace_dropna, joined, mentioned, reads
 from chainlint.find.screen import Seams
 from chainlint.find.shapes import Masks, Names, Shape, is_mask_value, mask_frames, peel, rows_axis
 from chainlint.find.steps import StepContext, build_step, selected_columns
@@ -103,6 +103,8 @@ class _Finder:
         self.absorbed: set[int] = set()
         #: How many times each name is read in a scope (by the id of its node), counted once.
         self.reads: dict[int, Counter[str]] = {}
+        #: How many times each name appears in a scope in any role (`runs.mentions`), counted once.
+        self.mentions: dict[int, Counter[str]] = {}
         self.origins = Origins(names.pandas, source.lines, bindings, lambda: self.scope)
         self.positions = Positions(source)
         self.visit: Visit | None = None
@@ -368,6 +370,7 @@ class _Finder:
                 reason = f"`{member.fence}` is assigned between this filter and the one before: no step moves across that statement"
                 built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, reason))
             steps.extend(built)
+        steps = joined([(m.statement, m.target, m.decomposed.shapes) for m in members], steps, scope, self.positions, self.mentions)
         start = self.positions.node_span(members[0].statement)
         end = self.positions.node_span(members[-1].statement)
         span = Span(start.line, start.column, end.end_line, end.end_column)

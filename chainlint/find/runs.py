@@ -4,14 +4,22 @@ the in-place `dropna`, and masks bound to a name before the chain.
 A run continues through a simple statement that neither reads nor writes any frame of the run
 (a log line, an unrelated assignment): moving a filter across it changes nothing either sees.
 One that binds a name a filter of the run reads stays between the filters around it (the
-filter after it becomes a barrier). Anything else ends the run.
+filter after it becomes a barrier). Anything else ends the run. Which statements of a run may
+become one statement, when their filters join one mask, is told here too (`joined`).
 """
 
 from __future__ import annotations
 
 import ast
 import bisect
+import re
 from collections import Counter
+from collections.abc import Sequence
+from dataclasses import replace
+
+from chainlint.find.positions import Positions
+from chainlint.find.shapes import Shape
+from chainlint.model import Step
 
 #: Statements a run may step over (never control flow: a `return` between filters is a branch;
 #: never `pass`, which separates a notebook's cells, since a run never spans two cells).
@@ -102,3 +110,84 @@ def reads(node: ast.AST) -> Counter[str]:
     statements do (a read inside the run is a barrier of its own: a mask of another frame,
     or a name the run assigns); counting the scope once serves all its runs."""
     return Counter(n.id for n in ast.walk(node) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Load))
+
+
+def mentions(node: ast.AST) -> Counter[str]:
+    """How many times each name appears in `node` in any role (read, bound, deleted, declared
+    `global` or `nonlocal`): a name a run binds may stop being bound only where the run's own
+    statements are all its mentions in the scope."""
+    counted: Counter[str] = Counter()
+    for n in ast.walk(node):
+        if isinstance(n, ast.Name):
+            counted[n.id] += 1
+        elif isinstance(n, (ast.Global, ast.Nonlocal)):
+            counted.update(n.names)
+    return counted
+
+
+def mentions(node: ast.AST) -> Counter[str]:
+    """How many times each name appears in `node` in any role (read, bound, deleted, declared
+    `global` or `nonlocal`): a name a run binds may stop being bound only where the run's own
+    statements are all its mentions in the scope."""
+    counted: Counter[str] = Counter()
+    for n in ast.walk(node):
+        if isinstance(n, ast.Name):
+            counted[n.id] += 1
+        elif isinstance(n, (ast.Global, ast.Nonlocal)):
+            counted.update(n.names)
+    return counted
+
+
+#: A member of a run: its statement, the name it assigns, its filter steps.
+Member = tuple[ast.stmt, str, Sequence[Shape]]
+
+
+def joined(members: Sequence[Member], steps: list[Step], scope: ast.AST, positions: Positions,
+           counted: dict[int, Counter[str]]) -> list[Step]:
+    """The run's steps with `alone` and `merges` set (see `Step`): which statements may become
+    one statement when the planner joins their filters into one mask. A name the earlier of two
+    statements assigns stops being bound then, so it must be used nowhere else in the scope
+    (`counted`: `mentions` per scope, by `id`, filled when first needed); in a class body it is
+    an attribute, never dropped."""
+    alone = [_alone(statement, shapes, positions) for statement, _, shapes in members]
+    if not any(alone):
+        return steps
+    inside: Counter[str] = Counter()
+    for statement, _, _ in members:
+        inside.update(mentions(statement))
+    named = isinstance(scope, (ast.Module, ast.FunctionDef, ast.AsyncFunctionDef))
+    out = []
+    for step in steps:
+        number = step.statement
+        merges = number > 0 and alone[number] and alone[number - 1]
+        name = members[number - 1][1] if number > 0 else ""
+        if merges and name != members[number][1]:
+            if id(scope) not in counted:
+                counted[id(scope)] = mentions(scope)
+            merges = named and counted[id(scope)][name] == inside[name]
+        out.append(replace(step, alone=alone[number], merges=merges))
+    return out
+
+
+def _alone(statement: ast.stmt, shapes: Sequence[Shape], positions: Positions) -> bool:
+    """Whether a member is `name = frame<one step>` standing alone on its lines: nothing before
+    it on its first line, nothing but a comment after it, the `=` and the step's start on its
+    first line, no parentheses around the value, no walrus."""
+    if not (isinstance(statement, ast.Assign) and len(shapes) == 1 and statement.value is shapes[0].node):
+        return False
+    value, target = statement.value, statement.targets[0]
+    if any(isinstance(node, ast.NamedExpr) for node in ast.walk(statement)):
+        return False
+    if (statement.end_lineno, statement.end_col_offset) != (value.end_lineno, value.end_col_offset):
+        return False  # `x = (x[...])`
+    source = positions.source
+    if source.lines[statement.lineno - 1][: source.column(statement.lineno, statement.col_offset) - 1].strip():
+        return False
+    if positions.step_span(shapes[0].inner, value).line != statement.lineno:
+        return False
+    between = source.segment((target.end_lineno, target.end_col_offset), (value.lineno, value.col_offset))  # type: ignore[arg-type]
+    if not re.fullmatch(r"[ \t]*=[ \t]*", between):
+        return False
+    end_line = statement.end_lineno or statement.lineno
+    rest = source.lines[end_line - 1][source.column(end_line, statement.end_col_offset or 0) - 1 :]
+    return re.fullmatch(r"[ \t]*(#[^\r\n]*)?[\r\n]*", rest) is not None

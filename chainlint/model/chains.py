@@ -100,6 +100,11 @@ class Step:
     `conjunct`, for a step of a chain of form `mask` (one written mask, `df[(a) & (b)]`), is the
     span of this conjunct's text inside the mask (without parentheses around it; inside the
     string of a `.query`), while `span` is the whole written step all its conjuncts share.
+    In a statement run, `alone` says the step is the only filter of a statement
+    `name = frame<step>` standing alone on its lines (nothing else on them but a comment, no
+    walrus), and `merges` that this statement and the one before it are both so and that the
+    name the one before assigns is this one's or is used nowhere else in its scope: the two may
+    become one statement, that name no longer bound.
     """
 
     kind: StepKind
@@ -112,6 +117,8 @@ class Step:
     mask_name: str | None = None
     mask_span: Span | None = None
     conjunct: Span | None = None
+    alone: bool = False
+    merges: bool = False
 
     @property
     def movable(self) -> bool:

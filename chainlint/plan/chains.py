@@ -260,15 +260,33 @@ def _walk(groups, estimates: list[Estimate], rows_after, cost, joint_steps: set[
 
 def may_join(chain: Chain, limits: tuple[Limit | None, ...], dtypes: dict[str, str]) -> Callable[[int], bool]:
     """Whether the steps of a bit mask may run as one mask: all of one form (lambdas and masks,
-    or queries) in a method chain or one mask written whole, none of them a step that stays,
-    and each predicate boolean-valued whatever the rows (see `_family`)."""
+    or queries), none of them a step that stays, and each predicate boolean-valued whatever the
+    rows (see `_family`); in a statement run, only steps of a segment whose statements may all
+    become one (`_statements_join`), since the planner may put any of them in any statement."""
     families = [_family(step, limit, dtypes) for step, limit in zip(chain.steps, limits)]
+    if chain.form is ChainForm.STATEMENTS:
+        joining = _statements_join(chain, limits)
+        families = [family if joins else None for family, joins in zip(families, joining)]
 
     def joinable(mask: int) -> bool:
         kinds = {families[i] for i in _bits(mask)}
-        return chain.form in (ChainForm.METHOD, ChainForm.MASK) and len(kinds) == 1 and None not in kinds
+        return len(kinds) == 1 and None not in kinds
 
     return joinable
+
+
+def _statements_join(chain: Chain, limits: tuple[Limit | None, ...]) -> list[bool]:
+    """Per step of a statement run: whether it may share one statement with others of its
+    segment. Every statement of the segment must be its step's alone and each may become one
+    with the one before it (`Step.alone`, `Step.merges`): the rewrite writes a group at the
+    place of its first statement and removes the others, whichever steps the plan puts there."""
+    steps = chain.steps
+    joining = [False] * len(steps)
+    for segment in plan_segments(limits):
+        if steps[segment[0]].alone and all(steps[i].merges for i in segment[1:]):
+            for i in segment:
+                joining[i] = True
+    return joining
 
 
 def _family(step: Step, limit: Limit | None, dtypes: dict[str, str]) -> str | None:

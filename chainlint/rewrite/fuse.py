@@ -7,7 +7,8 @@ group's first step is written) for lambdas and masks, each predicate written ove
 lambda parameter (the user's text kept where a mask already filters the frame it names:
 `df[(df.a > 1) & (df.b < 2)]`), and `.query("A and B")` for queries. A comment a step owned
 follows its predicate inside the mask (in a query, between the pieces of an implicitly joined
-string). Whatever cannot be written so is refused with the reason.
+string). In a statement run a group is one statement (`chainlint.rewrite.runs`). Whatever
+cannot be written so is refused with the reason.
 """
 
 from __future__ import annotations
@@ -22,7 +23,7 @@ from dataclasses import dataclass
 from chainlint.ir import Or
 from chainlint.model import Chain, ChainForm, Edit, Span, Step, StepKind
 from chainlint.parse.source import SourceText
-from chainlint.rewrite.permute import RewriteError, chain_edit, line_break, line_start, step_slots
+from chainlint.rewrite.permute import RewriteError, in_class_body, chain_edit, line_break, line_start, step_slots
 
 Groups = Sequence[Sequence[int]]
 _BETWEEN = re.compile(r"[ \t\r\n\\]*")
@@ -50,8 +51,6 @@ def start_plan(source: SourceText, chain: Chain, groups: Groups) -> Edit | Start
         return chain_edit(source, chain, order)
     if sorted(order) != list(range(len(chain.steps))):
         raise RewriteError("the plan does not hold each of the chain's steps once")
-    if chain.form is not ChainForm.METHOD:
-        raise RewriteError("a statement run is not fused into one mask")
     for group in groups:
         if len(group) > 1 and any(not chain.steps[i].movable for i in group):
             raise RewriteError("a step that may not move cannot join a mask")
@@ -107,9 +106,9 @@ def _group_edit(source: SourceText, chain: Chain, slots, first: int, last: int) 
     if len(families) != 1 or any(s.kind is StepKind.DROPNA for s in steps):
         raise RewriteError("only lambdas and masks, or only queries, are fused into one mask")
     if families == {"query"}:
-        body = _query_group(source, steps, comments, indent).replace("\n", line_break(text))
+        body = query_group(source, steps, comments, indent).replace("\n", line_break(text))
     else:
-        body = _mask_group(source, steps, comments, indent).replace("\n", line_break(text))
+        body = mask_group(source, steps, comments, indent).replace("\n", line_break(text))
     line, column = source.position(start)
     end_line, end_column = source.position(end)
     return Edit(start, end, body, Span(line, column, end_line, end_column))
@@ -189,13 +188,20 @@ def _wrapped(text: str, node: ast.expr) -> str:
     return text if atom else f"({text})"
 
 
-def _mask_group(source: SourceText, steps: Sequence[Step], comments, indent: str) -> str:  # type: ignore[no-untyped-def]
+def mask_group(source: SourceText, steps: Sequence[Step], comments, indent: str) -> str:  # type: ignore[no-untyped-def]
     parts = [_mask_part(source, step) for step in steps]
     own = steps[0].own
     if all(p.param is None and p.name is not None and p.name == own for p in parts):
         opener, texts = parts[0].opener, [p.text for p in parts]
     else:
-        param = next((p.param for p in parts if p.param), None) or "d"
+        if any(p.param is None for p in parts) and in_class_body(source.text, _offset(source, steps[0].span.line, steps[0].span.column)):
+            raise RewriteError("a mask would become part of a lambda in a class body, where a lambda cannot see the class's names")
+        # The one name every part reads its frame by (a mask moved is written as a lambda over
+        # that name), else `d`.
+        names = {p.param or p.name for p in parts}
+        param = (names.pop() if len(names) == 1 else None) or "d"
+        if not param.isidentifier():
+            param = "d"
         taken = {n.id for p in parts for n in ast.walk(p.node) if isinstance(n, ast.Name) and n.id != (p.param or p.name)}
         while param in taken:
             param += "_"
@@ -219,7 +225,7 @@ def _joined(pieces: list[str], comments, joiner: str, indent: str, close: str = 
     return out
 
 
-def _query_group(source: SourceText, steps: Sequence[Step], comments, indent: str) -> str:  # type: ignore[no-untyped-def]
+def query_group(source: SourceText, steps: Sequence[Step], comments, indent: str) -> str:  # type: ignore[no-untyped-def]
     texts, keywords = [], None
     for step in steps:
         code, tree = _parsed(_step_text(source, step))

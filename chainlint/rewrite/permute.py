@@ -48,7 +48,7 @@ def _render(source: SourceText, step: Step, slot: Step, start: int) -> str:
     name = step.mask_name or ""
     if not name.isidentifier():
         raise RewriteError(f"the mask reads `{name}`, which cannot become a lambda parameter; write the step as a lambda")
-    if _in_class_body(source.text, start):
+    if in_class_body(source.text, start):
         raise RewriteError(f"the mask `{name}` would become a lambda in a class body, where a lambda cannot see the class's names; write the step as a lambda")
     assert step.mask_span is not None
     begin = _offset(source, step.span.line, step.span.column)
@@ -244,7 +244,7 @@ def _class_bodies(text: str) -> _Bodies:
                    tuple(ranges[n][2] for n in ordered), tuple(parents))
 
 
-def _in_class_body(text: str, offset: int) -> bool:
+def in_class_body(text: str, offset: int) -> bool:
     """Whether code at `offset` runs in a class body's scope (the innermost scope around it)."""
     return _class_bodies(text).in_class(offset)
 

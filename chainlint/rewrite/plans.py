@@ -19,10 +19,11 @@ from dataclasses import dataclass, replace
 
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import Seams
-from chainlint.model import Chain, Edit, Span
+from chainlint.model import Chain, ChainForm, Edit, Span
 from chainlint.parse.source import SourceError, SourceText, parse_tree, text_source
 from chainlint.rewrite.fuse import Groups, Started, fused_edits, start_plan
 from chainlint.rewrite.permute import RewriteError, apply_edits
+from chainlint.rewrite.runs import run_edits
 
 
 @dataclass(frozen=True)
@@ -146,13 +147,15 @@ def _fused(source: SourceText, permuted: SourceText, item: _Waiting, start: int,
         raise RewriteError("the reordered chain is not found again")
     line, column = permuted.position(move(_offset(source, chain.span.line, chain.span.column)))
     again = min(found, key=lambda c: (abs(c.span.line - line), abs(c.span.column - column)))
-    fused = fused_edits(permuted, again, groups)
-    if any(edit.start < start or edit.end > end for edit in fused):
+    fused = (run_edits if chain.form is ChainForm.STATEMENTS else fused_edits)(permuted, again, groups)
+    if any(edit.start < start or edit.end > end for edit in fused) and chain.form is not ChainForm.STATEMENTS:
         raise RewriteError("the reordered chain is not found again")
+    # A group of a statement run reaches past the steps: the name its statement assigns, the
+    # statements it removes to their line breaks (text no other chain of the batch holds).
     if item.started.moved is not None:
-        low, high, first, last = start, end, item.start, item.end
+        low, high = min([start] + [e.start for e in fused]), max([end] + [e.end for e in fused])
     else:
         low, high = min(e.start for e in fused), max(e.end for e in fused)
-        first, last = low - (start - item.start), high - (start - item.start)
+    first, last = item.start + (low - start), item.end + (high - end)
     text = apply_edits(permuted.text[low:high], [replace(e, start=e.start - low, end=e.end - low) for e in fused])
     return Edit(first, last, text, Span(*source.position(first), *source.position(last)))

@@ -8,7 +8,9 @@ chains; top-level statements that hold no chain must keep their exact text, and 
 between statements must stay the same; the finder, run again, must see each chain with the
 same predicates in the planned order, each group of steps one mask (its predicates joined with
 `and`), its barriers where they were and its `# chainlint:`
-comments still applying.
+comments still applying. A statement run whose steps join is compared with the original less
+the statements the grouping removes, each statement kept under the name its group's last
+statement assigned.
 """
 
 from __future__ import annotations
@@ -23,8 +25,8 @@ import libcst
 
 from chainlint.find.chains import find_chains
 from chainlint.find.screen import Seams, find_seams
-from chainlint.ir import Node, make_and
-from chainlint.model import Chain, ChainForm
+from chainlint.ir import And, Node, make_and
+from chainlint.model import Chain, ChainForm, Step
 from chainlint.parse.source import SourceError, SourceText, parse_tree, text_source
 from chainlint.rewrite.permute import RewriteError
 
@@ -33,27 +35,81 @@ Groups = Sequence[Sequence[int]]
 
 
 class _Blank(ast.NodeTransformer):
-    """Replace each chain with a placeholder name, so that the rest can be compared."""
+    """Replace each chain with a placeholder name, so that the rest can be compared; in the
+    original, drop the statements a grouped run removes and give each statement it keeps the
+    name it assigns in the rewrite (`joins`)."""
 
-    def __init__(self, source: SourceText, chains: Sequence[Chain]) -> None:
+    def __init__(self, source: SourceText, chains: Sequence[Chain], joins: _Joins | None = None) -> None:
         self.spans: set[tuple[int, int, int, int]] = set()
-        runs: list[tuple[int, int]] = []
+        lines: list[tuple[int, int]] = []
         for chain in chains:
             if chain.form is ChainForm.STATEMENTS:
-                runs.append((chain.span.line, chain.span.end_line))
+                lines.extend((step.span.line, step.span.line) for step in chain.steps)
             else:
                 span = chain.span
                 self.spans.add((span.line, _byte_column(source, span.line, span.column),
                                 span.end_line, _byte_column(source, span.end_line, span.end_column)))
-        self.runs = _Lines(runs)
+        self.runs = _Lines(lines)  # the lines where a run's steps start
+        self.joins = joins or _Joins()
 
-    def visit(self, node: ast.AST) -> ast.AST:
+    def visit(self, node: ast.AST) -> ast.AST | None:
+        if id(node) in self.joins.removed:
+            return None
         if isinstance(node, (ast.Subscript, ast.Call)) and (node.lineno, node.col_offset, node.end_lineno, node.end_col_offset) in self.spans:
             return ast.Name(id=_PLACEHOLDER, ctx=ast.Load())
-        if isinstance(node, ast.Assign) and self.runs.holds(node.lineno):
+        if isinstance(node, ast.Assign) and self.runs.meeting(node.lineno, node.end_lineno or node.lineno):
             node.value = ast.Name(id=_PLACEHOLDER, ctx=ast.Load())
+            name = self.joins.renamed.get(id(node))
+            if name is not None:
+                node.targets = [ast.Name(id=name, ctx=ast.Store())]
             return node
         return self.generic_visit(node)
+
+
+class _Joins:
+    """What grouping statement runs does to the original's statements: the statements removed
+    (by `id` of their `ast` node, and their lines) and the statements kept under the name the
+    last statement of their group assigned (by `id`, and by line for the tokens)."""
+
+    def __init__(self) -> None:
+        self.removed: set[int] = set()
+        self.renamed: dict[int, str] = {}
+        self.lines: list[tuple[int, int]] = []
+        self.names: dict[int, str] = {}
+
+    @classmethod
+    def of(cls, tree: ast.Module, source: SourceText, rewritten: Sequence[tuple[Chain, Groups]]) -> _Joins:
+        joins = cls()
+        runs = [(chain, groups) for chain, groups in rewritten
+                if chain.form is ChainForm.STATEMENTS and any(len(group) > 1 for group in groups)]
+        if not runs:
+            return joins
+        assigns: dict[int, list[ast.Assign]] = defaultdict(list)
+        for node in ast.walk(tree):
+            if isinstance(node, ast.Assign):
+                assigns[node.lineno].append(node)
+
+        def statement(step: Step) -> ast.Assign:
+            column = _byte_column(source, step.span.line, step.span.column)
+            found = [a for a in assigns.get(step.span.line, []) if a.value.col_offset <= column < (a.value.end_col_offset or 0)
+                     or (a.value.end_lineno or 0) > step.span.line and a.value.col_offset <= column]
+            if len(found) != 1 or len(found[0].targets) != 1 or not isinstance(found[0].targets[0], ast.Name):
+                raise RewriteError(f"the statement of the step at line {step.span.line} is not one assignment to a name")
+            return found[0]
+
+        for chain, groups in runs:
+            position = 0
+            for group in groups:
+                if len(group) > 1:
+                    kept, last = statement(chain.steps[position]), statement(chain.steps[position + len(group) - 1])
+                    name = last.targets[0].id  # type: ignore[attr-defined]
+                    joins.renamed[id(kept)] = joins.names[kept.lineno] = name
+                    for k in range(position + 1, position + len(group)):
+                        gone = statement(chain.steps[k])
+                        joins.removed.add(id(gone))
+                        joins.lines.append((gone.lineno, gone.end_lineno or gone.lineno))
+                position += len(group)
+        return joins
 
 
 def _byte_column(source: SourceText, line: int, column: int) -> int:
@@ -133,11 +189,19 @@ def _found_again(found: _Found, chain: Chain, groups: Groups) -> Chain:
     flat = tuple((chain.steps[i].predicate, chain.steps[i].movable) for group in groups for i in group)
     # One group is one mask: a chain of its conjuncts where the finder reads written masks so.
     # A mask written whole and split is a method chain of its groups.
+    # A run grouped into one statement is that statement's mask, or a one-step method chain.
     if chain.form is ChainForm.MASK:
         forms = {ChainForm.MASK, ChainForm.METHOD} if len(groups) == 1 else {ChainForm.METHOD}
+    elif chain.form is ChainForm.STATEMENTS:
+        forms = {chain.form, ChainForm.MASK, ChainForm.METHOD} if len(groups) == 1 else {chain.form}
     else:
         forms = {chain.form, ChainForm.MASK} if len(groups) == 1 else {chain.form}
-    candidates = [near for form in forms for steps in {fused, flat}
+    shapes = {fused, flat}
+    if len(groups) == 1 and isinstance(fused[0][0], And):
+        # A step itself a conjunction (`.query("a and b")`) joined to others: one written mask
+        # of all the conjuncts.
+        shapes.add(tuple((part, fused[0][1]) for part in fused[0][0].parts))
+    candidates = [near for form in forms for steps in shapes
                   if (near := found.nearest((form, steps), chain.span.line, chain.span.column)) is not None]
     if not candidates:
         raise RewriteError(f"after rewriting, the chain at line {chain.span.line} is not found again with its steps in the planned order")
@@ -165,18 +229,26 @@ def verify(old: SourceText, new_text: str, rewritten: Sequence[tuple[Chain, Grou
     index = _Found(found)
     new_chains = [_found_again(index, chain, order) for chain, order in rewritten]
     old_tree = parse_tree(old)
-    if len(old_tree.body) != len(new_tree.body):
+    # Statements a grouped run removes are left out of the original (their comments counted),
+    # and the statement kept for a group compared under the name the group's last assigned.
+    joins = _Joins.of(old_tree, old, rewritten)
+    old_body = [statement for statement in old_tree.body if id(statement) not in joins.removed]
+    if len(old_body) != len(new_tree.body):
         raise RewriteError("the rewrite would change code outside the chain")
     old_comments, new_comments = _fragments(_between(old, old_tree)), _fragments(_between(new, new_tree))
-    old_blank, new_blank = _Blank(old, old_chains), _Blank(new, new_chains)
+    old_blank, new_blank = _Blank(old, old_chains, joins), _Blank(new, new_chains)
     old_steps, new_steps = _Steps(old_chains), _Steps(new_chains)
+    for statement in old_tree.body:
+        if id(statement) in joins.removed:
+            _tokens(old, statement, old_steps, old_comments)
+    gone = _Lines(joins.lines)
     touched = _Lines([(c.span.line, c.span.end_line) for c in old_chains])
-    for before, after in zip(old_tree.body, new_tree.body):
+    for before, after in zip(old_body, new_tree.body):
         if touched.meeting(before.lineno, before.end_lineno or before.lineno):
             # Statements holding a chain: every token outside the steps unchanged (comments may
             # move with their step, but none may change, vanish or swallow code), the same
             # `ast` once the chains are blanked out, and the text must read through libcst.
-            old_code = _tokens(old, before, old_steps, old_comments)
+            old_code = _tokens(old, before, old_steps, old_comments, gone, joins.names)
             new_code = _tokens(new, after, new_steps, new_comments)
             if old_code != new_code:
                 raise RewriteError("the rewrite would change code outside the chain's steps")
@@ -230,11 +302,15 @@ class _Steps:
         return index > 0 and self.reach[index - 1] >= end
 
 
-def _tokens(source: SourceText, statement: ast.stmt, steps: _Steps, comments: Counter[str]) -> list[tuple[int, str]]:
-    """A top-level statement's tokens outside the steps; its comments are added to `comments`."""
+def _tokens(source: SourceText, statement: ast.stmt, steps: _Steps, comments: Counter[str],
+            gone: _Lines | None = None, names: dict[int, str] | None = None) -> list[tuple[int, str]]:
+    """A top-level statement's tokens outside the steps; its comments are added to `comments`.
+    In the original of a grouped run: tokens on the lines of statements removed (`gone`) are
+    left out, and the first name on a kept statement's line is the one it assigns now (`names`)."""
     first = statement.lineno
     lines = iter([line.rstrip("\r\n") + "\n" for line in source.lines[first - 1 : statement.end_lineno]])
     code: list[tuple[int, str]] = []
+    renamed: set[int] = set()
     try:
         for token in tokenize.generate_tokens(lambda: next(lines, "")):
             if token.type in (tokenize.NL, tokenize.INDENT, tokenize.DEDENT, tokenize.ENDMARKER):
@@ -244,8 +320,11 @@ def _tokens(source: SourceText, statement: ast.stmt, steps: _Steps, comments: Co
             if token.type == tokenize.COMMENT:
                 # Counted wherever it is: a step's comment may move into a fused mask.
                 comments.update(_fragments([token.string]))
-            elif steps.holds(start, end):
+            elif steps.holds(start, end) or (gone is not None and gone.meeting(start[0], start[0])):
                 continue
+            elif names and token.type == tokenize.NAME and start[0] in names and start[0] not in renamed:
+                renamed.add(start[0])
+                code.append((token.type, names[start[0]]))
             else:
                 code.append((token.type, token.string))
     except (tokenize.TokenError, SyntaxError) as error:
