@@ -165,4 +165,7 @@ def test_a_run_of_thousands_of_statements_plans_in_near_linear_work(tmp_path: Pa
     assert code == 0
     (chain,) = json.loads(output)["chains"]
     assert len(chain["steps"]) == steps and sorted(chain["order"]) == list(range(steps))
-    assert len(calls) <= 5 * steps
+    # The order planner about 2 a step, the written and planned forms 1 each, and, now that the
+    # run's steps may join one mask, its neighbours merged: each step priced alone, each pair
+    # offered, and again beside each merge (about 4 a step; all 3,000 here become one mask).
+    assert len(calls) <= 8 * steps

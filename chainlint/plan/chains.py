@@ -258,10 +258,15 @@ def _walk(groups, estimates: list[Estimate], rows_after, cost, joint_steps: set[
     return tuple(out)
 
 
+#: The most steps one mask joins: each `&` nests the expression one level deeper, and Python's
+#: parser refuses a few thousand levels (measured with Python 3.11: 800 parse, 3,000 do not).
+MOST_JOINED = 100
+
+
 def may_join(chain: Chain, limits: tuple[Limit | None, ...], dtypes: dict[str, str]) -> Callable[[int], bool]:
     """Whether the steps of a bit mask may run as one mask: all of one form (lambdas and masks,
-    or queries), none of them a step that stays, and each predicate boolean-valued whatever the
-    rows (see `_family`); in a statement run, only steps of a segment whose statements may all
+    or queries), none of them a step that stays, each predicate boolean-valued whatever the
+    rows (see `_family`), at most `MOST_JOINED` of them; in a statement run, only steps of a segment whose statements may all
     become one (`_statements_join`), since the planner may put any of them in any statement."""
     families = [_family(step, limit, dtypes) for step, limit in zip(chain.steps, limits)]
     if chain.form is ChainForm.STATEMENTS:
@@ -269,6 +274,8 @@ def may_join(chain: Chain, limits: tuple[Limit | None, ...], dtypes: dict[str, s
         families = [family if joins else None for family, joins in zip(families, joining)]
 
     def joinable(mask: int) -> bool:
+        if mask.bit_count() > MOST_JOINED:
+            return False
         kinds = {families[i] for i in _bits(mask)}
         return len(kinds) == 1 and None not in kinds
 

@@ -12,8 +12,9 @@ of steps already run, each state extended by every allowed group of the steps le
 transitions: 531,441 at 12), priced all at once over arrays (0.6 s for 12 steps on the
 shared 2-core machine at a load average of 10, against 16 s one transition at a time).
 Beyond that, the order comes from the order planner (`chainlint.plan.planner`: exact to 12
-steps, greedy beyond) and neighbouring groups are merged greedily, the cheapest merge first,
-while a merge lowers the cost and is allowed: never costlier than that order, but it never
+steps, greedy beyond) and neighbouring groups are merged greedily, the cheapest merge first
+(each merge priced by its two groups alone: O(k log k)), while a merge lowers the cost and is
+allowed: never costlier than that order, but it never
 splits a merged group again nor joins steps the order keeps apart, so a plan that groups
 steps far apart in that order is missed.
 
@@ -26,12 +27,13 @@ and the rewrite can write them as one mask).
 
 from __future__ import annotations
 
+import heapq
 import math
 from collections.abc import Callable, Mapping, Sequence
 
 import numpy as np
 
-from chainlint.plan.planner import GroupCost, RowsAfter, plan_segment, walk
+from chainlint.plan.planner import GroupCost, RowsAfter, plan_segment, share, walk
 
 #: `group_costs(masks, which, rows_in, kept)`: `GroupCost` over arrays, the i-th group being
 #: `masks[which[i]]` (the planner prices 3^k pairs of steps run and next group at once).
@@ -151,36 +153,69 @@ def _exact(steps: list[int], rows_after: RowsAfter, cost: GroupCost, costs: Grou
 def _merged(steps: list[int], rows_after: RowsAfter, cost: GroupCost, before: Mapping[int, int],
             joinable: Callable[[int], bool], order: Sequence[int] | None) -> tuple[Groups, float]:
     """Long segments: the order planner's order, then neighbouring groups merged while a merge
-    lowers the cost (the cheapest merge first), within the limits."""
+    lowers the cost (the cheapest merge first, the first of equals), within the limits. A merge
+    changes the price of its two groups only (the groups after them receive the rows of the
+    same steps), so each is priced by them alone and kept in a heap: O(k log k) prices for k
+    steps, where pricing every plan after every merge took O(k^3) (a run of thousands of
+    statements never finished)."""
 
     def single(step: int, rows_in: float, kept: float) -> float:
         return cost(1 << step, rows_in, kept)
 
     if order is None:
         order, _ = plan_segment(steps, rows_after, single, before)
-    plan: list[tuple[int, ...]] = [(s,) for s in order]
-    current = groups_cost(plan, rows_after, cost)
-    while len(plan) > 1:
-        choice = None
-        for k in range(len(plan) - 1):
-            merged = plan[:k] + [plan[k] + plan[k + 1]] + plan[k + 2:]
-            if not joinable(_mask(merged[k])) or not allowed(merged[k:k + 1], _shifted(before, merged[:k]), joinable):
-                continue
-            spent = groups_cost(merged, rows_after, cost)
-            if spent < current - 1e-9 and (choice is None or spent < choice[0]):
-                choice = (spent, merged)
-        if choice is None:
+    groups = [[step] for step in order]
+    masks = [1 << step for step in order]
+    prefix, done = [], 0  # the steps run before each group
+    for mask in masks:
+        prefix.append(done)
+        done |= mask
+
+    def price(start: int, mask: int) -> float:
+        rows_in = rows_after(start)
+        return cost(mask, rows_in, share(min(rows_after(start | mask), rows_in), rows_in))
+
+    prices = [price(p, m) for p, m in zip(prefix, masks)]
+    following = list(range(1, len(groups))) + [-1]
+    preceding = list(range(-1, len(groups) - 1))
+    versions = [0] * len(groups)
+    heap: list[tuple[float, int, int, int]] = []
+
+    def offer(first: int) -> None:
+        second = following[first] if first >= 0 else -1
+        if second < 0:
+            return
+        mask = masks[first] | masks[second]
+        if not joinable(mask) or any(before.get(step, 0) & ~prefix[first] for step in groups[first] + groups[second]):
+            return
+        gain = price(prefix[first], mask) - prices[first] - prices[second]
+        heapq.heappush(heap, (gain, first, versions[first], versions[second]))
+
+    for first in range(len(groups) - 1):
+        offer(first)
+    while heap:
+        gain, first, mine, theirs = heapq.heappop(heap)
+        second = following[first]
+        if versions[first] != mine or second < 0 or versions[second] != theirs or preceding[second] != first:
+            continue  # a merge since changed one of the two groups
+        if gain >= -1e-9:
             break
-        current, plan = choice
-    return tuple(tuple(sorted(g)) for g in plan), current
-
-
-def _shifted(before: Mapping[int, int], earlier: Sequence[Sequence[int]]) -> dict[int, int]:
-    """The limits left once the steps of `earlier` have run."""
-    done = 0
-    for group in earlier:
-        done |= _mask(group)
-    return {step: mask & ~done for step, mask in before.items()}
+        groups[first] += groups[second]
+        masks[first] |= masks[second]
+        prices[first] += prices[second] + gain
+        versions[first] += 1
+        versions[second] = -1
+        following[first] = following[second]
+        if following[second] >= 0:
+            preceding[following[second]] = first
+        offer(preceding[first])
+        offer(first)
+    plan, total, first = [], 0.0, 0
+    while first >= 0:
+        plan.append(tuple(sorted(groups[first])))
+        total += prices[first]
+        first = following[first]
+    return tuple(plan), total
 
 
 def _mask(steps: Sequence[int]) -> int:
