@@ -87,7 +87,10 @@ def _group_edit(source: SourceText, chain: Chain, slots, first: int, last: int) 
     assigned = _TARGET.match(text[slots[last].anchor : slots[last].start])
     if target is None or assigned is None:
         raise RewriteError("a statement to join does not start with the name it assigns")
-    head = target.group("indent") + assigned.group("name") + head[target.end("name") :]
+    if assigned.group("name") == target.group("name"):
+        begin, head = kept.start, ""  # the same name: the edit starts at the step
+    else:
+        head = target.group("indent") + assigned.group("name") + head[target.end("name") :]
     new = head + body + text[kept.end : kept.close] + slots[last].trail + kept.fixed + "".join(rest)
     line, column = source.position(begin)
     end_line, end_column = source.position(region_end)
