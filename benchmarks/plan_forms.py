@@ -22,12 +22,17 @@ narrow tables, and never slower than written (planned / written <= 1.0). Also pr
 speedup over the written form, how often the fastest form is grouped, and the cost model's
 error (estimated / measured time of the written and the planned form, as `explain` estimates
 them), with the model's figures as shipped and with `chainlint calibrate` run now.
-Usage: python benchmarks/plan_forms.py [--quick] [--repeat N] [--copies N]
+With `--runs` every chain is written as a run of statements (`f = f.loc[...]`, one a line)
+instead of one expression: the forms timed are the same (every grouping pandas could run), and
+the planned form is what `check` plans for the run.
+Usage: python benchmarks/plan_forms.py [--quick] [--repeat N] [--copies N] [--runs]
 """
 
 from __future__ import annotations
 
 import argparse
+import ast
+import dataclasses
 import importlib.util
 import io
 import itertools
@@ -49,6 +54,7 @@ from chainlint.cli import main as cli
 from chainlint.estimate.calibrate import calibrate, model_to_json
 from chainlint.estimate.cost import DEFAULT_MODEL
 from chainlint.evaluate.pandas_masks import mask
+from chainlint.model import ChainForm
 from chainlint.parse.source import text_source
 from chainlint.plan.chains import may_join, plan_segments, precedence
 from chainlint.plan.groups import allowed
@@ -121,13 +127,27 @@ def wide_baseball() -> pd.DataFrame:
     return frame
 
 
+def as_runs(source: str) -> str:
+    """Each `def X(f): return f.loc[A].loc[B]` as a run of statements `f = f.loc[A]`, ..."""
+    out = []
+    for line in source.strip().splitlines():
+        function = ast.parse(line).body[0]
+        node, steps = function.body[0].value, []  # type: ignore[attr-defined]
+        while isinstance(node, ast.Subscript):
+            steps.append(ast.get_source_segment(line, node.slice))
+            node = node.value.value  # type: ignore[attr-defined]
+        out.append(f"def {function.name}(f):\n" + "".join(f"    f = f.loc[{step}]\n" for step in reversed(steps)) + "    return f\n")  # type: ignore[attr-defined]
+    return "\n" + "\n".join(out)
+
+
 def forms(chain, dtypes):  # type: ignore[no-untyped-def]
-    """Every form the planner may choose: ordered groupings within its limits."""
+    """Every form the planner may choose: ordered groupings within its limits (for a run, those
+    of the same steps in one expression: every form pandas could run)."""
     from chainlint.plan.totality import judge
 
     limits = tuple(judge(step.predicate, dtypes, "bench") if step.movable else None for step in chain.steps)
     (segment,) = plan_segments(limits)
-    before, joinable = precedence(segment, limits), may_join(chain, limits, dtypes)
+    before, joinable = precedence(segment, limits), may_join(dataclasses.replace(chain, form=ChainForm.METHOD), limits, dtypes)
 
     def partitions(steps):  # type: ignore[no-untyped-def]
         if not steps:
@@ -275,6 +295,7 @@ def main() -> None:
     parser.add_argument("--repeat", type=int, default=5)
     parser.add_argument("--copies", type=int, default=2, help="copies of each table stacked (default 2)")
     parser.add_argument("--only", choices=["narrow", "wide-flights", "wide-baseball"], action="append")
+    parser.add_argument("--runs", action="store_true", help="write each chain as a run of statements")
     args = parser.parse_args()
     copies, repeat = (1, 3) if args.quick else (args.copies, args.repeat)
     started = time.perf_counter()
@@ -290,7 +311,7 @@ def main() -> None:
                 continue
             frame = build()
             frame = pd.concat([frame] * copies, ignore_index=True)
-            bench_table(label, frame, source, repeat, model_file, Path(folder))
+            bench_table(label, frame, as_runs(source) if args.runs else source, repeat, model_file, Path(folder))
     print(f"total time {time.perf_counter() - started:.0f} s; load average at the end {_load()}")
 
 
