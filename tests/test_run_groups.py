@@ -151,6 +151,12 @@ def _joinable(source: str) -> bool:
     ("def f(df):\n    north = df[df.a > 1]\n    late = north[north.b < 2]\n    return late\n", True),
     # `north` is read after the run: its step is a barrier, nothing joins across it.
     ("def f(df):\n    north = df[df.a > 1]\n    late = north[north.b < 2]\n    return late, north\n", False),
+    # The frame read between the statements: no run at all.
+    ("def f(df):\n    out = df[df.a > 1]\n    n = len(out)\n    out = out[out.b < 2]\n    return out, n\n", False),
+    # A name a filter reads assigned between them: the filter after it stays where it is.
+    ("def f(df, g):\n    out = df[df.a > 1]\n    lim = 2\n    out = out[out.b < lim]\n    return out\n", False),
+    # A statement that touches neither is stepped over, and stays.
+    ("def f(df, log):\n    out = df[df.a > 1]\n    log('x')\n    out = out[out.b < 2]\n    return out\n", True),
     # Deleted after the run: removing its statement would make `del` raise.
     ("def f(df):\n    north = df[df.a > 1]\n    late = north[north.b < 2]\n    del north\n    return late\n", False),
     ("def f(df):\n    global north\n    north = df[df.a > 1]\n    late = north[north.b < 2]\n    return late\n", False),
