@@ -1,17 +1,20 @@
 """One document analysed again and again as it is edited (an editor's buffer): only what changed.
 
 The text is cut into units: the module's top-level statements, with statements that share a
-line, and consecutive assignments to one name, kept together. Module-level code is analysed
-whole every time: a statement run steps over other statements, a name read anywhere in the
-module stops a step, a mask bound once applies further down; a unit's text says too little
-about any of these. A function or class definition is walked in its own scope, and its chains
-depend, besides the settings (options, profile store, the module's imports), only on its own
-text, the screen's seams over its lines, the line above when a chain starts on its first line,
-and what the module's names it mentions hold and were assigned from before it. A definition
-whose text was seen in the last analysis, and all of these with it, is reused, moved to its new
-line; the finder walks only the other units (its seams cut to their lines), and only their
-chains are planned and checked. The result equals `analyse_text` of the same text (a property
-test compares the two on random edits).
+line, and consecutive assignments to one name, kept together. A unit's chains depend, besides
+the settings (options, profile store, the module's imports), on its own text, the screen's
+seams over its lines, the line above when a chain starts on its first line, what the module's
+names it mentions were assigned from before it and what they hold; and, for a unit of
+statements, on more of the module: a statement run steps over other statements, a name read
+anywhere stops a step, a mask bound once applies further down. So a unit of statements is
+`shared` when one of its statements belongs to a statement run, binds a mask, or is a block
+(`if`, `for`, ...), or when it mentions a name bound to a mask before it; a shared unit is
+walked every time. Any other unit whose text was seen in the last analysis, and all of the
+above with it, is reused, moved to its new line; the finder still passes every top-level
+statement (what names were assigned from, the masks, the runs: each statement's names are
+kept from one analysis to the next, `find.runs.Memo`) but walks only the other units, and only
+their chains are planned and checked. The result equals `analyse_text` of the same text (a
+property test compares the two on random edits).
 """
 
 from __future__ import annotations
@@ -22,7 +25,6 @@ import re
 import threading
 from dataclasses import dataclass
 from functools import cached_property
-from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
@@ -32,7 +34,9 @@ from chainlint.engine.run import analyse_source
 from chainlint.model import Chain, FileAnalysis, FileProblem, Finding, FrameOrigin, Span
 from chainlint.estimate.stores import LoadedStores
 from chainlint.find.bindings import ModuleBindings, Resolved
-from chainlint.find.chains import find_chains, module_names
+from chainlint.find.chains import Visited, find_chains, module_names
+from chainlint.find.runs import Memo
+from chainlint.find.shapes import is_mask_value
 from chainlint.find.screen import Seams, find_seams
 from chainlint.engine.reparse import Reparser
 from chainlint.parse.source import DEFAULT_MAX_BYTES, SourceError, SourceText, size_error, text_source
@@ -94,12 +98,14 @@ class _Unit:
 
 
 class _Asking(ModuleBindings):
-    """The module's bindings, noting whether the finder asked what a name holds."""
+    """The module's bindings, noting on the unit being walked that the finder asked what a
+    name holds."""
 
-    asked = False
+    group: _Group | None = None
 
     def resolve(self, dotted: str, at: ast.AST | None) -> Resolved:
-        self.asked = True
+        if self.group is not None:
+            self.group.asked = True
         return super().resolve(dotted, at)
 
 
@@ -115,9 +121,10 @@ Key = tuple[str, int]
 
 @dataclass
 class _Group:
-    """One top-level unit of this text: its lines and statements; for a definition, its key,
-    the results it may reuse, and what the module's names it mentions were assigned from as
-    the finder passed it."""
+    """One top-level unit of this text: its lines and statements, its key, the results it may
+    reuse, and as the finder passed it: what the module's names it mentions were assigned from,
+    whether it read what a name holds, and whether it is `shared` (a statement of a run, a
+    mask bound or read, a block: results that depend on more than the unit's own text)."""
 
     first: int
     last: int
@@ -126,6 +133,8 @@ class _Group:
     reused: _Unit | None = None
     identifiers: tuple[str, ...] = ()
     origins: tuple[FrameOrigin | None, ...] = ()
+    asked: bool = False
+    shared: bool = False
 
 
 class DocumentAnalyser:
@@ -141,6 +150,7 @@ class DocumentAnalyser:
         #: The plan and findings of each chain of the last analysis, moved to its first line.
         self._plans: dict[Chain, tuple[PlannedChain, tuple[Finding, ...]]] = {}
         self._parser = Reparser()
+        self._memo = Memo()
         self._stores = LoadedStores() if stores is None else stores
         self._setting: tuple[Any, ...] | None = None
 
@@ -160,7 +170,7 @@ class DocumentAnalyser:
         except SourceError as error:
             return self._failed(error.line, error.column, error.message, source)
         groups = [_Group(first, last, statements) for first, last, statements in _groups(tree)]
-        self._parser.settle([s for group in groups if not _definition(group.statements) for s in group.statements])
+        self._parser.settle([s for s in tree.body if isinstance(s, _COMPOUND)])  # read for the imports
         store = (options.store or find_store(Path(self.path))).resolve()
         setting = (options, store, self._stores.load(store), module_names(tree), _imports(source, tree))
         if self._setting is None or any(a is not b and a != b for a, b in zip(setting, self._setting)):
@@ -168,13 +178,15 @@ class DocumentAnalyser:
             self._setting = setting
         asking = _Asking(tree)
         self._reusable(source, groups, seams, asking)
-        asking.asked = False
         try:
             chains = self._find(source, tree, seams, groups, asking)
         except SourceError as error:
             return self._failed(error.line, error.column, error.message, source)
         except RecursionError:
             return self._failed(1, 1, "nesting too deep to analyse", source)
+        finally:
+            asking.group = None
+            self._memo.turn()
         planned, findings = self._planned(chains, options)
         fresh = [g.first for g in groups if g.reused is None]
         chains_of: dict[int, list[PlannedChain]] = {first: [] for first in fresh}
@@ -191,8 +203,7 @@ class DocumentAnalyser:
                 planned_here, found_here = chains_of[group.first], findings_of[group.first]
                 if planned_here or found_here:
                     parts.append((0, tuple(planned_here), tuple(found_here)))
-                if group.key is not None:
-                    unit = self._unit(source, group, seams, planned_here, found_here, asking)
+                unit = self._unit(source, group, seams, planned_here, found_here, asking)
             elif unit.planned or unit.findings:
                 parts.append((group.first - unit.first, unit.planned, unit.findings))
             if unit is not None and group.key is not None:
@@ -229,14 +240,13 @@ class DocumentAnalyser:
         return DocumentAnalysis(source, errors=(FileProblem(self.path, line, column, message),))
 
     def _reusable(self, source: SourceText, groups: list[_Group], seams: Seams, bindings: ModuleBindings) -> None:
-        """Key every definition by its text (identical ones told apart by their rank), and find
-        the results it may reuse: same text, same seams, the same line above where that counts,
-        and the same values of the module's names it mentions."""
+        """Key every unit by its text (identical ones told apart by their rank), and find the
+        results it may reuse: same text, same seams, the same line above where that counts,
+        and the same values of the module's names it mentions (the rest is known only as the
+        finder passes it: `_find`)."""
         seen: dict[str, int] = {}
         starts, text = source.line_starts, source.text
         for group in groups:
-            if not _definition(group.statements):
-                continue
             end = starts[group.last] if group.last < len(starts) else len(text)
             content = text[starts[group.first - 1] : end]
             seen[content] = seen.get(content, -1) + 1
@@ -252,46 +262,63 @@ class DocumentAnalyser:
                 group.reused = unit
 
     def _find(self, source: SourceText, tree: ast.Module, seams: Seams, groups: list[_Group], asking: _Asking) -> list[Chain]:
-        """The chains of every unit not reused, walking nothing else. What the module's names
-        were assigned from before a definition is known once the finder has passed it: a
-        definition whose names now come from elsewhere is walked in a second pass."""
-        by_statement = {id(g.statements[0]): g for g in groups if g.key is not None}
+        """The chains of every unit not reused, walking nothing else. The rest of what a unit's
+        chains depend on is known once the finder reaches it: what the module's names it
+        mentions were assigned from, and for a unit of statements, whether one of them is in a
+        statement run, binds a mask, or mentions a name bound to a mask before it (a unit that
+        binds none reads only the masks bound before its first statement). A unit walked has
+        its statements moved to their lines first, with the statements of every run and every
+        mask bound at the top level, which its chains may read."""
+        by_statement = {id(g.statements[0]): g for g in groups}
+        masks = [s for s in tree.body if isinstance(s, ast.Assign) and is_mask_value(s.value)]
+        self._parser.settle(masks)
+        bound_masks = {id(s) for s in masks}
+        runs_settled = False
 
-        def visit(statement: ast.stmt, assigned: Mapping[str, FrameOrigin]) -> None:
-            group = by_statement.get(id(statement))
-            if group is not None:
-                group.origins = tuple(assigned.get(name) for name in group.identifiers)
-
-        walked = [g for g in groups if g.reused is None]
-        self._parser.settle([s for group in walked for s in group.statements])
-        chains = find_chains(source, tree, seams.within([(g.first, g.last) for g in walked]), asking, visit=visit)
-        moved = [g for g in groups if g.reused is not None and g.reused.origins != g.origins]
-        if moved:
-            for group in moved:
+        def visit(place: Visited) -> bool:
+            nonlocal runs_settled
+            if not runs_settled:
+                self._parser.settle([s for s in tree.body if id(s) in place.in_runs])
+                runs_settled = True
+            group = by_statement.get(id(place.statement))
+            if group is None:  # a later statement of the unit being walked, or of one reused
+                return asking.group is not None and asking.group.reused is None
+            asking.group = group
+            group.origins = tuple(place.assigned.get(name) for name in group.identifiers)
+            if not _definition(group.statements):
+                group.shared = any(id(s) in place.in_runs or id(s) in bound_masks or isinstance(s, _COMPOUND) for s in group.statements) \
+                    or any(name in place.masks for name in group.identifiers)
+            if group.reused is not None and (group.shared or group.reused.origins != group.origins):
                 group.reused = None
-            self._parser.settle([s for group in moved for s in group.statements])
-            chains += find_chains(source, tree, seams.within([(g.first, g.last) for g in moved]), asking)
-        return chains
+            if group.reused is None:
+                self._parser.settle(group.statements)
+            return group.reused is None
+
+        return find_chains(source, tree, seams, asking, visit=visit, memo=self._memo)
 
     def _unit(self, source: SourceText, group: _Group, seams: Seams, planned: list[PlannedChain],
               findings: list[Finding], asking: _Asking) -> _Unit | None:
-        """A definition's results as kept for the next analyses, or None when they may not be
-        reused: a seam in its decorators, default values or bases (their chains read the
-        module's masks)."""
+        """A unit's results as kept for the next analyses, or None when they may not be reused:
+        a shared unit, a definition with a seam in its decorators, default values or bases
+        (their chains read the module's masks). What a name holds may decide whether a chain is
+        found at all (a mask written whole splits only when every conjunct may move), so it is
+        kept for a unit without chains too."""
+        if group.shared or group.key is None:
+            return None
         statement = group.statements[0]
         if isinstance(statement, ast.ClassDef):
             header = [*statement.decorator_list, *statement.bases, *(k.value for k in statement.keywords)]
-        else:
-            arguments = statement.args  # type: ignore[attr-defined]
+        elif isinstance(statement, (ast.FunctionDef, ast.AsyncFunctionDef)):
+            arguments = statement.args
             header = [*statement.decorator_list, *arguments.defaults, *(d for d in arguments.kw_defaults if d is not None)]
+        else:
+            header = []
         if any(seams.meets(node.lineno, node.end_lineno or node.lineno) for node in header):
             return None
         relative = seams.relative(group.first, group.last)
-        if not planned and not findings:
-            return _Unit(group.first, (), (), relative)
         above = source.lines[group.first - 2] if group.first > 1 else ""
         on_first = any(p.chain.span.line == group.first for p in planned)
-        resolved = _resolved(asking, group.identifiers) if asking.asked else None
+        resolved = _resolved(asking, group.identifiers) if group.asked else None
         return _Unit(group.first, tuple(planned), tuple(findings), relative, above if on_first else None,
                      group.identifiers, group.origins, resolved)
 

@@ -17,27 +17,42 @@ from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
 from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
 from chainlint.find.positions import Positions
-from chainlint.find.runs import Walked, bound, inplace_dropna, joined, mentioned, reads
+from chainlint.find.runs import Memo, Walked, inplace_dropna, joined, mentioned, reads
 from chainlint.find.screen import Seams
 from chainlint.find.shapes import Masks, Names, Shape, is_mask_value, mask_frames, peel, rows_axis
 from chainlint.find.steps import StepContext, build_step, selected_columns
 from chainlint.parse.source import SourceText
 
 
-#: Called with each top-level statement, before the finder walks it, and what the module's
-#: names were assigned from so far (read it then: it changes as the walk goes on).
-Visit = Callable[[ast.stmt, Mapping[str, FrameOrigin]], None]
+@dataclass(frozen=True)
+class Visited:
+    """A top-level statement as the finder reaches it, before it walks it: what the module's
+    names were assigned from so far (read it then: it changes as the walk goes on), the masks
+    bound to names before it, and the ids of the module's statements that belong to a
+    statement run (what a caller reusing a statement's chains found before must compare)."""
+
+    statement: ast.stmt
+    assigned: Mapping[str, FrameOrigin]
+    masks: Masks
+    in_runs: frozenset[int]
+
+
+#: Called with each top-level statement; False: do not walk it, nor build a run starting at
+#: it (the caller knows its chains).
+Visit = Callable[[Visited], bool]
 
 
 def find_chains(source: SourceText, tree: ast.Module, seams: Seams, bindings: ModuleBindings | None = None,
-                least: int = 2, visit: Visit | None = None) -> list[Chain]:
+                least: int = 2, visit: Visit | None = None, memo: Memo | None = None) -> list[Chain]:
     """All chains of the module, in source order (`bindings`: the module's, when the caller
     wants to see what the finder asks of them); `least`: the fewest steps of a method chain
     (1 for the rewriter, to find a chain fused into one mask again); `visit`: for a caller that
-    reuses chains found in a function before (what the function would have seen)."""
+    reuses chains found before (what a statement would have seen); `memo`: what statements
+    mention, bind and read, kept by a caller that walks successive trees sharing statements."""
     finder = _Finder(source, seams, module_names(tree), bindings or ModuleBindings(tree))
     finder.least = least
     finder.visit, finder.top = visit, tree.body
+    finder.memo = memo or Memo()
     finder.block(tree.body)
     return sorted(finder.chains, key=lambda c: (c.span.line, c.span.column))
 
@@ -109,6 +124,7 @@ class _Finder:
         self.positions = Positions(source)
         self.visit: Visit | None = None
         self.top: list[ast.stmt] = []
+        self.memo = Memo()
 
     # -- walking --------------------------------------------------------------------------
     def block(self, statements: list[ast.stmt]) -> None:
@@ -116,10 +132,13 @@ class _Finder:
         saved = self.masks, self.block_masks
         self.block_masks = self.mask_table(statements)
         runs = self.runs(statements)
+        visit = self.visit if statements is self.top else None
+        in_runs = frozenset(id(m.statement) for run in runs.values() for m in run) if visit is not None else frozenset()
         for index, statement in enumerate(statements):
-            if self.visit is not None and statements is self.top:
-                self.visit(statement, self.origins.scopes[0][1])
             self.masks = self.block_masks[index]
+            if visit is not None and not visit(Visited(statement, self.origins.scopes[0][1], self.masks, in_runs)):
+                self.origins.record(statement)
+                continue
             if index in runs:
                 self.chains.append(self.statement_run(runs[index]))
             if isinstance(statement, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)):
@@ -140,7 +159,7 @@ class _Finder:
         scope = None
         for statement in statements:
             table.append(current)
-            changed = bound(statement)
+            changed = self.memo.bound(statement)
             if current and changed:
                 current = {k: v for k, v in current.items() if k not in changed and v[1].split(".")[0] not in changed}
             if isinstance(statement, ast.Assign) and len(statement.targets) == 1 and isinstance(statement.targets[0], ast.Name):
@@ -290,7 +309,7 @@ class _Finder:
         filters the frame the one before produced (under the same name or a new one), with
         statements that touch neither the run's frames nor the names its filters read between."""
         found: dict[int, list[_Member]] = {}
-        walked = Walked(statements)
+        walked = Walked(statements, self.memo)
         shaped: dict[int, tuple[str, _Decomposed] | None] = {}
 
         def filtering(number: int) -> tuple[str, _Decomposed] | None:
@@ -307,7 +326,7 @@ class _Finder:
                 continue
             members = [_Member(statements[index], first[0], first[1])]
             frames = {first[0]}
-            read = mentioned(first[1].shapes[-1].node)
+            read: set[str] | None = None  # the names the run's filters read, once it has a second
             # Names bound by the statements stepped over, by the member that follows them.
             between: list[tuple[int, set[str]]] = []
             fences: dict[int, str] = {}
@@ -316,6 +335,8 @@ class _Finder:
                 later = filtering(stop)
                 if later is None or dotted_name(later[1].base) != members[-1].target:
                     break  # a statement the run may not step over
+                if read is None:
+                    read = mentioned(first[1].shapes[-1].node)
                 for statement in statements[following:stop]:  # stepped over
                     names = walked.bound(statement)
                     between.append((len(members), names))
@@ -354,7 +375,13 @@ class _Finder:
         assigned = frozenset(member.target for member in members)
         scope = self.scope if self.scope is not None else self.bindings.tree
         if id(scope) not in self.reads:
-            self.reads[id(scope)] = reads(scope)
+            if scope is self.bindings.tree:  # the module: its statements' counts, each kept
+                counts: Counter[str] = Counter()
+                for statement in self.bindings.tree.body:
+                    counts.update(self.memo.reads(statement))
+                self.reads[id(scope)] = counts
+            else:
+                self.reads[id(scope)] = reads(scope)
         inside: Counter[str] = Counter()
         for member in members:
             inside.update(reads(member.statement))

@@ -16,6 +16,7 @@ import re
 from collections import Counter
 from collections.abc import Sequence
 from dataclasses import replace
+from typing import Any
 
 from chainlint.find.positions import Positions
 from chainlint.find.shapes import Shape
@@ -51,23 +52,59 @@ def bound(statement: ast.stmt) -> set[str]:
     return names
 
 
+class Memo:
+    """What each statement mentions, binds and reads, each walked once. An editor keeps one
+    across the analyses of a document's successive texts: its parser keeps the statement
+    objects an edit did not touch, and an object never changes its text (only its lines). Holds
+    the statements of the last walk only (`turn`), keeping each alive so its id stays its own."""
+
+    def __init__(self) -> None:
+        self._last: dict[int, list[Any]] = {}
+        self._now: dict[int, list[Any]] = {}
+
+    def _entry(self, statement: ast.stmt) -> list[Any]:
+        entry = self._now.get(id(statement))
+        if entry is None:
+            entry = self._now[id(statement)] = self._last.get(id(statement)) or [statement, None, None, None]
+        return entry
+
+    def mentioned(self, statement: ast.stmt) -> set[str]:
+        entry = self._entry(statement)
+        if entry[1] is None:
+            entry[1] = mentioned(statement)
+        return entry[1]  # type: ignore[no-any-return]
+
+    def bound(self, statement: ast.stmt) -> set[str]:
+        entry = self._entry(statement)
+        if entry[2] is None:
+            entry[2] = bound(statement)
+        return entry[2]  # type: ignore[no-any-return]
+
+    def reads(self, statement: ast.stmt) -> Counter[str]:
+        entry = self._entry(statement)
+        if entry[3] is None:
+            entry[3] = reads(statement)
+        return entry[3]  # type: ignore[no-any-return]
+
+    def turn(self) -> None:
+        """Forget the statements the last walk did not ask about."""
+        self._last, self._now = self._now, {}
+
+
 class Walked:
     """A block's statements as the scan for runs reads them, each walked once: from every
     filter statement the scan goes on over the simple statements that mention none of the
     run's frames, so where it stops is looked up (the next statement that is not simple, or
     that mentions one of the frames) instead of walked to, statement by statement."""
 
-    def __init__(self, statements: list[ast.stmt]) -> None:
+    def __init__(self, statements: list[ast.stmt], memo: Memo) -> None:
         self.statements = statements
-        self._bound: dict[int, set[str]] = {}
+        self._memo = memo
         self._walls: list[int] | None = None
         self._mentions: dict[str, list[int]] = {}
 
     def bound(self, statement: ast.stmt) -> set[str]:
-        found = self._bound.get(id(statement))
-        if found is None:
-            found = self._bound[id(statement)] = bound(statement)
-        return found
+        return self._memo.bound(statement)
 
     def stop(self, start: int, frames: set[str]) -> int:
         """The index of the first statement from `start` on that a run of `frames` may not step
@@ -80,7 +117,7 @@ class Walked:
                 if not isinstance(statement, _SIMPLE):
                     self._walls.append(number)
                     continue
-                for name in mentioned(statement):
+                for name in self._memo.mentioned(statement):
                     self._mentions.setdefault(name, []).append(number)
         found = len(self.statements)
         for numbers in [self._walls, *(self._mentions.get(frame, ()) for frame in frames)]:
