@@ -31,14 +31,15 @@ from typing import Any
 from chainlint.engine.check import PlannedChain, apply_rules, check, plan_results
 from chainlint.engine.options import Options
 from chainlint.engine.run import analyse_source
-from chainlint.model import Chain, FileAnalysis, FileProblem, Finding, FrameOrigin, Span
+from chainlint.model import Chain, FileAnalysis, FileProblem, Finding, FrameOrigin
 from chainlint.estimate.stores import LoadedStores
 from chainlint.find.bindings import ModuleBindings, Resolved
-from chainlint.find.chains import Visited, find_chains, module_names
+from chainlint.find.chains import Visited, find_chains
 from chainlint.find.runs import Memo
-from chainlint.find.shapes import is_mask_value
+from chainlint.find.shapes import is_mask_value, module_names
 from chainlint.find.screen import Seams, find_seams
 from chainlint.engine.reparse import Reparser
+from chainlint.engine.shift import shift, shift_chain
 from chainlint.parse.source import DEFAULT_MAX_BYTES, SourceError, SourceText, size_error, text_source
 from chainlint.profile.store import find_store
 
@@ -61,11 +62,11 @@ class DocumentAnalysis:
 
     @cached_property
     def planned(self) -> tuple[PlannedChain, ...]:
-        return tuple(p for delta, planned, _ in self.parts for p in _shift(planned, delta))
+        return tuple(p for delta, planned, _ in self.parts for p in shift(planned, delta))
 
     @cached_property
     def findings(self) -> tuple[Finding, ...]:
-        found = [f for delta, _, findings in self.parts for f in _shift(findings, delta)]
+        found = [f for delta, _, findings in self.parts for f in shift(findings, delta)]
         return tuple(sorted(found, key=lambda f: (f.span.line, f.span.column, f.rule)))
 
 
@@ -215,7 +216,7 @@ class DocumentAnalyser:
         """Bind, plan and check the chains found; a chain found in the last analysis too (the
         same chain, perhaps moved by whole lines) keeps its plan and findings, which depend on
         nothing else under one setting."""
-        keys = [_shift_chain(chain, 1 - chain.span.line) for chain in chains]
+        keys = [shift_chain(chain, 1 - chain.span.line) for chain in chains]
         missing = [chain for chain, key in zip(chains, keys) if key not in self._plans]
         fresh = iter(plan_results([FileAnalysis(self.path, chains=tuple(missing))], options, self._stores)[0] if missing else ())
         planned: list[PlannedChain] = []
@@ -227,9 +228,9 @@ class DocumentAnalyser:
             if known is None:
                 item = next(fresh)
                 found = tuple(apply_rules([item], options)[0])
-                known = (_shift((item,), -delta)[0], _shift(found, -delta))
+                known = (shift((item,), -delta)[0], shift(found, -delta))
             else:
-                item, found = _shift((known[0],), delta)[0], _shift(known[1], delta)
+                item, found = shift((known[0],), delta)[0], shift(known[1], delta)
             kept[key] = known
             planned.append(item)
             findings.extend(found)
@@ -372,39 +373,3 @@ def _same_target(before: ast.stmt, statement: ast.stmt) -> bool:
 
 _IDENTIFIER = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 _COMPOUND = (ast.If, ast.For, ast.AsyncFor, ast.While, ast.With, ast.AsyncWith, ast.Try, ast.TryStar, ast.Match)
-
-
-def _span(span: Span | None, delta: int) -> Span | None:
-    return None if span is None else Span(span.line + delta, span.column, span.end_line + delta, span.end_column)
-
-
-def _moved(value: Any, **changes: Any) -> Any:
-    """A copy of a frozen dataclass with some fields changed, without running its checks again."""
-    copy = object.__new__(type(value))
-    copy.__dict__.update(value.__dict__)
-    copy.__dict__.update(changes)
-    return copy
-
-
-def _shift_chain(chain: Chain, delta: int) -> Chain:
-    """A chain with every line moved by `delta`."""
-    if not delta:
-        return chain
-    steps = tuple(_moved(s, span=_span(s.span, delta), mask_span=_span(s.mask_span, delta), conjunct=_span(s.conjunct, delta))
-                  for s in chain.steps)
-    return _moved(chain, span=_span(chain.span, delta), steps=steps)  # type: ignore[no-any-return]
-
-
-def _shift(items: tuple[Any, ...], delta: int) -> tuple[Any, ...]:
-    """Planned chains or findings with every line moved by `delta` (a unit moves by whole lines)."""
-    if not delta:
-        return items
-    moved = []
-    for item in items:
-        if isinstance(item, Finding):
-            moved.append(_moved(item, span=_span(item.span, delta)))
-            continue
-        chain = _shift_chain(item.chain, delta)
-        plan = None if item.plan is None else _moved(item.plan, chain=chain)
-        moved.append(_moved(item, chain=chain, plan=plan))
-    return tuple(moved)

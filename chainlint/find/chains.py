@@ -19,7 +19,7 @@ from chainlint.find.origins import Origins, keep_comment, near, profile_comment
 from chainlint.find.positions import Positions
 from chainlint.find.runs import Memo, Walked, inplace_dropna, joined, mentioned, reads
 from chainlint.find.screen import Seams
-from chainlint.find.shapes import Masks, Names, Shape, is_mask_value, mask_frames, peel, rows_axis
+from chainlint.find.shapes import Masks, Names, Shape, is_mask_value, mask_frames, module_names, peel, rows_axis
 from chainlint.find.steps import StepContext, build_step, selected_columns
 from chainlint.parse.source import SourceText
 
@@ -55,32 +55,6 @@ def find_chains(source: SourceText, tree: ast.Module, seams: Seams, bindings: Mo
     finder.memo = memo or Memo()
     finder.block(tree.body)
     return sorted(finder.chains, key=lambda c: (c.span.line, c.span.column))
-
-
-def module_names(tree: ast.Module) -> Names:
-    """The imports of a module that the finder reads names by (pandas and other modules)."""
-    modules: set[str] = set()
-    pandas: set[str] = set()
-    functions: dict[str, str] = {}
-    for node in tree.body:
-        statements = [node]
-        if isinstance(node, (ast.If, ast.Try)):
-            statements = list(node.body) + list(node.orelse)
-        for statement in statements:
-            if isinstance(statement, ast.Import):
-                for alias in statement.names:
-                    bound = alias.asname or alias.name.split(".")[0]
-                    modules.add(bound)
-                    if alias.name == "pandas":
-                        pandas.add(bound)
-            elif isinstance(statement, ast.ImportFrom) and statement.module:
-                for alias in statement.names:
-                    bound = alias.asname or alias.name
-                    if statement.module == "pandas":
-                        functions[bound] = "pandas." + alias.name
-                    elif statement.module.split(".")[0] != "pandas":
-                        modules.add(bound)
-    return Names(frozenset(modules), frozenset(pandas), tuple(sorted(functions.items())))
 
 
 @dataclass(frozen=True)

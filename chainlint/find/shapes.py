@@ -46,6 +46,32 @@ class Names:
     pandas_functions: tuple[tuple[str, str], ...] = ()
 
 
+def module_names(tree: ast.Module) -> Names:
+    """The imports of a module that the finder reads names by (pandas and other modules)."""
+    modules: set[str] = set()
+    pandas: set[str] = set()
+    functions: dict[str, str] = {}
+    for node in tree.body:
+        statements = [node]
+        if isinstance(node, (ast.If, ast.Try)):
+            statements = list(node.body) + list(node.orelse)
+        for statement in statements:
+            if isinstance(statement, ast.Import):
+                for alias in statement.names:
+                    bound = alias.asname or alias.name.split(".")[0]
+                    modules.add(bound)
+                    if alias.name == "pandas":
+                        pandas.add(bound)
+            elif isinstance(statement, ast.ImportFrom) and statement.module:
+                for alias in statement.names:
+                    bound = alias.asname or alias.name
+                    if statement.module == "pandas":
+                        functions[bound] = "pandas." + alias.name
+                    elif statement.module.split(".")[0] != "pandas":
+                        modules.add(bound)
+    return Names(frozenset(modules), frozenset(pandas), tuple(sorted(functions.items())))
+
+
 #: Masks bound to a name earlier in the block: name -> (the mask expression, its frame).
 Masks = dict[str, tuple[ast.expr, str]]
 
