@@ -37,8 +37,7 @@ class Visited:
     in_runs: frozenset[int]
 
 
-#: Called with each top-level statement; False: do not walk it, nor build a run starting at
-#: it (the caller knows its chains).
+#: Called with each top-level statement; False: the caller knows its chains (no walk, no run).
 Visit = Callable[[Visited], bool]
 
 
