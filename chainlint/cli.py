@@ -213,18 +213,23 @@ def _same_file(first: str, second: str) -> bool:
 @click.option("--no-joint", is_flag=True, help="Count no joint statistics: column statistics only.")
 @click.option("--dask", metavar="ADDRESS", help="Count on a Dask cluster: a scheduler address (tcp://host:8786), "
               "or local[:N] for N worker processes here (needs chainlint[dask]).")
+@click.option("--dask-within", type=click.FloatRange(min=0, min_open=True), metavar="SECONDS",
+              help="With --dask: cancel the run if it has not finished within SECONDS (the cluster's start "
+              "not counted); nothing is written.")
 @csv_options
 def profile(data: Sequence[str], name: str, store: str | None, min_count: int, redact: Sequence[str],
             distinct_cap: int, top: int, batch_rows: int, sources: Sequence[str], no_joint: bool, dask: str | None,
-            **reader: str | None) -> None:
+            dask_within: float | None, **reader: str | None) -> None:
     """Gather column statistics from DATA (CSV, Parquet, Feather/Arrow, JSON Lines) into a profile, with
     exact joint counts of the filters of the project's chains that it describes."""
+    if dask_within is not None and not dask:
+        fail("--dask-within bounds a --dask run: give --dask too")
     settings = Settings(min_count=min_count, distinct_cap=distinct_cap, top=top, redact=frozenset(redact))
     progress = Progress(sys.stderr.isatty())
     try:
         made = make_profile(data, name, store_folder(store), settings, csv_from(**reader), sources, not no_joint,  # type: ignore[arg-type]
                             batch_rows, progress, lambda note: click.echo(note, err=True),
-                            (lambda *counted: _on_cluster(dask, *counted)) if dask else None)
+                            (lambda *counted: _on_cluster(dask, dask_within, *counted)) if dask else None)
     except (DataError, StoreError, ProfileError, ConfigError) as error:
         fail(str(error))
     progress.done()
@@ -236,7 +241,7 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
                f"{shown_path(made.path, Path.cwd())} ({'written' if made.changed else 'unchanged'})")
 
 
-def _on_cluster(address: str, plan, name: str, settings: Settings, joint) -> dict:  # type: ignore[no-untyped-def, type-arg]
+def _on_cluster(address: str, within: float | None, plan, name: str, settings: Settings, joint) -> dict:  # type: ignore[no-untyped-def, type-arg]
     """The profile counted on a Dask cluster (the `chainlint[dask]` extra, imported only here)."""
     try:
         from chainlint.cluster.run import ClusterError, TaskProgress, connect, profile_on_cluster
@@ -244,7 +249,7 @@ def _on_cluster(address: str, plan, name: str, settings: Settings, joint) -> dic
         fail(f"--dask needs Dask ({error.name} is not installed): pip install 'chainlint[dask]'")
     try:
         with connect(address) as client:
-            return profile_on_cluster(client, plan, name, settings, joint, TaskProgress(sys.stderr))
+            return profile_on_cluster(client, plan, name, settings, joint, TaskProgress(sys.stderr), within)
     except ClusterError as error:
         fail(str(error))
 

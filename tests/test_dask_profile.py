@@ -171,8 +171,9 @@ def test_bad_data_names_the_piece_and_writes_nothing(client, data: Path, monkeyp
     bad = next(p for p in plan.pieces if p.start <= sum(len(x) + 1 for x in lines[:2500]) < p.end)
     with pytest.raises(DataError) as raised:
         _run(client, plan, "broken", KEYS)
-    assert f"{path}:2501: malformed CSV row" in str(raised.value)
-    assert f"bytes {bad.start}-{bad.end} of {path}" in str(raised.value)
+    assert str(raised.value).startswith(f"{path}:2501: malformed CSV row")
+    assert (raised.value.path, raised.value.line) == (str(path), 2501)  # the place as fields, as a reader gives it
+    assert raised.value.reason.endswith(f"(in bytes {bad.start}-{bad.end})")
     store = data / "broken-store"
     result = CliRunner().invoke(main, ["profile", str(path), "--name", "broken", "--store", str(store), "--no-joint",
                                        "--dask", client.scheduler.address])
@@ -202,6 +203,16 @@ def test_a_run_past_its_time_limit_is_cancelled(client, data: Path) -> None:  # 
     with pytest.raises(ClusterError, match=r"did not finish within 0.001 s \(\d+ of 27 tasks done; .*\); it was cancelled"):
         profile_on_cluster(client, plan, "flights", KEYS, timeout=0.001)  # 14 row groups: never done in 1 ms
     _same_but_time(_run(client, plan, "flights", KEYS), profile_dataset(open_dataset([str(data / "flights.parquet")]), "flights", KEYS))
+
+
+def test_the_command_bounds_a_run_by_dask_within(client, data: Path) -> None:  # type: ignore[no-untyped-def]
+    store = data / "bounded-store"
+    arguments = [str(data / "flights.parquet"), "--name", "flights", "--store", str(store), "--no-joint"]
+    result = CliRunner().invoke(main, ["profile", *arguments, "--dask", client.scheduler.address, "--dask-within", "0.001"])
+    assert result.exit_code == 2 and "did not finish within 0.001 s" in result.output, result.output
+    assert not (store / "profiles").exists() or not list((store / "profiles").iterdir())
+    alone = CliRunner().invoke(main, ["profile", *arguments, "--dask-within", "60"])
+    assert alone.exit_code == 2 and "--dask-within bounds a --dask run" in alone.output
 
 
 def test_a_run_does_not_depend_on_the_default_client(client, data: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # type: ignore[no-untyped-def]

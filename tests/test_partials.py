@@ -17,9 +17,10 @@ import pytest
 
 from chainlint.profile.build import profile_dataset
 from chainlint.profile.columns import Settings
+from chainlint.profile.errors import DataError
 from chainlint.profile.format import dumps
 from chainlint.profile.partial import count_piece, merge_partials, partial_document
-from chainlint.profile import pieces
+from chainlint.profile import csv_reader, pieces
 from chainlint.profile.files import sha256_of
 from chainlint.profile.pieces import file_digest, plan_pieces
 from chainlint.profile.readers import open_dataset
@@ -168,3 +169,18 @@ def test_csv_json_lines_and_arrow_behind_fsspec_urls(tmp_path: Path, monkeypatch
     assert merged["source"]["files"][0]["path"] == url
     merged["created"], merged["source"] = local["created"], local["source"]
     assert dumps(merged) == dumps(local)
+
+
+def test_a_piece_error_names_the_file_as_its_path_and_the_piece_in_its_reason(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(csv_reader, "_CSV_BLOCK", 1 << 12)  # 4 KB pieces
+    path = tmp_path / "t.csv"
+    lines = ["depot,stop"] + [f"d{i % 7},{i}" for i in range(2_000)]
+    lines[1_500] += ",extra"  # line 1,501: one field too many, in a later piece
+    path.write_text("\n".join(lines) + "\n")
+    plan = plan_pieces([str(path)])
+    bad = next(p for p in plan.pieces if p.start <= sum(len(x) + 1 for x in lines[:1_500]) < p.end)
+    assert bad.start > 0
+    with pytest.raises(DataError) as raised:
+        list(pieces.piece_batches(bad, plan.layout))
+    assert (raised.value.path, raised.value.line) == (str(path), 1_501)
+    assert raised.value.reason == f"malformed CSV row (expected 2 fields, found 3) (in bytes {bad.start}-{bad.end})"

@@ -201,8 +201,8 @@ def _running(client: Client, plan: Plan, run: str) -> str:
 
 def _raise(future: Future) -> None:
     error = future.exception()
-    if isinstance(error, DataError):
-        raise DataError(str(error)) from None
+    if isinstance(error, DataError):  # its place as the task gave it: file, line, piece
+        raise DataError(error.reason, path=error.path, line=error.line, column=error.column) from None
     kind = type(error).__name__
     if kind == "KilledWorker":
         raise ClusterError(f"a task was lost with its worker too many times ({error}); the run is abandoned") from None

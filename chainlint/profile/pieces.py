@@ -50,15 +50,20 @@ class Piece:
     number: int = 0  # the piece's place in row order (set by `Plan`): seeds where its samples start
     hashes: bool = False  # the file's first piece (set by `Plan`): its task also takes the file's sha256
 
-    def where(self) -> str:
-        """The piece as an error message names it."""
+    def part(self) -> str | None:
+        """The piece within its file, as an error message names it; None for a whole file."""
         if self.group is not None:
-            return f"row group {self.group} of {self.path}"
+            return f"row group {self.group}"
         if self.batches is not None:
-            return f"record batches {self.batches[0]}-{self.batches[1] - 1} of {self.path}"
+            return f"record batches {self.batches[0]}-{self.batches[1] - 1}"
         if self.end:
-            return f"bytes {self.start}-{self.end} of {self.path}"
-        return self.path
+            return f"bytes {self.start}-{self.end}"
+        return None
+
+    def where(self) -> str:
+        """The piece and its file, as a progress or time-limit message names it."""
+        part = self.part()
+        return self.path if part is None else f"{part} of {self.path}"
 
 
 @dataclass(frozen=True)
@@ -153,7 +158,7 @@ def _url_plan(arguments: Sequence[str], batch_rows: int, csv: CsvOptions) -> Pla
             if schema is None:
                 schema = other
             elif not other.equals(schema):
-                raise DataError(readers._differs(url, urls[0]))
+                raise readers._differs(url, urls[0])
             pieces.extend(Piece("parquet", url, group) for group in range(handle.metadata.num_row_groups))
             rows += handle.metadata.num_rows
         expected = rows
@@ -215,7 +220,7 @@ def _parquet_pieces(files: list[str]) -> tuple[pa.Schema, list[Piece], int]:
         if schema is None:
             schema = other
         elif not other.equals(schema):
-            raise DataError(readers._differs(path, files[0]))
+            raise readers._differs(path, files[0])
         groups = pq.ParquetFile(path).metadata.num_row_groups
         pieces.extend(Piece("parquet", os.path.abspath(path), group) for group in range(groups))
         rows += count or 0
@@ -232,7 +237,7 @@ def _folder_pieces(paths: Sequence[str]) -> tuple[pa.Schema, pa.Schema, list[Pie
         rows = dataset.count_rows()
         fragments = [group for fragment in dataset.get_fragments() for group in fragment.split_by_row_group()]
     except _ARROW_ERRORS as error:
-        raise DataError(f"{paths[0]}: not a readable Parquet dataset ({str(error).splitlines()[0]})") from None
+        raise DataError(f"not a readable Parquet dataset ({str(error).splitlines()[0]})", path=str(paths[0])) from None
     pieces = [Piece("parquet", f.path, f.row_groups[0].id, fragment=f) for f in fragments]
     return pandas_schema(dataset.schema), dataset.schema, pieces, rows
 
@@ -249,13 +254,16 @@ def _csv_pieces(path: str) -> list[Piece]:
 
 
 def piece_batches(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
-    """The piece's rows as the local path's batches; errors name the file and the piece."""
+    """The piece's rows as the local path's batches; an error names the file as its `path` (and
+    the line where the reader knows it) and the piece in its reason."""
+    part = piece.part()
+    within = "" if part is None else f" (in {part})"
     try:
         yield from _batches(piece, layout)
     except DataError as error:
-        raise DataError(f"{error} (in the task reading {piece.where()})") from None
+        raise DataError(error.reason + within, path=error.path or piece.path, line=error.line, column=error.column) from None
     except _ARROW_ERRORS as error:
-        raise DataError(f"{piece.where()}: {str(error).splitlines()[0]}") from None
+        raise DataError(str(error).splitlines()[0] + within, path=piece.path) from None
 
 
 def _batches(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
@@ -311,7 +319,7 @@ def _parquet_handle(inner: str, fs: Any, shown: str) -> tuple[pq.ParquetFile, pa
     try:
         return formats.parquet_file(inner, fs)
     except _ARROW_ERRORS as error:
-        raise DataError(f"{shown}: not a readable Parquet file ({str(error).splitlines()[0]})") from None
+        raise DataError(f"not a readable Parquet file ({str(error).splitlines()[0]})", path=shown) from None
 
 
 def _row_group(path: str, group: int, rows: int) -> Iterator[pa.Table]:
@@ -337,4 +345,4 @@ def _csv_range(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
 def _same_schema(schema: pa.Schema, path: str, layout: Layout) -> None:
     """Whether a piece's file has the columns of the dataset's first file (types as profiled)."""
     if not pandas_schema(schema).equals(layout.schema):
-        raise DataError(readers._differs(path, layout.first_path))
+        raise readers._differs(path, layout.first_path)

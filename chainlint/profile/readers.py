@@ -80,13 +80,13 @@ def _open_files(
     schema = opened[0][0]
     for path, (other, _, _) in zip(files, opened):
         if not other.equals(schema):
-            raise DataError(_differs(path, files[0]))
+            raise _differs(path, files[0])
     counts = [rows for _, _, rows in opened]
     return schema, _chain(stream for _, stream, _ in opened), None if None in counts else sum(counts)  # type: ignore[arg-type]
 
 
-def _differs(path: str, first: str) -> str:
-    return f"{path}: its columns differ from {first}'s; profile them separately"
+def _differs(path: str, first: str) -> DataError:
+    return DataError(f"its columns differ from {first}'s; profile them separately", path=str(path))
 
 
 def _chain(streams: Iterator[Iterator[pa.Table]]) -> Iterator[pa.Table]:
@@ -101,7 +101,7 @@ def _chain_csv(files: list[str], schema: pa.Schema, first: Iterator[pa.Table], b
     for path in files[1:]:
         other, stream, _ = open_csv(path, csv)
         if not other.equals(schema):
-            raise DataError(_differs(path, files[0]))
+            raise _differs(path, files[0])
         for table in stream:
             yield from table_batches(table, batch_rows)
 
