@@ -235,12 +235,14 @@ def test_a_run_does_not_depend_on_the_default_client(client, data: Path, monkeyp
 
 def test_csv_json_lines_and_arrow_urls_equal_the_local_profile(client, data: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # type: ignore[no-untyped-def]
     # Behind file:// URLs (fsspec's local implementation: no network), read by the workers: a
-    # CSV and a JSON Lines file whole, an Arrow IPC file in runs of its record batches.
+    # CSV file in byte ranges read as ranges of its URL, a JSON Lines file whole, an Arrow IPC
+    # file in runs of its record batches.
     import pyarrow.ipc as paipc
 
     from chainlint.profile import pieces
 
     monkeypatch.setattr(pieces, "ARROW_PIECE_ROWS", 4_000)
+    monkeypatch.setattr(csv_reader, "_CSV_BLOCK", 1 << 18)  # 256 KB pieces: the client's cut
     frame = flights().iloc[:20_000]
     table = pa.Table.from_pandas(frame, preserve_index=False)
     pacsv.write_csv(table, data / "part.csv")
@@ -248,7 +250,7 @@ def test_csv_json_lines_and_arrow_urls_equal_the_local_profile(client, data: Pat
     with paipc.new_file(data / "part.arrow", table.schema) as writer:
         for batch in table.to_batches(max_chunksize=1_000):
             writer.write_batch(batch)
-    for name, count in (("part.csv", 1), ("part.jsonl", 1), ("part.arrow", 5)):
+    for name, count in (("part.csv", 8), ("part.jsonl", 1), ("part.arrow", 5)):
         path = str(data / name)
         plan = plan_pieces([f"file://{path}"])
         assert len(plan.pieces) == count, name

@@ -5,6 +5,7 @@ its boolean words, no date parsing unless `parse_dates` asks, header names made 
 blank ones named as pandas names them. `tests/test_csv_like_pandas.py` holds the reader to
 `pd.read_csv` itself on awkward files. The file is cut into memory-mapped pieces at line ends
 outside quoted values (a quoted value may hold line breaks); the first piece decides the types.
+A file behind an fsspec URL is read as a stream and cut in the same places.
 """
 
 from __future__ import annotations
@@ -93,7 +94,7 @@ def _layout(path: str, options: CsvOptions, delimiter: str) -> _Layout:
     first = lead + (header[0] if header is not None else 0)
     encoding = "utf-8-sig" if codecs.lookup(options.encoding).name == "utf-8" else options.encoding
     try:
-        with pa.input_stream(path, compression="detect") as raw:
+        with _input(path) as raw:
             text = io.TextIOWrapper(raw, encoding=encoding, newline="")  # type: ignore[arg-type]
             records = list(itertools.islice(csv.reader(text, delimiter=delimiter), first + max(levels, 1)))
     except UnicodeDecodeError as error:
@@ -220,7 +221,7 @@ def column_names(schema: pa.Schema, path: str) -> list[str]:
 
 def open_csv(path: str, options: CsvOptions) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     """(schema, tables of the file's pieces, estimated row count)."""
-    size = os.path.getsize(path)
+    size = _size(path)
     if size == 0:
         raise DataError("empty file", path=str(path))
     reader = CsvFile(path, options)
@@ -248,8 +249,49 @@ def open_csv(path: str, options: CsvOptions) -> tuple[pa.Schema, Iterator[pa.Tab
 
 
 def _compressed(path: str) -> bool:
+    if _is_url(path):
+        return _codec(path) is not None
     with pa.input_stream(path, compression="detect") as source:
         return isinstance(source, pa.CompressedInputStream)
+
+
+def _is_url(path: str) -> bool:
+    return "://" in path
+
+
+def _codec(path: str) -> str | None:
+    """The compression a file name tells (`.gz`, `.bz2`, `.zst`, ...), as pyarrow detects it."""
+    try:
+        return pa.Codec.detect(path).name
+    except (ValueError, TypeError):
+        return None
+
+
+def _input(path: str) -> pa.NativeFile:
+    """The decompressed bytes of a file: a local path, or an fsspec URL (read as a stream)."""
+    if not _is_url(path):
+        return pa.input_stream(path, compression="detect")
+    from chainlint.profile.remote import filesystem  # fsspec comes with the dask extra
+
+    fs, inner = filesystem(path)
+    try:
+        handle = fs.open(inner, "rb")
+    except OSError as error:
+        raise DataError(f"cannot read: {error}", path=path) from None
+    codec = _codec(path)
+    return pa.input_stream(handle, compression=codec) if codec else pa.input_stream(handle)
+
+
+def _size(path: str) -> int:
+    if not _is_url(path):
+        return os.path.getsize(path)
+    from chainlint.profile.remote import filesystem
+
+    fs, inner = filesystem(path)
+    try:
+        return int(fs.size(inner))
+    except OSError as error:
+        raise DataError(f"cannot read: {error}", path=path) from None
 
 
 def _piece_end(data, codes: np.ndarray, start: int, limit: int, size: int) -> tuple[int, bool]:  # type: ignore[no-untyped-def]
@@ -291,10 +333,14 @@ def _csv_pieces(path: str) -> Iterator[tuple[pa.Buffer, int, bool]]:
     """(a piece of whole records, its byte offset in the decompressed text, whether it holds a
     quote)."""
     try:
-        source = pa.input_stream(path, compression="detect")
+        source = _input(path)
     except (pa.ArrowInvalid, OSError) as error:
         raise DataError(f"cannot read: {str(error).splitlines()[0]}", path=str(path)) from None
     if not isinstance(source, pa.CompressedInputStream):
+        if _is_url(path):
+            with source:
+                yield from _streamed_pieces(source, path)
+            return
         source.close()
         yield from _mapped_pieces(path)
         return
@@ -348,10 +394,38 @@ def _mapped_pieces(path: str) -> Iterator[tuple[pa.Buffer, int, bool]]:
         start = end
 
 
+def _streamed_pieces(source: pa.NativeFile, path: str) -> Iterator[tuple[pa.Buffer, int, bool]]:
+    """The pieces `_mapped_pieces` cuts, from a stream read once from the front (a file behind a
+    URL): each piece is cut by `_piece_end` over the bytes from its start, read on until the cut
+    is known (a line end outside quotes before the bytes read end, or the stream's end)."""
+
+    def more() -> bytes:
+        try:
+            return source.read(_CSV_BLOCK)
+        except (pa.ArrowInvalid, OSError) as error:
+            raise DataError(f"cannot read: {str(error).splitlines()[0]}", path=str(path)) from None
+
+    data, start, ended = b"", 0, False
+    while True:
+        while not ended and len(data) <= _CSV_BLOCK:  # past one block, so that the cut looks back from it
+            block = more()
+            data, ended = data + block, not block
+        if not data:
+            return
+        while True:
+            end, quoted = _piece_end(data, np.frombuffer(data, dtype=np.uint8), 0, min(len(data), _CSV_BLOCK), len(data))
+            if end < len(data) or ended:
+                break
+            block = more()  # no cut within what was read (a long quoted value): read on
+            data, ended = data + block, not block
+        yield pa.py_buffer(data[:end]), start, quoted
+        data, start = data[end:], start + end
+
+
 def _line_at(path: str, offset: int) -> int:
     """The line number of the byte at `offset` of the decompressed text (for error messages)."""
     lines = 1
-    with pa.input_stream(path, compression="detect") as source:
+    with _input(path) as source:
         while offset > 0:
             block = source.read(min(offset, 1 << 20))
             if not block:

@@ -1,6 +1,7 @@
 """A dataset cut into pieces that can be counted apart: Parquet row groups, CSV byte ranges that
 end on record boundaries, runs of an Arrow IPC file's record batches, whole JSON Lines, Arrow
-streams and compressed CSV files; behind fsspec URLs, a CSV or JSON Lines file is one piece.
+streams and compressed CSV files; behind fsspec URLs the same (a CSV file's ranges read as
+ranges of the URL, a JSON Lines file from a local copy).
 
 Each piece is read with the local path's own readers, so that its batches are the rows the
 local profile counts, in the same order; `count_piece` counts them with the local path's
@@ -22,7 +23,7 @@ import pyarrow.parquet as pq
 
 from chainlint.profile import formats, readers
 from chainlint.profile.files import data_format, dataset_files, sha256_of
-from chainlint.profile.csv_reader import CsvFile, _compressed, _mapped_pieces, open_csv
+from chainlint.profile.csv_reader import CsvFile, _compressed, _csv_pieces as _cut_csv, _size, open_csv
 from chainlint.profile.dtypes import pandas_schema
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import CsvOptions
@@ -105,8 +106,9 @@ class Plan:
 def plan_pieces(arguments: Sequence[str], batch_rows: int = BATCH_ROWS, csv: CsvOptions | None = None) -> Plan:
     """Cut DATA arguments into pieces, reading only what the cut needs: Parquet footers, the
     first CSV piece (it decides the types) and the CSV files' quote parity, the first JSON
-    Lines block, Arrow files' batch lengths (behind a URL, the first CSV or JSON Lines file is
-    read whole). Raises DataError naming the file, as the local path does."""
+    Lines block, Arrow files' batch lengths (behind a URL, each CSV file is read once as a
+    stream to cut it, and the first JSON Lines file is read whole). Raises DataError naming the
+    file, as the local path does."""
     csv = csv or CsvOptions()
     if any(is_url(argument) for argument in arguments):
         return _url_plan(arguments, batch_rows, csv)
@@ -134,8 +136,8 @@ def plan_pieces(arguments: Sequence[str], batch_rows: int = BATCH_ROWS, csv: Csv
 
 def _url_plan(arguments: Sequence[str], batch_rows: int, csv: CsvOptions) -> Plan:
     """Files behind fsspec URLs (a file, a glob, or a folder of files), read where the task
-    runs: a piece per Parquet row group or run of Arrow record batches, a CSV or JSON Lines
-    file whole."""
+    runs: a piece per Parquet row group, run of Arrow record batches or CSV byte range, a JSON
+    Lines file whole."""
     described: list[SourceFile] = []
     pieces: list[Piece] = []
     for argument in arguments:
@@ -172,15 +174,15 @@ def _url_plan(arguments: Sequence[str], batch_rows: int, csv: CsvOptions) -> Pla
                 raise DataError(f"not a readable Arrow/Feather file ({str(error).splitlines()[0]})", path=url) from None
             schema = schema or pandas_schema(other)
             pieces.extend(cut)
+    elif kind == "csv":
+        schema, first, rows_seen = open_csv(urls[0], csv)  # reads the first piece only
+        first.close()
+        sizes = [d.bytes for d in described]
+        expected = None if rows_seen is None else round(rows_seen * sum(sizes) / max(sizes[0], 1))
+        pieces = [piece for url in urls for piece in _csv_pieces(url)]
     else:
         with _opened(Piece(kind, urls[0])) as path:
-            if kind == "csv":
-                schema, first, rows_seen = open_csv(path, csv)
-                first.close()
-                sizes = [d.bytes for d in described]
-                expected = None if rows_seen is None else round(rows_seen * sum(sizes) / max(sizes[0], 1))
-            else:
-                schema, _, expected = formats.open_jsonl(path, batch_rows)
+            schema, _, expected = formats.open_jsonl(path, batch_rows)
         pieces = [Piece(kind, url) for url in urls]
     assert schema is not None
     readers._check_columns(schema, urls[0])
@@ -243,14 +245,15 @@ def _folder_pieces(paths: Sequence[str]) -> tuple[pa.Schema, pa.Schema, list[Pie
 
 
 def _csv_pieces(path: str) -> list[Piece]:
-    """The CSV reader's own cut: pieces of whole records, at line ends outside quotes."""
-    absolute = os.path.abspath(path)
+    """The CSV reader's own cut: pieces of whole records, at line ends outside quotes (a file
+    behind a URL read once as a stream to find them)."""
+    absolute = path if is_url(path) else os.path.abspath(path)
     if _compressed(path):
         return [Piece("csv", absolute)]
-    if os.path.getsize(path) == 0:
-        raise DataError(f"{path}: empty file")
+    if _size(path) == 0:
+        raise DataError("empty file", path=path)
     return [Piece("csv", absolute, None, start, start + len(buffer), quoted)
-            for buffer, start, quoted in _mapped_pieces(path)]
+            for buffer, start, quoted in _cut_csv(path)]
 
 
 def piece_batches(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
@@ -281,7 +284,13 @@ def _batches(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
     if piece.batches is not None:
         yield from _arrow_batches(piece, layout)
         return
-    opener = {"csv": lambda p, _: open_csv(p, layout.csv), "arrow": formats.open_arrow, "jsonl": formats.open_jsonl}[piece.kind]
+    if piece.kind == "csv":  # a compressed file, from its path or URL as a stream
+        schema, stream, _ = open_csv(piece.path, layout.csv)
+        _same_schema(schema, piece.path, layout)
+        for table in stream:
+            yield from table_batches(table, rows)
+        return
+    opener = {"arrow": formats.open_arrow, "jsonl": formats.open_jsonl}[piece.kind]
     with _opened(piece) as path:
         schema, stream, _ = opener(path, rows)
         _same_schema(schema, piece.path, layout)
@@ -331,15 +340,30 @@ def _row_group(path: str, group: int, rows: int) -> Iterator[pa.Table]:
 
 def _csv_range(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
     reader = CsvFile(piece.path, layout.csv)
-    with open(piece.path, "rb") as handle:
-        mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
-    buffer = pa.py_buffer(mapped).slice(piece.start, piece.end - piece.start)
+    buffer = _byte_range(piece)
     if piece.start == 0:
         table = reader.parse_first(buffer, piece.quoted)
         _same_schema(table.schema, piece.path, layout)
     else:
         table = reader.parse(buffer, piece.start, piece.quoted, {f.name: f.type for f in layout.schema})
     yield from table_batches(table, layout.batch_rows)
+
+
+def _byte_range(piece: Piece) -> pa.Buffer:
+    """A CSV piece's bytes: a slice of the memory-mapped file, or a range read from its URL."""
+    if not is_url(piece.path):
+        with open(piece.path, "rb") as handle:
+            mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
+        return pa.py_buffer(mapped).slice(piece.start, piece.end - piece.start)
+    fs, inner = filesystem(piece.path)
+    try:
+        data = fs.cat_file(inner, start=piece.start, end=piece.end)
+    except OSError as error:
+        raise DataError(f"cannot read: {error}", path=piece.path) from None
+    if len(data) != piece.end - piece.start:
+        raise DataError(f"the file is shorter than when the run began ({len(data)} of {piece.end - piece.start} bytes read)",
+                        path=piece.path)
+    return pa.py_buffer(data)
 
 
 def _same_schema(schema: pa.Schema, path: str, layout: Layout) -> None:
