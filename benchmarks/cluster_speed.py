@@ -1,7 +1,7 @@
 """Profiling on a Dask cluster against the local path, on this machine.
 
 Data: the generated table of `profile_speed.py` (40 columns), written as Parquet with row groups
-of `--group-rows` rows: one task per row group. For each number of worker processes a cluster
+of `--group-rows` rows: a task per run of row groups of about a million rows. For each number of worker processes a cluster
 is started as `--dask local:N` starts it (one task thread each, the cores shared out for pyarrow
 and the counting threads). What is counted, separately:
 - start-up: `connect("local:N")` until the client is ready (worker processes spawned);
@@ -70,7 +70,8 @@ def main() -> None:
         pq.write_table(make_table(options.rows), path, row_group_size=options.group_rows)
         plan = plan_pieces([path])
         print(f"{options.rows:,} rows x 40 columns, {os.path.getsize(path) / 1e6:.0f} MB Parquet, "
-              f"{len(plan.pieces)} row groups (tasks); {os.cpu_count()} cores; {load()}")
+              f"{pq.ParquetFile(path).metadata.num_row_groups} row groups in {len(plan.pieces)} tasks; "
+              f"{os.cpu_count()} cores; {load()}")
 
         def local() -> object:
             return profile_dataset(open_dataset([path]), "bench", SETTINGS)

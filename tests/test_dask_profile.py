@@ -22,7 +22,7 @@ from click.testing import CliRunner
 from flights import flights
 
 from chainlint.cli import main
-from chainlint.profile import csv_reader
+from chainlint.profile import csv_reader, pieces
 from chainlint.profile.build import profile_dataset
 from chainlint.profile.columns import Settings
 from chainlint.profile.errors import DataError
@@ -44,6 +44,12 @@ PIPELINE = '''def correlated(frame):
     return frame.loc[lambda d: d.dest == "HNL"].loc[lambda d: d.carrier == "HA"].loc[lambda d: d.distance > 1000]
 '''
 KEYS = Settings(sketch_key=bytes(range(32)), redaction_key=bytes(range(32, 64)))
+
+
+@pytest.fixture(autouse=True)
+def _a_task_per_row_group(monkeypatch: pytest.MonkeyPatch) -> None:
+    """The flights' 14 row groups of 25,000 rows as 14 tasks (the plan is made here, in the client)."""
+    monkeypatch.setattr(pieces, "PARQUET_PIECE_ROWS", 1)
 
 
 @pytest.fixture(scope="module")
@@ -114,11 +120,13 @@ def test_csv_byte_ranges_equal_the_local_profile(client, data: Path, monkeypatch
     _same_but_time(local, _run(client, plan, "flights", KEYS))
 
 
-def test_estimated_columns_stay_within_their_stated_error(client, data: Path) -> None:  # type: ignore[no-untyped-def]
+def test_estimated_columns_stay_within_their_stated_error(client, data: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # type: ignore[no-untyped-def]
+    monkeypatch.setattr(pieces, "PARQUET_PIECE_ROWS", 60_000)  # runs of three row groups
     settings = Settings(distinct_cap=300, sketch_key=KEYS.sketch_key)
     path = str(data / "flights.parquet")
     local = profile_dataset(open_dataset([path]), "flights", settings)
     plan = plan_pieces([path])
+    assert [p.groups for p in plan.pieces] == [3, 3, 3, 3, 2]
     first = _run(client, plan, "flights", settings)
     _same_but_time(first, _run(client, plan, "flights", settings))  # deterministic for a split
     frame = flights()
@@ -238,8 +246,6 @@ def test_csv_json_lines_and_arrow_urls_equal_the_local_profile(client, data: Pat
     # CSV file in byte ranges read as ranges of its URL, a JSON Lines file whole, an Arrow IPC
     # file in runs of its record batches.
     import pyarrow.ipc as paipc
-
-    from chainlint.profile import pieces
 
     monkeypatch.setattr(pieces, "ARROW_PIECE_ROWS", 4_000)
     monkeypatch.setattr(csv_reader, "_CSV_BLOCK", 1 << 18)  # 256 KB pieces: the client's cut

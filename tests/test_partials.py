@@ -35,6 +35,12 @@ from chainlint.cluster.sealing import PartialKeyError, open_partial, seal_partia
 SETTINGS = Settings(min_count=3, sketch_key=b"s" * 32, redaction_key=b"r" * 32, redact=frozenset({"code"}))
 
 
+@pytest.fixture(autouse=True)
+def _a_piece_per_row_group(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Small row groups, each its own piece: every seam between them is merged."""
+    monkeypatch.setattr(pieces, "PARQUET_PIECE_ROWS", 1)
+
+
 def _tree(path: Path | str, settings: Settings = SETTINGS, batch_rows: int = 7) -> dict:
     """Pieces counted one by one, sealed, and merged pairwise level by level, as on a cluster."""
     plan = plan_pieces([str(path)], batch_rows=batch_rows)
@@ -246,3 +252,34 @@ def test_a_csv_url_is_counted_in_byte_ranges(tmp_path: Path, monkeypatch: pytest
         _local(path)
     assert (raised.value.path, raised.value.line) == (url, locally.value.line)  # the local reader's place
     assert raised.value.reason == f"{locally.value.reason} (in bytes {bad.start}-{bad.end})" and bad.start > 0
+
+
+def test_small_row_groups_are_counted_in_runs(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(pieces, "PARQUET_PIECE_ROWS", 1_200)
+    path = tmp_path / "t.parquet"
+    pq.write_table(_table(10_000), path, row_group_size=500)  # 20 row groups of 500 rows
+    plan = plan_pieces([str(path)])
+    assert [(p.group, p.groups) for p in plan.pieces] == [(i, 3) for i in range(0, 18, 3)] + [(18, 2)]
+    assert plan.pieces[1].where() == f"row groups 3-5 of {path}"
+    merged, local = _tree(path, batch_rows=300), _local(path, batch_rows=300)
+    merged["created"] = local["created"]
+    assert dumps(merged) == dumps(local)
+
+
+def test_a_damaged_row_group_is_named_by_its_file_and_place(tmp_path: Path) -> None:
+    path = tmp_path / "t.parquet"
+    pq.write_table(_table(10_000), path, row_group_size=1_000)
+    chunk = pq.ParquetFile(path).metadata.row_group(5).column(1)  # `stop`, plain int64 pages
+    data = bytearray(path.read_bytes())
+    start = chunk.data_page_offset + 8
+    data[start:start + 32] = b"\xab" * 32  # the page header no longer decodes
+    path.write_bytes(bytes(data))
+    plan = plan_pieces([str(path)])
+    failed = {}
+    for piece in plan.pieces:
+        try:
+            count_piece(piece, plan.layout, SETTINGS, plan.expected_rows or 0)
+        except DataError as error:
+            failed[piece.group] = error
+    assert list(failed) == [5]
+    assert failed[5].path == str(path) and failed[5].reason.endswith("(in row group 5)")

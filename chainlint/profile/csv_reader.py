@@ -15,7 +15,6 @@ import csv
 import io
 import itertools
 import mmap
-import os
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 
@@ -23,9 +22,11 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.csv as pacsv
 
+from chainlint.profile.csv_places import first_failing_line, line_at
 from chainlint.profile.dtypes import pandas_schema, with_dtype
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import CsvOptions
+from chainlint.profile.remote import file_size, input_stream, is_url, named_codec
 
 _CSV_BLOCK = 32 << 20
 _CSV_PARSE_BLOCK = 1 << 20  # pyarrow's default; measured the quickest here
@@ -94,7 +95,7 @@ def _layout(path: str, options: CsvOptions, delimiter: str) -> _Layout:
     first = lead + (header[0] if header is not None else 0)
     encoding = "utf-8-sig" if codecs.lookup(options.encoding).name == "utf-8" else options.encoding
     try:
-        with _input(path) as raw:
+        with input_stream(path) as raw:
             text = io.TextIOWrapper(raw, encoding=encoding, newline="")  # type: ignore[arg-type]
             records = list(itertools.islice(csv.reader(text, delimiter=delimiter), first + max(levels, 1)))
     except UnicodeDecodeError as error:
@@ -200,12 +201,12 @@ class CsvFile:
                 pass
         if invalid:
             number, what = invalid[-1]
-            line = _line_at(path, offset) + number - 1 if number is not None else None
+            line = line_at(path, offset) + number - 1 if number is not None else None
             return DataError(f"malformed CSV row ({what})", path=str(path), line=line)
         if "utf8" in message.lower() or "utf-8" in message.lower():
             return DataError(f"not valid UTF-8 text ({message}); give its encoding", path=str(path))
         if "conversion error" in message.lower():
-            line = _line_at(path, offset) + _first_failing_line(piece, lambda prefix: _fails(run, prefix))
+            line = line_at(path, offset) + first_failing_line(piece, run)
             return DataError(f"{message} (the file's first part decided this column's type; "
                              "name its dtype, e.g. `str`, to read it otherwise)", path=str(path), line=line)
         return DataError(message, path=str(path))
@@ -221,7 +222,7 @@ def column_names(schema: pa.Schema, path: str) -> list[str]:
 
 def open_csv(path: str, options: CsvOptions) -> tuple[pa.Schema, Iterator[pa.Table], int | None]:
     """(schema, tables of the file's pieces, estimated row count)."""
-    size = _size(path)
+    size = file_size(path)
     if size == 0:
         raise DataError("empty file", path=str(path))
     reader = CsvFile(path, options)
@@ -249,49 +250,10 @@ def open_csv(path: str, options: CsvOptions) -> tuple[pa.Schema, Iterator[pa.Tab
 
 
 def _compressed(path: str) -> bool:
-    if _is_url(path):
-        return _codec(path) is not None
+    if is_url(path):
+        return named_codec(path) is not None
     with pa.input_stream(path, compression="detect") as source:
         return isinstance(source, pa.CompressedInputStream)
-
-
-def _is_url(path: str) -> bool:
-    return "://" in path
-
-
-def _codec(path: str) -> str | None:
-    """The compression a file name tells (`.gz`, `.bz2`, `.zst`, ...), as pyarrow detects it."""
-    try:
-        return pa.Codec.detect(path).name
-    except (ValueError, TypeError):
-        return None
-
-
-def _input(path: str) -> pa.NativeFile:
-    """The decompressed bytes of a file: a local path, or an fsspec URL (read as a stream)."""
-    if not _is_url(path):
-        return pa.input_stream(path, compression="detect")
-    from chainlint.profile.remote import filesystem  # fsspec comes with the dask extra
-
-    fs, inner = filesystem(path)
-    try:
-        handle = fs.open(inner, "rb")
-    except OSError as error:
-        raise DataError(f"cannot read: {error}", path=path) from None
-    codec = _codec(path)
-    return pa.input_stream(handle, compression=codec) if codec else pa.input_stream(handle)
-
-
-def _size(path: str) -> int:
-    if not _is_url(path):
-        return os.path.getsize(path)
-    from chainlint.profile.remote import filesystem
-
-    fs, inner = filesystem(path)
-    try:
-        return int(fs.size(inner))
-    except OSError as error:
-        raise DataError(f"cannot read: {error}", path=path) from None
 
 
 def _piece_end(data, codes: np.ndarray, start: int, limit: int, size: int) -> tuple[int, bool]:  # type: ignore[no-untyped-def]
@@ -333,11 +295,11 @@ def _csv_pieces(path: str) -> Iterator[tuple[pa.Buffer, int, bool]]:
     """(a piece of whole records, its byte offset in the decompressed text, whether it holds a
     quote)."""
     try:
-        source = _input(path)
+        source = input_stream(path)
     except (pa.ArrowInvalid, OSError) as error:
         raise DataError(f"cannot read: {str(error).splitlines()[0]}", path=str(path)) from None
     if not isinstance(source, pa.CompressedInputStream):
-        if _is_url(path):
+        if is_url(path):
             with source:
                 yield from _streamed_pieces(source, path)
             return
@@ -420,40 +382,3 @@ def _streamed_pieces(source: pa.NativeFile, path: str) -> Iterator[tuple[pa.Buff
             data, ended = data + block, not block
         yield pa.py_buffer(data[:end]), start, quoted
         data, start = data[end:], start + end
-
-
-def _line_at(path: str, offset: int) -> int:
-    """The line number of the byte at `offset` of the decompressed text (for error messages)."""
-    lines = 1
-    with _input(path) as source:
-        while offset > 0:
-            block = source.read(min(offset, 1 << 20))
-            if not block:
-                break
-            lines += block.count(b"\n")
-            offset -= len(block)
-    return lines
-
-
-def _fails(run: Callable[[bool, pa.Buffer], pa.Table], data: pa.Buffer) -> bool:
-    try:
-        run(False, data)
-    except (pa.ArrowInvalid, pa.ArrowTypeError):
-        return True
-    return False
-
-
-def _first_failing_line(piece: pa.Buffer, fails: Callable[[pa.Buffer], bool]) -> int:
-    """The index of the piece's first line whose values do not convert: the shortest prefix of
-    whole lines that fails to parse, found by bisection (only on the error path)."""
-    ends = np.flatnonzero(np.frombuffer(piece, dtype=np.uint8) == 10) + 1
-    if not ends.size or ends[-1] != len(piece):
-        ends = np.append(ends, len(piece))
-    low, high = 0, len(ends) - 1
-    while low < high:
-        middle = (low + high) // 2
-        if fails(piece.slice(0, int(ends[middle]))):
-            high = middle
-        else:
-            low = middle + 1
-    return low

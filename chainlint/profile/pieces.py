@@ -23,12 +23,12 @@ import pyarrow.parquet as pq
 
 from chainlint.profile import formats, readers
 from chainlint.profile.files import data_format, dataset_files, sha256_of
-from chainlint.profile.csv_reader import CsvFile, _compressed, _csv_pieces as _cut_csv, _size, open_csv
+from chainlint.profile.csv_reader import CsvFile, _compressed, _csv_pieces as _cut_csv, open_csv
 from chainlint.profile.dtypes import pandas_schema
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import CsvOptions
 from chainlint.profile.remote import described as described_url
-from chainlint.profile.remote import filesystem, is_url, listed, local_copy, url_digest
+from chainlint.profile.remote import file_size, filesystem, is_url, listed, local_copy, url_digest
 from chainlint.profile.files import SourceFile
 from chainlint.profile.formats import table_batches
 from chainlint.profile.readers import BATCH_ROWS
@@ -42,7 +42,8 @@ class Piece:
 
     kind: str
     path: str
-    group: int | None = None  # a Parquet row group
+    group: int | None = None  # a Parquet row group, the first of `groups` in a row
+    groups: int = 1
     start: int = 0  # a CSV byte range [start, end) of whole records; end 0: the whole file
     end: int = 0
     quoted: bool = False  # the range holds a quote (values may hold line breaks)
@@ -54,7 +55,7 @@ class Piece:
     def part(self) -> str | None:
         """The piece within its file, as an error message names it; None for a whole file."""
         if self.group is not None:
-            return f"row group {self.group}"
+            return f"row group {self.group}" if self.groups == 1 else f"row groups {self.group}-{self.group + self.groups - 1}"
         if self.batches is not None:
             return f"record batches {self.batches[0]}-{self.batches[1] - 1}"
         if self.end:
@@ -161,7 +162,7 @@ def _url_plan(arguments: Sequence[str], batch_rows: int, csv: CsvOptions) -> Pla
                 schema = other
             elif not other.equals(schema):
                 raise readers._differs(url, urls[0])
-            pieces.extend(Piece("parquet", url, group) for group in range(handle.metadata.num_row_groups))
+            pieces.extend(Piece("parquet", url, first, count) for first, count in _group_runs(handle.metadata))
             rows += handle.metadata.num_rows
         expected = rows
     elif kind == "arrow":
@@ -194,6 +195,27 @@ def file_digest(path: str) -> str:
     return url_digest(path) if is_url(path) else sha256_of(path)
 
 
+#: Rows a Parquet file's piece holds at least (whole row groups in a row), where the file has them.
+PARQUET_PIECE_ROWS = 1_000_000
+
+
+def _group_runs(metadata: pq.FileMetaData) -> list[tuple[int, int]]:
+    """(first row group, how many) of each piece of a Parquet file: row groups in a row until
+    the piece holds PARQUET_PIECE_ROWS rows. A task per small row group would pay a task's
+    fixed costs (a partial to build and merge, a file to open, reading not overlapped with
+    counting) for little counting; a row group of that many rows is a piece alone."""
+    runs: list[tuple[int, int]] = []
+    first, rows = 0, 0
+    for group in range(metadata.num_row_groups):
+        rows += metadata.row_group(group).num_rows
+        if rows >= PARQUET_PIECE_ROWS:
+            runs.append((first, group + 1 - first))
+            first, rows = group + 1, 0
+    if first < metadata.num_row_groups:
+        runs.append((first, metadata.num_row_groups - first))
+    return runs
+
+
 #: Rows an Arrow IPC file's piece holds at least (whole record batches), where the file has them.
 ARROW_PIECE_ROWS = 1 << 20
 
@@ -223,8 +245,8 @@ def _parquet_pieces(files: list[str]) -> tuple[pa.Schema, list[Piece], int]:
             schema = other
         elif not other.equals(schema):
             raise readers._differs(path, files[0])
-        groups = pq.ParquetFile(path).metadata.num_row_groups
-        pieces.extend(Piece("parquet", os.path.abspath(path), group) for group in range(groups))
+        runs = _group_runs(pq.ParquetFile(path).metadata)
+        pieces.extend(Piece("parquet", os.path.abspath(path), first, count) for first, count in runs)
         rows += count or 0
     assert schema is not None
     return schema, pieces, rows
@@ -250,9 +272,9 @@ def _csv_pieces(path: str) -> list[Piece]:
     absolute = path if is_url(path) else os.path.abspath(path)
     if _compressed(path):
         return [Piece("csv", absolute)]
-    if _size(path) == 0:
+    if file_size(path) == 0:
         raise DataError("empty file", path=path)
-    return [Piece("csv", absolute, None, start, start + len(buffer), quoted)
+    return [Piece("csv", absolute, start=start, end=start + len(buffer), quoted=quoted)
             for buffer, start, quoted in _cut_csv(path)]
 
 
@@ -276,7 +298,7 @@ def _batches(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
             yield pa.Table.from_batches([batch])
         return
     if piece.group is not None:
-        yield from _row_group(piece.path, piece.group, rows)
+        yield from _row_groups(piece.path, piece.group, piece.groups, rows)
         return
     if piece.kind == "csv" and piece.end:
         yield from _csv_range(piece, layout)
@@ -331,11 +353,13 @@ def _parquet_handle(inner: str, fs: Any, shown: str) -> tuple[pq.ParquetFile, pa
         raise DataError(f"not a readable Parquet file ({str(error).splitlines()[0]})", path=shown) from None
 
 
-def _row_group(path: str, group: int, rows: int) -> Iterator[pa.Table]:
+def _row_groups(path: str, first: int, count: int, rows: int) -> Iterator[pa.Table]:
+    """Row groups in a row, a reader per group as the local path reads them."""
     fs, inner = filesystem(path) if is_url(path) else (None, path)
     handle, _ = _parquet_handle(inner, fs, path)
-    for batch in handle.iter_batches(batch_size=rows, row_groups=[group]):
-        yield pa.Table.from_batches([batch])
+    for group in range(first, first + count):
+        for batch in handle.iter_batches(batch_size=rows, row_groups=[group]):
+            yield pa.Table.from_batches([batch])
 
 
 def _csv_range(piece: Piece, layout: Layout) -> Iterator[pa.Table]:

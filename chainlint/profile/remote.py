@@ -1,6 +1,6 @@
 """Data behind fsspec URLs (`s3://`, `gs://`, `https://`, `file://`, `memory://`, ...), for the
-pieces of a dataset: listing, a file's sha256, and a local copy for the readers that take a
-path. fsspec comes with the `chainlint[dask]` extra; each URL scheme's implementation (s3fs,
+pieces of a dataset: listing, a file's sha256, its bytes as a stream (beside a local path's), and
+a local copy for the readers that take a path. fsspec comes with the `chainlint[dask]` extra; each URL scheme's implementation (s3fs,
 gcsfs, ...) is installed as the data needs."""
 
 from __future__ import annotations
@@ -14,12 +14,46 @@ from contextlib import contextmanager
 from datetime import UTC, datetime
 from typing import Any
 
+import pyarrow as pa
+
 from chainlint.profile.errors import DataError
 from chainlint.profile.files import SourceFile
 
 
 def is_url(path: str) -> bool:
     return "://" in path
+
+
+def named_codec(path: str) -> str | None:
+    """The compression a file name tells (`.gz`, `.bz2`, `.zst`, ...), as pyarrow detects it."""
+    try:
+        return pa.Codec.detect(path).name
+    except (ValueError, TypeError):
+        return None
+
+
+def input_stream(path: str) -> pa.NativeFile:
+    """The decompressed bytes of a local file or of the file at a URL, read as a stream."""
+    if not is_url(path):
+        return pa.input_stream(path, compression="detect")
+    fs, inner = filesystem(path)
+    try:
+        handle = fs.open(inner, "rb")
+    except OSError as error:
+        raise DataError(f"cannot read: {error}", path=path) from None
+    codec = named_codec(path)
+    return pa.input_stream(handle, compression=codec) if codec else pa.input_stream(handle)
+
+
+def file_size(path: str) -> int:
+    """The size in bytes of a local file or of the file at a URL."""
+    if not is_url(path):
+        return os.path.getsize(path)
+    fs, inner = filesystem(path)
+    try:
+        return int(fs.size(inner))
+    except OSError as error:
+        raise DataError(f"cannot read: {error}", path=path) from None
 
 
 def filesystem(url: str) -> tuple[Any, str]:
@@ -64,12 +98,21 @@ def described(fs: Any, path: str) -> SourceFile:
     return SourceFile(fs.unstrip_protocol(path), int(info["size"]), modified)
 
 
+#: Bytes a file's digest reads at a time.
+_DIGEST_BLOCK = 8 << 20
+
+
 def url_digest(url: str) -> str:
+    """The sha256 of the file at `url`, read in ranges: no open handle to share with the task
+    reading the file beside it (fsspec's memory filesystem hands every opener the same one)."""
     fs, inner = filesystem(url)
     digest = hashlib.sha256()
-    with fs.open(inner, "rb") as handle:
-        for chunk in iter(lambda: handle.read(1 << 20), b""):
-            digest.update(chunk)
+    try:
+        size = int(fs.size(inner))
+        for start in range(0, size, _DIGEST_BLOCK):
+            digest.update(fs.cat_file(inner, start=start, end=min(size, start + _DIGEST_BLOCK)))
+    except OSError as error:
+        raise DataError(f"cannot read: {error}", path=url) from None
     return digest.hexdigest()
 
 
