@@ -120,6 +120,7 @@ def test_the_frame_measure_runs_on_has_the_dtypes_pandas_reads(written: dict[str
 def test_pieces_merged_give_the_local_profile(written: dict[str, Path], kind: str, monkeypatch: pytest.MonkeyPatch) -> None:
     # The cluster path's counting in-process (tests/test_dask_profile.py runs it on a cluster).
     monkeypatch.setattr(pieces, "ARROW_PIECE_ROWS", 9_000)  # a piece per record batch
+    monkeypatch.setattr(pieces, "PARQUET_PIECE_ROWS", 1)  # a piece per row group
     settings = Settings(min_count=3, sketch_key=b"s" * 32)
     local = profile_dataset(open_dataset([str(written[kind])], batch_rows=5_000), "t", settings)
     plan = plan_pieces([str(written[kind])], batch_rows=5_000)
