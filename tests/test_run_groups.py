@@ -173,6 +173,27 @@ def test_which_statements_of_a_run_may_become_one(source: str, joins: bool) -> N
     assert _joinable(source) is joins
 
 
+_THROUGH_TEXT = "def f(df, other, log):\n    north = df[df.a > 1]\n    {between}late = north[north.b < 2]\n    return late{after}\n"
+
+
+@pytest.mark.parametrize(("between", "after"), [
+    # pandas resolves `@north` in a query among the caller's variables (pandas docs, DataFrame.query).
+    ("", ", other.query('a in @north.a')"),
+    # `pd.eval` reads the caller's variables by their bare names (pandas docs, pandas.eval).
+    ("", ", pd.eval('north.a + 1')"),
+    # `eval`, `locals()`: any name may be read.
+    ("", ", eval('north')"),
+    ("", ", locals()"),
+    ("log(other.query('a in @north.a'))\n    ", ""),
+    ("log(eval('len(north)'))\n    ", ""),
+])
+def test_a_frame_read_through_text_keeps_its_statement(between: str, after: str) -> None:
+    source = _THROUGH_TEXT.format(between=between, after=after)
+    runs = [c for c in analyse_source(text_source("case.py", source)).chains if c.form is ChainForm.STATEMENTS]
+    assert not runs or not runs[0].steps[1].movable, source
+    assert not _joinable(source)
+
+
 def test_statements_with_a_type_annotation_or_two_targets_are_no_run_members() -> None:
     for source in ("out: pd.DataFrame = df[df.a > 1]\nout = out[out.b < 2]\n",
                    "out = other = df[df.a > 1]\nout = out[out.b < 2]\n"):

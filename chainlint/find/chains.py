@@ -17,7 +17,7 @@ from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
 from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
 from chainlint.find.positions import Positions
-from chainlint.find.runs import Memo, Walked, inplace_dropna, joined, mentioned, reads
+from chainlint.find.runs import Memo, Walked, inplace_dropna, joined, mentioned, read_elsewhere, reads
 from chainlint.find.screen import Seams
 from chainlint.find.shapes import Masks, Names, Shape, is_mask_value, mask_frames, module_names, peel, rows_axis
 from chainlint.find.steps import StepContext, build_step, selected_columns
@@ -363,9 +363,9 @@ class _Finder:
             outer = frozenset(name for name in (root, own) if name)
             built = list(self.steps(member.decomposed, own, outer, statement=number, assigned=assigned))
             before = members[number - 1].target if number else None
-            if before is not None and before != member.target and self.reads[id(scope)][before] > inside[before]:
-                reason = f"`{before}`, the frame this step receives, is read elsewhere: no step moves across its statement"
-                built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, reason))
+            elsewhere = read_elsewhere(self.reads[id(scope)], inside, before) if before not in (None, member.target) else None
+            if elsewhere:
+                built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, elsewhere))
             elif member.fence is not None:
                 reason = f"`{member.fence}` is assigned between this filter and the one before: no step moves across that statement"
                 built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, reason))

@@ -27,9 +27,38 @@ from chainlint.model import Step
 _SIMPLE = (ast.Expr, ast.Assign, ast.AnnAssign, ast.AugAssign, ast.Import, ast.ImportFrom)
 
 
+#: Calls that read their caller's names at run time, out of the code's sight.
+_DYNAMIC = frozenset({"eval", "exec", "locals", "vars", "globals"})
+#: The key under which a statement that may read any name (`_DYNAMIC`) is counted.
+ANY_NAME = "*"
+_LOCAL = re.compile(r"@([A-Za-z_][A-Za-z_0-9]*)")
+_WORD = re.compile(r"[A-Za-z_][A-Za-z_0-9]*")
+
+
+def text_reads(node: ast.AST) -> list[str]:
+    """Names read through text: `@name` in a `.query`/`.eval` string (pandas resolves it among
+    the caller's variables), every word of a `pd.eval`/`eval` string, and `ANY_NAME` for a bare
+    call of `eval`, `exec`, `locals`, `vars` or `globals`. More than pandas reads, never less."""
+    found: list[str] = []
+    for call in ast.walk(node):
+        if not isinstance(call, ast.Call):
+            continue
+        func = call.func
+        name = func.attr if isinstance(func, ast.Attribute) else func.id if isinstance(func, ast.Name) else None
+        if isinstance(func, ast.Name) and name in _DYNAMIC:
+            found.append(ANY_NAME)
+        if name in ("query", "eval"):
+            pattern = _WORD if name == "eval" else _LOCAL
+            for argument in [*call.args, *(k.value for k in call.keywords)]:
+                for text in ast.walk(argument):
+                    if isinstance(text, ast.Constant) and isinstance(text.value, str):
+                        found.extend(pattern.findall(text.value))
+    return found
+
+
 def mentioned(node: ast.AST) -> set[str]:
-    """Every name a statement or expression reads or writes."""
-    return {n.id for n in ast.walk(node) if isinstance(n, ast.Name)}
+    """Every name a statement or expression reads or writes, in code or through text."""
+    return {n.id for n in ast.walk(node) if isinstance(n, ast.Name)} | set(text_reads(node))
 
 
 def bound(statement: ast.stmt) -> set[str]:
@@ -114,10 +143,11 @@ class Walked:
         if self._walls is None:
             self._walls = []
             for number, statement in enumerate(self.statements):
-                if not isinstance(statement, _SIMPLE):
+                names = self._memo.mentioned(statement)
+                if not isinstance(statement, _SIMPLE) or ANY_NAME in names:
                     self._walls.append(number)
                     continue
-                for name in self._memo.mentioned(statement):
+                for name in names:
                     self._mentions.setdefault(name, []).append(number)
         found = len(self.statements)
         for numbers in [self._walls, *(self._mentions.get(frame, ()) for frame in frames)]:
@@ -146,22 +176,24 @@ def reads(node: ast.AST) -> Counter[str]:
     is read elsewhere than in a run when its scope reads it more often than the run's
     statements do (a read inside the run is a barrier of its own: a mask of another frame,
     or a name the run assigns); counting the scope once serves all its runs."""
-    return Counter(n.id for n in ast.walk(node) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Load))
-
-
-def mentions(node: ast.AST) -> Counter[str]:
-    """How many times each name appears in `node` in any role (read, bound, deleted, declared
-    `global` or `nonlocal`): a name a run binds may stop being bound only where the run's own
-    statements are all its mentions in the scope."""
-    counted: Counter[str] = Counter()
-    for n in ast.walk(node):
-        if isinstance(n, ast.Name):
-            counted[n.id] += 1
-        elif isinstance(n, (ast.Global, ast.Nonlocal)):
-            counted.update(n.names)
+    counted = Counter(n.id for n in ast.walk(node) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Load))
+    counted.update(text_reads(node))
     return counted
 
 
+def read_elsewhere(counts: Counter[str], inside: Counter[str], name: str) -> str | None:
+    """Why the statement binding `name`, the frame a run's step receives, must stay: its scope
+    (`counts`, from `reads`) reads it besides the run's own statements (`inside`), or may read
+    any name at run time; else None."""
+    if counts[ANY_NAME]:
+        how = "may be read by name at run time (`eval`, `locals()`, ...)"
+    elif counts[name] > inside[name]:
+        how = "is read elsewhere"
+    else:
+        return None
+    return f"`{name}`, the frame this step receives, {how}: no step moves across its statement"
+
+
 def mentions(node: ast.AST) -> Counter[str]:
     """How many times each name appears in `node` in any role (read, bound, deleted, declared
     `global` or `nonlocal`): a name a run binds may stop being bound only where the run's own
@@ -172,6 +204,7 @@ def mentions(node: ast.AST) -> Counter[str]:
             counted[n.id] += 1
         elif isinstance(n, (ast.Global, ast.Nonlocal)):
             counted.update(n.names)
+    counted.update(text_reads(node))
     return counted
 
 
@@ -201,7 +234,7 @@ def joined(members: Sequence[Member], steps: list[Step], scope: ast.AST, positio
         if merges and name != members[number][1]:
             if id(scope) not in counted:
                 counted[id(scope)] = mentions(scope)
-            merges = named and counted[id(scope)][name] == inside[name]
+            merges = named and counted[id(scope)][name] == inside[name] and not counted[id(scope)][ANY_NAME]
         out.append(replace(step, alone=alone[number], merges=merges))
     return out
 
