@@ -25,12 +25,14 @@ from chainlint.writer import WriteError, read_snapshot, write_file
 
 @dataclass(frozen=True)
 class FileFix:
-    """The rewrite of one file: its old and new text, or why it cannot be rewritten."""
+    """The rewrite of one file: its old and new text, or why it cannot be rewritten; `edits`
+    made the new text from the old (none known when a notebook's cells were written back)."""
 
     path: str
     source: SourceText | None
     new_text: str | None
     error: str | None = None
+    edits: tuple[Edit, ...] | None = None
 
 
 def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -> tuple[list[Finding], dict[str, FileFix]]:
@@ -73,7 +75,7 @@ def attach_fixes(findings: Sequence[Finding], results: Sequence[FileAnalysis]) -
                     if after.fix is not None:
                         updated[id(before)] = replace(after, fix=None, fix_error=str(error))
         elif edits:
-            files[path] = FileFix(path, source, apply_edits(source.text, edits))
+            files[path] = FileFix(path, source, apply_edits(source.text, edits), edits=tuple(edits))
     return [updated.get(id(f), f) for f in findings], files
 
 
