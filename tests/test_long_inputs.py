@@ -9,6 +9,8 @@ change a finding, a message or a byte of the fixed text. (How the time grows wit
 from __future__ import annotations
 
 import json
+import random
+import re
 from pathlib import Path
 
 import pytest
@@ -103,3 +105,56 @@ def test_a_long_file_is_checked_and_fixed_as_its_chains_one_file_each() -> None:
     fixed_apart = "".join(Path(name).read_text()[len(_HEADER):] for name in names)
     assert Path("whole.py").read_text() == _HEADER + fixed_apart
     assert fixed_apart != "".join(pieces)
+
+
+def _fence_reference(lines: list[str]) -> dict[int, str | None]:
+    """The fence of each filter of a one-run function (by line), by the rule the finder states:
+    of the statements stepped over before a filter, the earliest binding a name that a filter
+    before it reads, its first such name; else, the first later filter reading a name one of
+    them binds fences it, with the earliest such statement's first such name. (The test's own
+    statement of the rule, looking at every pair; the finder looks up only the names read.)"""
+    filters = [(n, set(re.findall(r"\bv\d+\b", line))) for n, line in enumerate(lines, 1) if "scans[" in line]
+    stepped: dict[int, list[set[str]]] = {}
+    previous = filters[0][0]  # the run starts at its first filter
+    for number, _ in filters:
+        stepped[number] = [set(re.findall(r"\bv\d+\b", line.split("=")[0]))
+                           for line in lines[previous:number - 1] if "scans" not in line and "def " not in line]
+        previous = number
+    fences: dict[int, str | None] = {}
+    for place, (number, _) in enumerate(filters):
+        read = set().union(*(names for _, names in filters[:place]))
+        fence = next((min(names & read) for names in stepped[number] if names & read), None)
+        for _, value in filters[place:] if fence is None else ():
+            fence = next((min(names & value) for names in stepped[number] if names & value), None)
+            if fence is not None:
+                break
+        fences[number] = fence
+    return fences
+
+
+@pytest.mark.usefixtures("project")
+def test_a_long_run_fences_each_filter_after_an_assignment_of_a_name_a_filter_reads() -> None:
+    # Many names, each filter reading few: a fence comes as often from a later filter as from
+    # an earlier one, and several statements stepped over may bind names read.
+    rng = random.Random(18)
+    names = [f"v{n}" for n in range(120)]
+    body = []
+    for number in range(500):
+        if rng.random() < 0.6:
+            first, second = rng.sample(names, 2)
+            body.append(f"    {first} = {number}\n" if rng.random() < 0.6 else f"    {first}, {second} = 1, {number}\n")
+        else:
+            read = " & ".join(f"(scans.weight_kg > {name})" for name in rng.sample(names, rng.randint(0, 2))) or "scans.weight_kg > 0.5"
+            body.append(f"    scans = scans[{read}]\n")
+    lines = ["def g(scans):  # chainlint: profile=parcel_scans\n", *(f"    {name} = 0\n" for name in names), *body, "    return scans\n"]
+    Path("run.py").write_text("".join(lines))
+    (chain,) = json.loads(CliRunner().invoke(main, ["explain", "run.py", "--jobs", "1", "--format", "json"]).output)["chains"]
+    reasons: dict[int, str] = {}
+    for step in chain["steps"]:  # a filter's fence stands on its first step
+        reasons.setdefault(step["line"], step["reason"] or "")
+    expected = _fence_reference(lines)
+    assert sorted(reasons) == sorted(expected)
+    for line, fence in expected.items():
+        found = re.match(r"`(\w+)` is assigned between", reasons[line])
+        assert (found and found[1]) == fence, (line, reasons[line])
+    assert sum(fence is not None for fence in expected.values()) > 50

@@ -17,7 +17,7 @@ from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
 from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
 from chainlint.find.positions import Positions
-from chainlint.find.runs import Memo, Walked, inplace_dropna, joined, mentioned, read_elsewhere, reads
+from chainlint.find.runs import Fences, Memo, Walked, inplace_dropna, joined, mentioned, read_elsewhere, reads
 from chainlint.find.screen import Seams
 from chainlint.find.shapes import Masks, Names, Shape, is_mask_value, mask_frames, module_names, peel, rows_axis
 from chainlint.find.steps import StepContext, build_step, selected_columns
@@ -298,33 +298,26 @@ class _Finder:
                 index += 1
                 continue
             members = [_Member(statements[index], first[0], first[1])]
-            frames = {first[0]}
+            scan = walked.scan(first[0])
             read: set[str] | None = None  # the names the run's filters read, once it has a second
-            # Names bound by the statements stepped over, by the member that follows them.
-            between: list[tuple[int, set[str]]] = []
-            fences: dict[int, str] = {}
+            fences = Fences()
             following = last = index + 1
-            while (stop := walked.stop(following, frames)) < len(statements):
+            while (stop := scan.stop(following)) < len(statements):
                 later = filtering(stop)
                 if later is None or dotted_name(later[1].base) != members[-1].target:
                     break  # a statement the run may not step over
                 if read is None:
                     read = mentioned(first[1].shapes[-1].node)
-                for statement in statements[following:stop]:  # stepped over
-                    names = walked.bound(statement)
-                    between.append((len(members), names))
-                    if names & read:
-                        fences.setdefault(len(members), sorted(names & read)[0])
+                for number in range(following, stop):  # stepped over
+                    fences.stepped(len(members), number, walked.bound(statements[number]), read)
                 value = mentioned(later[1].shapes[-1].node)
-                for number, names in between:
-                    if names & value:
-                        fences.setdefault(number, sorted(names & value)[0])
+                fences.filter_reads(value)
                 members.append(_Member(statements[stop], later[0], later[1]))
-                frames.add(later[0])
+                scan.add(later[0])
                 read |= value
                 following = last = stop + 1
             if len(members) >= 2:
-                members = [replace(m, fence=fences.get(n)) for n, m in enumerate(members)]
+                members = [replace(m, fence=fences.found.get(n)) for n, m in enumerate(members)]
             if len(members) >= 2 and self.seams.meets(members[0].statement.lineno, members[-1].statement.end_lineno or 0):
                 found[index] = members
                 for member in members:

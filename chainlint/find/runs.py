@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import ast
 import bisect
+import heapq
 import re
 from collections import Counter
 from collections.abc import Sequence
@@ -135,11 +136,8 @@ class Walked:
     def bound(self, statement: ast.stmt) -> set[str]:
         return self._memo.bound(statement)
 
-    def stop(self, start: int, frames: set[str]) -> int:
-        """The index of the first statement from `start` on that a run of `frames` may not step
-        over (it is not simple, or it mentions one of the frames; a later filter of the run
-        mentions its frame), or the block's length. Every statement before it is one the run
-        may step over."""
+    def scan(self, frame: str) -> Scan:
+        """Where a run starting with `frame` stops, as the run takes more frames."""
         if self._walls is None:
             self._walls = []
             for number, statement in enumerate(self.statements):
@@ -149,12 +147,74 @@ class Walked:
                     continue
                 for name in names:
                     self._mentions.setdefault(name, []).append(number)
-        found = len(self.statements)
-        for numbers in [self._walls, *(self._mentions.get(frame, ()) for frame in frames)]:
-            at = bisect.bisect_left(numbers, start)
+        return Scan(len(self.statements), self._walls, self._mentions, frame)
+
+
+class Scan:
+    """The stops of one run's scan: its start only moves forward and its frames only grow, so
+    each frame's next mention is kept in a heap and moved on only when the start passes it (a
+    run renaming its frame at every statement has as many frames as statements; looking each
+    up at every stop made the scan quadratic)."""
+
+    def __init__(self, length: int, walls: list[int], mentions: dict[str, list[int]], frame: str) -> None:
+        self._length = length
+        self._walls = walls
+        self._mentions = mentions
+        self._start = 0
+        self._next: list[tuple[int, int, str]] = []  # (statement, its place in the frame's mentions, frame)
+        self._frames: set[str] = set()
+        self.add(frame)
+
+    def add(self, frame: str) -> None:
+        if frame in self._frames:
+            return
+        self._frames.add(frame)
+        numbers = self._mentions.get(frame, [])
+        at = bisect.bisect_left(numbers, self._start)
+        if at < len(numbers):
+            heapq.heappush(self._next, (numbers[at], at, frame))
+
+    def stop(self, start: int) -> int:
+        """The index of the first statement from `start` on that the run may not step over (it
+        is not simple, or it mentions one of the frames; a later filter of the run mentions its
+        frame), or the block's length. Every statement before it is one the run may step over."""
+        self._start = start
+        while self._next and self._next[0][0] < start:
+            _, at, frame = heapq.heappop(self._next)
+            numbers = self._mentions[frame]
+            at = bisect.bisect_left(numbers, start, at + 1)
             if at < len(numbers):
-                found = min(found, numbers[at])
-        return found
+                heapq.heappush(self._next, (numbers[at], at, frame))
+        wall = bisect.bisect_left(self._walls, start)
+        found = self._walls[wall] if wall < len(self._walls) else self._length
+        return min(found, self._next[0][0]) if self._next else found
+
+
+class Fences:
+    """The name fencing each member of a run (by its number): one that a statement stepped
+    over before the member binds and a filter of the run reads, the earliest such statement's
+    first by name. A bound name is looked up when a filter reads it, and dropped once it has
+    fenced its members, not every statement stepped over compared with every later filter."""
+
+    def __init__(self) -> None:
+        self.found: dict[int, str] = {}
+        self._binders: dict[str, list[tuple[int, int]]] = {}  # name -> (member, statement)
+
+    def stepped(self, member: int, statement: int, names: set[str], read: set[str]) -> None:
+        """A statement stepped over before `member`, binding `names`; `read` by the filters so far."""
+        if names & read:
+            self.found.setdefault(member, min(names & read))
+        for name in names:
+            self._binders.setdefault(name, []).append((member, statement))
+
+    def filter_reads(self, value: set[str]) -> None:
+        """A filter of the run reads `value`: it fences every member after a statement binding one."""
+        hits: dict[int, tuple[int, str]] = {}
+        for name in value:
+            for member, statement in self._binders.pop(name, ()):
+                if member not in self.found:
+                    hits[member] = min(hits.get(member, (statement, name)), (statement, name))
+        self.found.update((member, name) for member, (_, name) in hits.items())
 
 
 def inplace_dropna(statement: ast.stmt) -> ast.Call | None:
