@@ -164,3 +164,41 @@ def test_gnu_patch_applies_the_diff(tmp_path: Path, old: str, start: int, end: i
     (tmp_path / "fix.diff").write_bytes(_diff(old, edits).encode())
     subprocess.run(["patch", "-p1", "--quiet", "-i", "fix.diff"], cwd=tmp_path, check=True, timeout=60)
     assert (tmp_path / "m.py").read_bytes() == apply_edits(old, edits).encode()
+
+
+def test_a_long_file_is_compared_only_near_its_edits(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Counted, not timed: difflib sees a few lines around each edit, not the whole file (the
+    whole-file comparison rescanned the rest of the file at every unchanged stretch)."""
+    from chainlint.report import diff
+
+    compared: list[int] = []
+    real = difflib.SequenceMatcher
+
+    def counted(junk, a, b):  # type: ignore[no-untyped-def]
+        compared.append(len(a) + len(b))
+        return real(junk, a, b)
+
+    monkeypatch.setattr(diff.difflib, "SequenceMatcher", counted)
+    old = "".join(f"value_{n} = {n}\n" for n in range(20_000))
+    edits = [Edit(old.index(f"value_{n} ="), old.index(f"value_{n} =") + len(f"value_{n}"), f"renamed_{n}", _NOWHERE)
+             for n in range(5, 20_000, 10)]
+    assert _diff(old, edits).count("\n@@ ") == 2_000
+    assert sum(compared) <= 2 * 2 * len(edits)
+
+
+def test_a_file_changed_during_the_run_is_left_out_of_the_diff_with_a_warning(project: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    from click.testing import CliRunner
+
+    from chainlint import cli
+
+    real = cli.attach_fixes
+
+    def edited_meanwhile(*args):  # type: ignore[no-untyped-def]
+        path = project / "pipeline.py"
+        path.write_text(path.read_text() + "\n# edited meanwhile\n")
+        return real(*args)
+
+    monkeypatch.setattr(cli, "attach_fixes", edited_meanwhile)
+    result = CliRunner().invoke(cli.main, ["check", "--jobs", "1", "--diff", "pipeline.py"])
+    assert result.exit_code == 1 and "--- a/pipeline.py" not in result.output
+    assert "pipeline.py:1:1: warning: left out of the diff: the file changed on disk since it was read" in result.output

@@ -158,3 +158,31 @@ def test_a_long_run_fences_each_filter_after_an_assignment_of_a_name_a_filter_re
         found = re.match(r"`(\w+)` is assigned between", reasons[line])
         assert (found and found[1]) == fence, (line, reasons[line])
     assert sum(fence is not None for fence in expected.values()) > 50
+
+
+@pytest.mark.usefixtures("project")
+def test_a_long_renamed_run_is_scanned_in_near_linear_work(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Counted, not timed: finding where a run of k statements stops looks up O(k) mentions (it
+    looked up every frame's at every statement, O(k^2), for a run renaming its frame each time)."""
+    import bisect
+    import types
+
+    from chainlint.find import runs
+
+    lookups: list[int] = []
+
+    def counted(name: str):  # type: ignore[no-untyped-def]
+        def lookup(*args, **kwargs):  # type: ignore[no-untyped-def]
+            lookups.append(1)
+            return getattr(bisect, name)(*args, **kwargs)
+        return lookup
+
+    monkeypatch.setattr(runs, "bisect", types.SimpleNamespace(bisect_left=counted("bisect_left"), bisect_right=counted("bisect_right")))
+    steps = 2000
+    Path("run.py").write_text("def g(s0):  # chainlint: profile=parcel_scans\n"
+                              + "".join(f"    s{n + 1} = s{n}[s{n}.weight_kg > {n / steps}]\n" for n in range(steps))
+                              + f"    return s{steps}\n")
+    result = CliRunner().invoke(main, ["explain", "run.py", "--jobs", "1", "--format", "json"])
+    (chain,) = json.loads(result.output)["chains"]
+    assert len(chain["steps"]) == steps
+    assert len(lookups) <= 10 * steps
