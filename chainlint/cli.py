@@ -158,6 +158,9 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
     written = write_fixes(fixes, [r.path for r in results]) if write else Written(frozenset(), ())
     for path, reason in written.refused:
         click.echo(printable(f"{path}:1:1: warning: not rewritten: {reason}"), err=True)
+    if show_diff:  # a file read again and refused (changed meanwhile) would otherwise just lack its diff
+        for path in sorted(path for path, fix in fixes.items() if fix.error is not None):
+            click.echo(printable(f"{path}:1:1: warning: left out of the diff: {fixes[path].error}"), err=True)
     result = locate_result(result, results)
     remaining = replace(result, findings=tuple(f for f in result.findings if not written.fixed(f)))
     for finding in result.findings:
