@@ -213,3 +213,30 @@ def test_measure_refuses_a_picture_path_that_is_the_source(project: Path) -> Non
     result = CliRunner().invoke(main, ["measure", "pipeline.py", "--data", "none.parquet", "--plot", "pipeline.py"])
     assert result.exit_code == 2 and "--plot" in result.output
     assert (project / "pipeline.py").read_bytes() == before
+
+
+# -- a user who may not write ----------------------------------------------------------------
+def test_a_folder_this_user_may_not_write_is_reported(project: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """Tests run as root, whom file modes do not stop: the system's answer to another user
+    (EACCES on creating a file in the project's folders) is stood in for. Every command that
+    writes there says so, names the file, and leaves what was there as it was."""
+    real_open = os.open
+    folder = str(project)
+
+    def denying_open(path, flags, *args, **kwargs):  # type: ignore[no-untyped-def]
+        if flags & os.O_CREAT and os.path.abspath(path).startswith(folder + os.sep):
+            raise PermissionError(13, "Permission denied", str(path))
+        return real_open(path, flags, *args, **kwargs)
+
+    monkeypatch.setattr(os, "open", denying_open)
+    before = (project / "pipeline.py").read_bytes()
+    result = _check("--fix", "pipeline.py")
+    assert result.exit_code == 1 and "pipeline.py:1:1: warning: not rewritten: cannot write in " in result.output
+    assert "Permission denied" in result.output and (project / "pipeline.py").read_bytes() == before
+    result = _check("--output", "report.txt", "pipeline.py")
+    assert result.exit_code == 2 and "report.txt" in result.output and "Permission denied" in result.output
+    assert not (project / "report.txt").exists()
+    (project / "scans.csv").write_text("weight_kg\n1.5\n")
+    result = CliRunner().invoke(main, ["profile", "scans.csv", "--name", "scans", "--store", ".chainlint"])
+    assert result.exit_code == 2 and "cannot write in" in result.output and "Permission denied" in result.output
+    assert not (project / ".chainlint" / "profiles" / "scans.json").exists()

@@ -178,3 +178,38 @@ def test_malformed_cost_model_is_named_and_the_built_in_one_used(store: Path, mo
     assert report["chains"][0]["binding"]["profile"] == "good"
     (error,) = report["errors"]
     assert error["path"] == str(store / "cost-model.json") and wanted in error["message"], error
+
+
+@pytest.mark.parametrize("document", ["config.json", "cost-model.json"])
+@pytest.mark.parametrize(("text", "wanted"), [
+    ('{"a": NaN}', "NaN is not a number JSON allows"),
+    ('{"a": ' + "9" * 5000 + "}", "an integer of 5000 digits"),
+    ("[" * 100_000 + "]" * 100_000, "nested"),
+    ("\xff", "not UTF-8"),
+])
+def test_unreadable_store_document_text_is_refused_before_use(store: Path, document: str, text: str, wanted: str) -> None:
+    """The profile's text-level cases, for the store's two other documents: one error naming the
+    file, and the run goes on with the profiles."""
+    (store / document).write_bytes(text.encode("utf-8") if text != "\xff" else b"\xff")
+    code, output = _run("explain", str(store / "m.py"), "--store", str(store), "--format", "json")
+    assert code == 2
+    report = json.loads(output)
+    assert report["chains"][0]["binding"]["profile"] == "good"
+    (error,) = report["errors"]
+    assert error["path"] == str(store / document) and wanted in error["message"], error
+
+
+@pytest.mark.skipif(not hasattr(os, "mkfifo") or not os.path.exists("/dev/zero"), reason="POSIX special files")
+def test_fifo_and_device_as_store_documents_neither_hang_nor_fill_memory(store: Path) -> None:
+    for fifo, device in (("config.json", "cost-model.json"), ("cost-model.json", "config.json")):
+        os.mkfifo(store / fifo)
+        os.symlink("/dev/zero", store / device)
+        run = subprocess.run([sys.executable, "-m", "chainlint", "explain", "m.py", "--store", ".", "--format", "json"],
+                             cwd=store, capture_output=True, text=True, timeout=120)
+        assert run.returncode == 2 and "Traceback" not in run.stderr
+        report = json.loads(run.stdout)
+        assert report["chains"][0]["binding"]["profile"] == "good"
+        assert {(e["path"], e["message"].endswith("not a regular file")) for e in report["errors"]} == {
+            (str(store / fifo), True), (str(store / device), True)}
+        (store / fifo).unlink()
+        (store / device).unlink()
