@@ -207,7 +207,7 @@ def test_joint_counts_and_their_complements_hide_small_groups(tmp_path: Path) ->
         "# chainlint: profile=staff\n"
         "low = staff[lambda d: d.salary < 900000][lambda d: d.depot == 'WEST']\n"
         "# chainlint: profile=staff\n"
-        "west = staff[lambda d: d.depot == 'WEST'][lambda d: d.shift == 'day'][lambda d: d.grade == 'Q']\n"
+        "west = staff[lambda d: d.depot == 'WEST'][lambda d: d['shift'] == 'day'][lambda d: d.grade == 'Q']\n"
     )
     document = _profile(tmp_path, frame, "staff", "--for", str(tmp_path / "src"))
     assert len(document["joint"]) == 2

@@ -73,6 +73,31 @@ NOT_COLUMNS = frozenset(
     {"columns", "dtypes", "values", "T", "loc", "at", "ndim", "attrs", "flags", "style", "plot", "str", "dt", "cat"}
 )
 
+#: Every public attribute of a DataFrame: `d.count` is the method even where the frame has a
+#: column `count` (attribute access reaches a column only when no attribute has its name).
+#: pandas 3.1.1's `dir(pd.DataFrame)` (tests/test_hostile_rewrite.py checks the installed
+#: pandas against it), and the names pandas 2 still had.
+DATAFRAME_ATTRIBUTES = frozenset("""
+    T abs add add_prefix add_suffix agg aggregate align all any apply asfreq asof assign astype at
+    at_time attrs axes between_time bfill boxplot clip columns combine combine_first compare
+    convert_dtypes copy corr corrwith count cov cummax cummin cumprod cumsum describe diff div
+    divide dot drop drop_duplicates droplevel dropna dtypes duplicated empty eq equals eval ewm
+    expanding explode ffill fillna filter first_valid_index flags floordiv from_arrow from_dict
+    from_records ge get groupby gt head hist iat idxmax idxmin iloc index infer_objects info insert
+    interpolate isetitem isin isna isnull items iterrows itertuples join keys kurt kurtosis
+    last_valid_index le loc lt map mask max mean median melt memory_usage merge min mod mode mul
+    multiply ndim ne nlargest notna notnull nsmallest nunique pct_change pipe pivot pivot_table plot
+    pop pow prod product quantile query radd rank rdiv reindex reindex_like rename rename_axis
+    reorder_levels replace resample reset_index rfloordiv rmod rmul rolling round rpow rsub rtruediv
+    sample select select_dtypes sem set_axis set_flags set_index shape shift size skew sort_index
+    sort_values sparse squeeze stack std style sub subtract sum swaplevel tail take to_clipboard
+    to_csv to_dict to_excel to_feather to_hdf to_html to_iceberg to_json to_latex to_markdown
+    to_numpy to_orc to_parquet to_period to_pickle to_records to_sql to_stata to_string to_timestamp
+    to_xarray to_xml transform transpose truediv truncate tz_convert tz_localize unstack update
+    value_counts values var where xs
+    append applymap backfill bool first iteritems ix last lookup mad pad slice_shift swapaxes tshift
+""".split())
+
 
 def is_frame_method(name: str) -> bool:
     return name in _REDUCTIONS or name in _PHRASES

@@ -12,7 +12,7 @@ import ast
 from collections.abc import Callable
 
 from chainlint.model import Barrier, BarrierKind
-from chainlint.find.barriers import FRAME_ATTRIBUTES, NOT_COLUMNS
+from chainlint.find.barriers import DATAFRAME_ATTRIBUTES, FRAME_ATTRIBUTES, NOT_COLUMNS
 from chainlint.find.bindings import dotted_name
 from chainlint.find.calls import Calls
 from chainlint.find.converted import FRAME, Converted, Dialect, clip, is_predicate
@@ -123,6 +123,8 @@ class Converter(Calls):
                 return Opaque(self.text_of(expr))
             if expr.attr in NOT_COLUMNS or expr.attr.startswith("__"):
                 return self.unknown(expr, f"`{clip(self.text_of(expr))}` is not a column")
+            if expr.attr in DATAFRAME_ATTRIBUTES:
+                return self.unknown(expr, f"`{clip(self.text_of(expr))}` is an attribute of every DataFrame, not a column (`[\"{expr.attr}\"]` reads the column)")
             return Column(expr.attr)
         dotted = dotted_name(expr)
         if dotted is not None:

@@ -10,7 +10,7 @@ from __future__ import annotations
 import ast
 from dataclasses import dataclass
 
-from chainlint.find.barriers import FRAME_ATTRIBUTES, NOT_COLUMNS
+from chainlint.find.barriers import DATAFRAME_ATTRIBUTES, NOT_COLUMNS
 from chainlint.find.bindings import dotted_name
 from chainlint.model import StepKind
 
@@ -141,7 +141,7 @@ def _column_mask(key: ast.expr, frame: ast.expr) -> bool:
     if not isinstance(key, (ast.Attribute, ast.Subscript)):
         return False
     if isinstance(key, ast.Attribute):
-        if key.attr in NOT_COLUMNS or key.attr in FRAME_ATTRIBUTES or key.attr.startswith("_"):
+        if key.attr in DATAFRAME_ATTRIBUTES or key.attr in NOT_COLUMNS or key.attr.startswith("_"):
             return False
     elif not (isinstance(key.slice, ast.Constant) and isinstance(key.slice.value, str)):
         return False
