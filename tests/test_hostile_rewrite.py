@@ -9,6 +9,7 @@ the fix lives). The test runs its own generated code; chainlint itself never exe
 
 from __future__ import annotations
 
+import json
 import warnings
 from pathlib import Path
 from typing import Any
@@ -114,3 +115,66 @@ def test_every_public_dataframe_attribute_is_known_not_to_be_a_column() -> None:
 
     public = {name for name in dir(pd.DataFrame) if not name.startswith("_")}
     assert public <= DATAFRAME_ATTRIBUTES, sorted(public - DATAFRAME_ATTRIBUTES)
+
+
+# -- class bodies ------------------------------------------------------------------------------
+
+
+def _class_frame() -> pd.DataFrame:
+    rng = np.random.default_rng(11)
+    rows = 20_000
+    return pd.DataFrame({
+        "b": np.where(rng.random(rows) < 0.9, 99, rng.integers(0, 50, rows)),
+        "s": pd.array(rng.choice(["A", "B", "b", "c"], rows, p=[0.5, 0.48, 0.01, 0.01]), dtype="str"),
+    })
+
+
+def test_a_lambda_in_a_class_body_reads_the_module_name_not_the_class_one(tmp_path: Path) -> None:
+    """A lambda does not see the class body's names: its `X` is the module's 5, which `str`
+    values raise against on any row (pandas 3.1), so the step may not move before a filter
+    that leaves no row. find/chains.py: a lambda's names resolve as a nested scope's."""
+    frame = _class_frame()
+    body = 'X = 5\n\n\nclass K:\n    X = "a"\n    out = df.loc[lambda d: d.b == 99].loc[lambda d: d.s > X]\n\n\nout = K.out\n'
+    path = _project(tmp_path, frame, body)
+    written = path.read_text()
+    fixed = _fix(path)
+    for variant in [*_variants(frame).values(), frame.assign(b=1)]:
+        _same(_run(written, variant), _run(fixed, variant))
+
+
+@pytest.mark.parametrize("body", [
+    "class K:\n    LIMIT = 99\n    out = df[df.b == LIMIT].loc[lambda d: d.s > 'a']\n\n\nout = K.out\n",
+    "LIMIT = 98\n\n\nclass K:\n    LIMIT = 99\n    out = df[df.b == LIMIT].loc[lambda d: d.s > 'a']\n\n\nout = K.out\n",
+])
+def test_a_mask_in_a_class_body_never_becomes_a_lambda(tmp_path: Path, body: str) -> None:
+    """Fused with a lambda (`df[lambda d: (d.b == LIMIT) & ...]`) or split into one, a mask
+    naming the class's `LIMIT` would read the module's (NameError, or another value).
+    rewrite/fuse.py: refused in a class body, as rewrite/permute.py refuses it."""
+    frame = _class_frame()
+    path = _project(tmp_path, frame, body)
+    written = path.read_text()
+    fixed = _fix(path)
+    assert "lambda d: d.b" not in fixed and "(d.b == LIMIT)" not in fixed
+    for variant in _variants(frame).values():
+        _same(_run(written, variant), _run(fixed, variant))
+    result = CliRunner().invoke(main, ["check", *EAGER, "--format", "json", str(path)])
+    reorders = [f for f in json.loads(result.output)["findings"] if f["rule"] == "reorder"]
+    assert all(f["fix"] is None and "class body" in f["fix_error"] for f in reorders)
+
+
+def test_a_written_mask_in_a_class_body_is_not_split_into_lambdas() -> None:
+    """The split's later groups are lambdas: `df[df.s > 'a'][lambda d: d.b == LIMIT]` would
+    not see the class's `LIMIT` (rewrite/fuse.py refuses it, whichever plan is asked for)."""
+    from chainlint.engine.run import analyse_source
+    from chainlint.parse.source import text_source
+    from chainlint.rewrite.permute import RewriteError
+    from chainlint.rewrite.plans import plan_edit
+
+    source = "class K:\n    LIMIT = 99\n    out = df[(df.b == LIMIT) & (df.s > 'a')]\n"
+    text = text_source("pipeline.py", source)
+    (chain,) = analyse_source(text).chains
+    with pytest.raises(RewriteError, match="class body"):
+        plan_edit(text, chain, [(1,), (0,)])
+    outside = text_source("pipeline.py", "LIMIT = 99\nout = df[(df.b == LIMIT) & (df.s > 'a')]\n")
+    (chain,) = analyse_source(outside).chains
+    assert plan_edit(outside, chain, [(1,), (0,)]).text == "[df.s > 'a'][lambda d: d.b == LIMIT]"

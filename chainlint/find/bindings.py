@@ -81,22 +81,23 @@ class ModuleBindings(ScopeTable):
         self._active: set[tuple[int, str]] = set()
 
     # -- resolving ------------------------------------------------------------------------
-    def resolve(self, dotted: str, at: ast.AST | None) -> Resolved:
-        """What `dotted` (`limit`, `np.pi`, `self.cap`) holds where code of scope `at` reads it."""
+    def resolve(self, dotted: str, at: ast.AST | None, nested: bool = False) -> Resolved:
+        """What `dotted` (`limit`, `np.pi`, `self.cap`) holds where code of scope `at` reads it;
+        `nested`: read by a lambda written in that scope, which does not see a class body's names."""
         head, _, attribute = dotted.partition(".")
         if attribute:
-            return self._attribute(head, attribute, self.scope(at), dotted)
-        return self._name(head, self.scope(at))
+            return self._attribute(head, attribute, self.scope(at), dotted, nested)
+        return self._name(head, self.scope(at), nested)
 
-    def _attribute(self, head: str, attribute: str, scope: Scope, dotted: str) -> Resolved:
-        module = self._module_of(head, scope)
+    def _attribute(self, head: str, attribute: str, scope: Scope, dotted: str, nested: bool = False) -> Resolved:
+        module = self._module_of(head, scope, nested)
         if module is not None and (module, attribute) in _MODULE_CONSTANTS:
             return Resolved(VALUE, _MODULE_CONSTANTS[(module, attribute)])
         return _unknown("an attribute, which may hold anything")
 
-    def _module_of(self, name: str, scope: Scope) -> str | None:
+    def _module_of(self, name: str, scope: Scope, nested: bool = False) -> str | None:
         """The module a name is bound to by a plain import, and by nothing else."""
-        owner = self._owner(name, scope)
+        owner = self._owner(name, scope, nested)
         if owner is None:
             return None
         sites = owner.bindings.get(name, [])
@@ -104,12 +105,13 @@ class ModuleBindings(ScopeTable):
             return None
         return self._modules.get(f"{id(owner.node)}:{name}")
 
-    def _owner(self, name: str, scope: Scope) -> Scope | None:
-        """The scope in which `name`, read in `scope`, resolves (None: a builtin or unbound)."""
+    def _owner(self, name: str, scope: Scope, nested: bool = False) -> Scope | None:
+        """The scope in which `name`, read in `scope` (or in a lambda there, `nested`), resolves
+        (None: a builtin or unbound)."""
         current: Scope | None = scope
         if name in scope.declared_global:
             return self.scope(None) if name in self.scope(None).bindings else None
-        first = True
+        first = not nested
         while current is not None:
             if current.kind == "class" and not first:
                 current = current.parent
@@ -123,8 +125,8 @@ class ModuleBindings(ScopeTable):
             current = current.parent
         return None
 
-    def _name(self, name: str, scope: Scope) -> Resolved:
-        owner = self._owner(name, scope)
+    def _name(self, name: str, scope: Scope, nested: bool = False) -> Resolved:
+        owner = self._owner(name, scope, nested)
         if owner is None:
             if name in _ALWAYS_SCALAR | _SCALAR_OF_SCALARS:
                 return _unknown("a function")

@@ -223,11 +223,12 @@ class _Finder:
         span = self.positions.node_span(node)
         return Chain(self.source.path, span, frame, ChainForm.METHOD, steps, self.origins.lookup(root, decomposed.base), near(self.source.lines, span.line, profile_comment), near(self.source.lines, span.line, keep_comment))
 
-    def resolver(self):  # type: ignore[no-untyped-def]
+    def resolver(self, nested: bool = False):  # type: ignore[no-untyped-def]
+        """Names as the code reads them in the chain's scope, or (`nested`) in a lambda there."""
         bindings, scope = self.bindings, self.scope
 
         def resolve(name: str) -> Resolved:
-            return bindings.resolve(name, scope)
+            return bindings.resolve(name, scope, nested)
 
         return resolve
 
@@ -253,7 +254,7 @@ class _Finder:
             span_of=self.positions.node_span,
             span=self.positions.step_span(shape.inner, shape.node),
             statement=statement,
-            resolve=self.resolver(),
+            resolve=self.resolver(nested=isinstance(shape.arg, ast.Lambda)),
             assigned=assigned,
             selected=self.selected,
         )

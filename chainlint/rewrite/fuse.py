@@ -27,6 +27,7 @@ from chainlint.rewrite.permute import RewriteError, in_class_body, chain_edit, l
 
 Groups = Sequence[Sequence[int]]
 _BETWEEN = re.compile(r"[ \t\r\n\\]*")
+_CLASS_BODY = "a mask would become a lambda in a class body, where a lambda cannot see the class's names; write the steps as lambdas"
 
 
 @dataclass(frozen=True)
@@ -301,6 +302,8 @@ def _split_edit(source: SourceText, chain: Chain, groups: list[list[int]]) -> Ed
             if n == 0 and param is None:
                 pieces.append(f"{opener}{body}]")
                 continue
+            if param is None and in_class_body(source.text, _offset(source, written.span.line, written.span.column)):
+                raise RewriteError(_CLASS_BODY)
             target = param or "d"
             if param is None:
                 taken = {x.id for i in group for x in ast.walk(ast.parse("(" + texts[i] + "\n)", mode="eval")) if isinstance(x, ast.Name)}
