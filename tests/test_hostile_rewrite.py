@@ -178,3 +178,49 @@ def test_a_written_mask_in_a_class_body_is_not_split_into_lambdas() -> None:
     outside = text_source("pipeline.py", "LIMIT = 99\nout = df[(df.b == LIMIT) & (df.s > 'a')]\n")
     (chain,) = analyse_source(outside).chains
     assert plan_edit(outside, chain, [(1,), (0,)]).text == "[df.s > 'a'][lambda d: d.b == LIMIT]"
+
+
+# -- integer division by zero ------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("predicate", ["d.a // d.b > 1152921504606846976", "d.a % d.b > 1152921504606846976"])
+def test_integer_floor_division_stays_where_a_zero_divisor_changes_every_row(tmp_path: Path, predicate: str) -> None:
+    """pandas 3.1 computes `a // b` and `a % b` of int64 columns as int64, unless some divisor
+    of the rows it sees is zero: then every row is float64, which rounds 2**60 + 1 to 2**60.
+    Moved before `b != 0` (or beside it in one mask), the step drops rows the written chain
+    keeps. plan/totality.py: such a step stays."""
+    rng = np.random.default_rng(5)
+    rows = 20_000
+    a, b = rng.integers(0, 1000, rows), rng.integers(1, 5, rows)
+    a[:50], b[50:60] = 2**60 + 1, 0
+    b[:50] = 2**60 + 2 if "%" in predicate else 1  # the quotient or the remainder is 2**60 + 1
+    frame = pd.DataFrame({"a": a, "b": b, "c": rng.integers(0, 100, rows)})
+    body = f"out = df.loc[lambda d: d.b != 0].loc[lambda d: d.c >= 0].loc[lambda d: {predicate}]\n"
+    path = _project(tmp_path, frame, body)
+    written = path.read_text()
+    assert len(_run(written, frame)) == 50
+    fixed = _fix(path)
+    for variant in _variants(frame).values():
+        _same(_run(written, variant), _run(fixed, variant))
+    assert fixed.index("d.b != 0") < fixed.index(predicate) and f"& ({predicate})" not in fixed
+
+
+# -- regular expressions pyarrow refuses -------------------------------------------------------
+
+
+@pytest.mark.parametrize("pattern", ["a{1001}", "an*+a", "an++a", "(an)?+a"])
+def test_a_pattern_pyarrow_refuses_does_not_move_earlier(tmp_path: Path, pattern: str) -> None:
+    """Python's `re` reads these (a repetition over 1,000, possessive quantifiers), pyarrow's
+    RE2 engine refuses them, and pandas 3.1 asks it only when the column holds a row: before a
+    filter that keeps none, the moved step raises ArrowInvalid. plan/totality.py: a pattern
+    moves earlier only where pyarrow compiles it."""
+    rng = np.random.default_rng(9)
+    rows = 20_000
+    frame = pd.DataFrame({"a": rng.integers(0, 100, rows),
+                          "s": pd.array(rng.choice(["apple", "banana", "cherry"], rows), dtype="str")})
+    body = f'out = df.loc[lambda d: d.a >= 0].loc[lambda d: d.s.str.contains("{pattern}")]\n'
+    path = _project(tmp_path, frame, body)
+    written = path.read_text()
+    fixed = _fix(path)
+    for variant in [*_variants(frame).values(), frame.assign(a=-1)]:
+        _same(_run(written, variant), _run(fixed, variant))

@@ -19,6 +19,7 @@ from __future__ import annotations
 import re
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Any
 
 from chainlint.ir import (
@@ -160,6 +161,9 @@ class _Judge:
         if _OBJECT in (left, right):
             self.note(LATER, f"`{text}` computes with object values (Decimal or mixed types may raise, e.g. on division by zero)")
             return _OBJECT
+        if node.op in ("//", "%") and self._integers(node.left) and self._integers(node.right) and node.right.columns():
+            self.note(STAYS, f"`{text}` divides integers, which pandas gives as floats for every row once a divisor it sees is zero (rounding integers beyond 2**53)")
+            return _NUMBER
         if all(k in (_WIDE, "literal number") for k in (left, right)):
             return _WIDE
         if _BOOL in (left, right) or _SIZED in (left, right) or (_NUMBER in (left, right) and all(
@@ -168,6 +172,10 @@ class _Judge:
             return _NUMBER
         self.note(LATER, f"`{text}` may overflow or meet values it cannot compute with")
         return _OTHER
+
+    def _integers(self, node: Node) -> bool:
+        """Whether every column `node` reads has an integer dtype (as far as the profile says)."""
+        return all(re.fullmatch(r"u?int\d+|U?Int\d+", self.dtypes.get(c) or "") for c in node.columns())
 
     def _names(self, node: Node) -> str:
         return ", ".join(f"`{c}` ({self.dtypes.get(c, 'unknown')})" for c in sorted(node.columns())) or "literals"
@@ -262,8 +270,26 @@ class _Judge:
         except re.error:
             self.note(LATER, f"`{text}` is not a valid regular expression")
             return
+        if not _arrow_compiles(node.pattern.value):
+            self.note(LATER, f"`{text}` is a regular expression pyarrow's engine refuses (on any row, not on none)")
+            return
         if _REGEX_UNSAFE.search(node.pattern.value):
             self.note(LATER, f"`{text}` uses regular-expression syntax that pyarrow's engine may refuse")
+
+
+@lru_cache(maxsize=256)
+def _arrow_compiles(pattern: str) -> bool:
+    """Whether pyarrow's regular-expression engine (RE2), which pandas asks for `str` columns,
+    takes the pattern: it refuses some Python reads (repetitions over 1,000, possessive
+    quantifiers), and pandas asks it only when the column holds a row."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    try:
+        pc.match_substring_regex(pa.array([""], pa.string()), pattern)
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+        return False
+    return True
 
 
 def _literal_kind(node: Literal) -> str:
