@@ -142,6 +142,41 @@ def test_a_lambda_in_a_class_body_reads_the_module_name_not_the_class_one(tmp_pa
         _same(_run(written, variant), _run(fixed, variant))
 
 
+@pytest.mark.parametrize("chain", [
+    'next(df.loc[lambda d: d.b == 99].query("s > @X") for _ in [0])',
+    '[df.query("b == 99").query("s > @X") for _ in [0]][0]',
+    '{0: df.loc[lambda d: d.b == 99].loc[lambda d: d.s > X] for _ in [0]}[0]',
+])
+def test_a_comprehension_in_a_class_body_reads_the_module_name(tmp_path: Path, chain: str) -> None:
+    """A comprehension or generator runs as a nested function: in a class body it sees the
+    module's `X = 5`, not the class's `X = "a"` (a query's `@X` too: pandas reads the
+    generator's frame). find/chains.py: its names resolve past the class."""
+    frame = _class_frame()
+    body = f'X = 5\n\n\nclass K:\n    X = "a"\n    out = {chain}\n\n\nout = K.out\n'
+    path = _project(tmp_path, frame, body)
+    written = path.read_text()
+    fixed = _fix(path)
+    for variant in [*_variants(frame).values(), frame.assign(b=1)]:
+        _same(_run(written, variant), _run(fixed, variant))
+
+
+@pytest.mark.parametrize("inner", [
+    '    g = lambda e: e.query("b == 99").query("s > @X")\n',
+    '    def g(e):\n        return e.query("b == 99").query("s > @X")\n',
+])
+def test_a_query_does_not_see_an_enclosing_functions_names(tmp_path: Path, inner: str) -> None:
+    """pandas resolves `@X` in the frame that calls `query`: a nested function's frame holds
+    the enclosing `X = "a"` only where its code mentions `X`, so here `@X` is the module's 5
+    (pandas 3.1). find/bindings.py: such a name is not proven single; the step stays."""
+    frame = _class_frame()
+    body = f'X = 5\n\n\ndef f(df):\n    X = "a"\n{inner}    return g(df)\n\n\nout = f(df)\n'
+    path = _project(tmp_path, frame, body)
+    written = path.read_text()
+    fixed = _fix(path)
+    for variant in [*_variants(frame).values(), frame.assign(b=1)]:
+        _same(_run(written, variant), _run(fixed, variant))
+
+
 @pytest.mark.parametrize("body", [
     "class K:\n    LIMIT = 99\n    out = df[df.b == LIMIT].loc[lambda d: d.s > 'a']\n\n\nout = K.out\n",
     "LIMIT = 98\n\n\nclass K:\n    LIMIT = 99\n    out = df[df.b == LIMIT].loc[lambda d: d.s > 'a']\n\n\nout = K.out\n",
@@ -224,3 +259,87 @@ def test_a_pattern_pyarrow_refuses_does_not_move_earlier(tmp_path: Path, pattern
     fixed = _fix(path)
     for variant in [*_variants(frame).values(), frame.assign(a=-1)]:
         _same(_run(written, variant), _run(fixed, variant))
+
+
+# -- the cases above, generated ----------------------------------------------------------------
+# Frames and chains drawn around what once broke the promise (attribute names, class bodies,
+# integer floor division by zero with integers beyond 2**53, patterns RE2 refuses), each
+# rewritten into any plan the planner may choose for the frame's dtypes and run by pandas;
+# tests/test_rewrite_property.py covers the wider space of dtypes and forms.
+
+from hypothesis import HealthCheck, given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+from test_rewrite_property import _planner_groups  # noqa: E402
+
+from chainlint.engine.run import analyse_source  # noqa: E402
+from chainlint.parse.source import text_source  # noqa: E402
+from chainlint.rewrite.permute import RewriteError, apply_edits  # noqa: E402
+from chainlint.rewrite.plans import plan_edit  # noqa: E402
+from chainlint.rewrite.verify import verify  # noqa: E402
+
+
+@st.composite
+def _hostile_frames(draw):  # type: ignore[no-untyped-def]
+    rows = draw(st.integers(0, 12))
+    rng = np.random.default_rng(draw(st.integers(0, 2**32 - 1)))
+    big = np.where(rng.random(rows) < 0.5, 2**60 + 1, rng.integers(0, 9, rows))
+    frame = pd.DataFrame({
+        "count": rng.integers(0, 4, rows),
+        "big": big,
+        "z": rng.integers(0, 3, rows),
+        "s": pd.array(rng.choice(["apple", "banana", "an", "naan"], rows), dtype="str"),
+    })
+    if draw(st.booleans()):
+        frame.index = rng.integers(0, 3, rows)
+    return frame
+
+
+_PREDICATES = [
+    "{d}.count == 2", "{d}['count'] == 2", "{d}.first == 2", "{d}.z != 0", "{d}.big // {d}.z > 1152921504606846976",
+    "{d}.big % {d}.z > 1152921504606846976", "{d}.big > 5", "{d}.s.str.contains('an++a')", "{d}.s.str.contains('a{{1001}}')",
+    "{d}.s == 'an'", "{d}.s.str.startswith('b')", "{d}.z > X",
+]
+
+
+@st.composite
+def _hostile_chains(draw):  # type: ignore[no-untyped-def]
+    count = draw(st.integers(2, 4))
+    picks = [draw(st.sampled_from(_PREDICATES)) for _ in range(count)]
+    form = draw(st.sampled_from(["lambdas", "masks", "written mask"]))
+    if form == "lambdas":
+        chain = "df" + "".join(f".loc[lambda d: {p.format(d='d')}]" for p in picks)
+    elif form == "masks":
+        chain = f"df[{picks[0].format(d='df')}]" + "".join(f"[lambda d: {p.format(d='d')}]" for p in picks[1:])
+    else:
+        chain = "df[" + " & ".join(f"({p.format(d='df')})" for p in picks) + "]"
+    scope = draw(st.sampled_from(["module", "class", "function"]))
+    if scope == "module":
+        body = f"X = 1\nout = {chain}\n"
+    elif scope == "class":
+        body = f"X = 1\n\n\nclass K:\n    X = 'a'\n    out = {chain}\n\n\nout = K.out\n"
+    else:
+        body = f"X = 'a'\n\n\ndef f(df, X=1):\n    return {chain}\n\n\nout = f(df)\n"
+    return "import pandas as pd\n\n" + body
+
+
+@settings(max_examples=150, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+@given(_hostile_frames(), _hostile_chains(), st.data())
+def test_hostile_chains_keep_the_promise_in_any_plan(frame: pd.DataFrame, source: str, data: st.DataObject) -> None:
+    text = text_source("generated.py", source)
+    chains = analyse_source(text).chains
+    if len(chains) != 1:
+        return  # a written mask with a part that may not move is no chain
+    (chain,) = chains
+    dtypes = {name: str(dtype) for name, dtype in frame.dtypes.items()}
+    groups = _planner_groups(chain, dtypes, data)
+    steps = range(len(chain.steps))
+    if groups == ((tuple(steps),) if chain.form.value == "mask" else tuple((i,) for i in steps)):
+        return  # the plan as written
+    try:
+        edit = plan_edit(text, chain, groups)
+    except RewriteError:
+        return  # refused, with its reason: the code stays as written
+    rewritten = apply_edits(source, [edit])
+    verify(text, rewritten, [(chain, groups)])
+    _same(_run(source, frame), _run(rewritten, frame))

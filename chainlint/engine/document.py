@@ -104,10 +104,10 @@ class _Asking(ModuleBindings):
 
     group: _Group | None = None
 
-    def resolve(self, dotted: str, at: ast.AST | None, nested: bool = False) -> Resolved:
+    def resolve(self, dotted: str, at: ast.AST | None, nested: bool = False, query: bool = False) -> Resolved:
         if self.group is not None:
             self.group.asked = True
-        return super().resolve(dotted, at, nested)
+        return super().resolve(dotted, at, nested, query)
 
 
 def _resolved(bindings: ModuleBindings, identifiers: tuple[str, ...]) -> tuple[tuple[str, Resolved], ...]:

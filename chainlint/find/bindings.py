@@ -81,13 +81,26 @@ class ModuleBindings(ScopeTable):
         self._active: set[tuple[int, str]] = set()
 
     # -- resolving ------------------------------------------------------------------------
-    def resolve(self, dotted: str, at: ast.AST | None, nested: bool = False) -> Resolved:
+    def resolve(self, dotted: str, at: ast.AST | None, nested: bool = False, query: bool = False) -> Resolved:
         """What `dotted` (`limit`, `np.pi`, `self.cap`) holds where code of scope `at` reads it;
-        `nested`: read by a lambda written in that scope, which does not see a class body's names."""
+        `nested`: read by a lambda or comprehension written in that scope, which does not see a
+        class body's names; `query`: read by `DataFrame.query` (`@limit`), which sees only the
+        calling frame's own names and the module's, never an enclosing function's."""
         head, _, attribute = dotted.partition(".")
+        scope = self.scope(at)
+        if query and self._closure(head, scope, nested):
+            return _unknown("a name of an enclosing function, which a query's text does not see as the code does")
         if attribute:
-            return self._attribute(head, attribute, self.scope(at), dotted, nested)
-        return self._name(head, self.scope(at), nested)
+            return self._attribute(head, attribute, scope, dotted, nested)
+        return self._name(head, scope, nested)
+
+    def _closure(self, name: str, scope: Scope, nested: bool) -> bool:
+        """Whether `name` read in `scope` (or a comprehension there) may be an enclosing
+        function's: pandas resolves a query's names in the calling frame, which holds an
+        enclosing function's names only where its code mentions them (and a comprehension's
+        frame is its own up to Python 3.11, its function's from 3.12)."""
+        owner = self._owner(name, scope, nested)
+        return owner is not None and owner.kind != "module" and (nested or owner is not scope)
 
     def _attribute(self, head: str, attribute: str, scope: Scope, dotted: str, nested: bool = False) -> Resolved:
         module = self._module_of(head, scope, nested)

@@ -18,6 +18,7 @@ from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
 from chainlint.find.positions import Positions
 from chainlint.find.runs import Fences, Memo, Walked, inplace_dropna, joined, mentioned, read_elsewhere, reads
+from chainlint.find.scopes import nested_children
 from chainlint.find.screen import Seams
 from chainlint.find.shapes import Masks, Names, Shape, is_mask_value, mask_frames, module_names, peel, rows_axis
 from chainlint.find.steps import StepContext, build_step, selected_columns
@@ -79,6 +80,7 @@ class _Finder:
         self.bindings = bindings
         #: The scope (function, lambda or class node; None for the module) of the code walked.
         self.scope: ast.AST | None = None
+        self.nested = False  # in a comprehension of that scope (which does not see a class's names)
         #: Columns the last `.loc[mask, cols]` of the chain being built kept (None: all, or unknown).
         self.selected: tuple[str, ...] | None = None
         #: Masks bound to names before the statement being walked, and per statement of the block.
@@ -157,10 +159,10 @@ class _Finder:
             for default in definition.args.defaults + [d for d in definition.args.kw_defaults if d is not None]:
                 self.expression(default)
         self.origins.enter(definition if not isinstance(definition, ast.ClassDef) else None)
-        outer, self.scope = self.scope, definition
+        (outer, nested), self.scope, self.nested = (self.scope, self.nested), definition, False
         masks, self.masks = self.masks, {}
         self.block(definition.body)
-        self.scope, self.masks = outer, masks
+        self.scope, self.nested, self.masks = outer, nested, masks
         self.origins.leave()
 
     def node(self, node: ast.AST) -> None:
@@ -180,17 +182,16 @@ class _Finder:
                 self.node(value)
 
     def expression(self, root: ast.expr) -> None:
-        """Find the method chains of an expression; a chain inside a lambda reads its scope."""
-        outer = self.scope
-        stack: list[tuple[ast.AST, ast.AST | None]] = [(root, outer)]
+        """Find the method chains of an expression; a chain in a lambda or comprehension reads its scope."""
+        outer, nested = self.scope, self.nested
+        stack: list[tuple[ast.AST, ast.AST | None, bool]] = [(root, outer, nested)]
         while stack:
-            node, self.scope = stack.pop()
+            node, self.scope, self.nested = stack.pop()
             if isinstance(node, ast.expr) and not self.seams.meets(node.lineno, node.end_lineno or node.lineno):
                 continue
-            inner = node if isinstance(node, ast.Lambda) else self.scope
-            decomposed = self.decompose(node)
-            if decomposed is None:
-                stack.extend((child, inner) for child in ast.iter_child_nodes(node))
+            inner, nested_in = (node, False) if isinstance(node, ast.Lambda) else (self.scope, self.nested)
+            if (decomposed := self.decompose(node)) is None:
+                stack.extend((child, inner, nested_in or apart) for child, apart in nested_children(node))
                 continue
             if id(node) not in self.absorbed and len(decomposed.shapes) >= 2:
                 self.chains.append(self.method_chain(node, decomposed))
@@ -198,11 +199,11 @@ class _Finder:
                 self.chains.append(fused)
             elif id(node) not in self.absorbed and len(decomposed.shapes) >= self.least:
                 self.chains.append(self.method_chain(node, decomposed))
-            stack.append((decomposed.base, self.scope))
+            stack.append((decomposed.base, self.scope, self.nested))
             for shape in decomposed.shapes:
                 lambda_scope = shape.arg if isinstance(shape.arg, ast.Lambda) else self.scope
-                stack.extend((argument, lambda_scope if argument is shape.arg else self.scope) for argument in _arguments(shape.node))
-        self.scope = outer
+                stack.extend((a, lambda_scope if a is shape.arg else self.scope, self.nested and a is not shape.arg) for a in _arguments(shape.node))
+        self.scope, self.nested = outer, nested
 
     def decompose(self, node: ast.AST) -> _Decomposed | None:
         shapes = []
@@ -223,14 +224,10 @@ class _Finder:
         span = self.positions.node_span(node)
         return Chain(self.source.path, span, frame, ChainForm.METHOD, steps, self.origins.lookup(root, decomposed.base), near(self.source.lines, span.line, profile_comment), near(self.source.lines, span.line, keep_comment))
 
-    def resolver(self, nested: bool = False):  # type: ignore[no-untyped-def]
-        """Names as the code reads them in the chain's scope, or (`nested`) in a lambda there."""
+    def resolver(self, nested: bool = False, query: bool = False) -> Callable[[str], Resolved]:
+        """Names as the code (`nested`: a lambda or comprehension; a query's text) reads them."""
         bindings, scope = self.bindings, self.scope
-
-        def resolve(name: str) -> Resolved:
-            return bindings.resolve(name, scope, nested)
-
-        return resolve
+        return lambda name: bindings.resolve(name, scope, nested, query)
 
     def steps(
         self, decomposed: _Decomposed, own: str | None, outer: frozenset[str], statement: int,
@@ -254,7 +251,7 @@ class _Finder:
             span_of=self.positions.node_span,
             span=self.positions.step_span(shape.inner, shape.node),
             statement=statement,
-            resolve=self.resolver(nested=isinstance(shape.arg, ast.Lambda)),
+            resolve=self.resolver(nested=self.nested or isinstance(shape.arg, ast.Lambda), query=shape.kind is StepKind.QUERY),
             assigned=assigned,
             selected=self.selected,
         )

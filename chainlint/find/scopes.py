@@ -242,3 +242,14 @@ _MUTATORS = frozenset({
     "append", "extend", "insert", "remove", "pop", "clear", "sort", "reverse", "add", "discard",
     "update", "setdefault", "popitem", "__setitem__", "__delitem__", "__iadd__",
 })
+
+
+def nested_children(node: ast.AST) -> list[tuple[ast.AST, bool]]:
+    """The child nodes of `node`, each with whether it runs in a comprehension's own scope (all of
+    a comprehension but its first iterable, as a nested function does)."""
+    if not isinstance(node, (ast.ListComp, ast.SetComp, ast.GeneratorExp, ast.DictComp)):
+        return [(child, False) for child in ast.iter_child_nodes(node)]
+    parts: list[ast.AST] = [node.key, node.value] if isinstance(node, ast.DictComp) else [node.elt]
+    for generator in node.generators:
+        parts += [generator.iter, *generator.ifs]
+    return [(part, part is not node.generators[0].iter) for part in parts]
