@@ -243,7 +243,8 @@ async def test_other_documents_are_answered_while_a_large_one_is_analysed(client
     small = demo_store / "small.py"
     await _open(client, small, 'out = scans.loc[lambda d: d.weight_kg > 0.5].loc[lambda d: d.status == "lost"]\n')
     chain = 'def f{n}(scans):\n    return scans.loc[lambda d: d.weight_kg > 0.{n}].loc[lambda d: d.status == "lost"]\n'
-    large = "".join(chain.format(n=n) for n in range(6000))  # well under the limit, slow to analyse
+    # Well under the size limit, and seconds to analyse: the hover must not wait for it.
+    large = "".join(chain.format(n=n) for n in range(3000))
     uri = (demo_store / "large.py").as_uri()
     events: list[str] = []
     start = len(PUBLISHED)
@@ -261,9 +262,9 @@ async def test_other_documents_are_answered_while_a_large_one_is_analysed(client
         text_document=types.TextDocumentIdentifier(uri=small.as_uri()), position=types.Position(line=0, character=14))), TIMEOUT)
     events.append("hover answered")
     assert hover is not None
-    await asyncio.wait_for(published, TIMEOUT)
+    await asyncio.wait_for(published, 5 * TIMEOUT)  # a loaded machine analyses slowly; only the order counts
     assert events == ["hover answered", "large analysed"]
-    assert len(client.diagnostics[uri]) > 5000
+    assert len(client.diagnostics[uri]) > 2500
 
 
 @pytest.mark.asyncio(loop_scope="module")
