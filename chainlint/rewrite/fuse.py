@@ -17,8 +17,9 @@ import ast
 import io
 import re
 import tokenize
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 from chainlint.ir import Or
 from chainlint.model import Chain, ChainForm, Edit, Span, Step, StepKind
@@ -26,6 +27,8 @@ from chainlint.parse.source import SourceText
 from chainlint.rewrite.permute import RewriteError, in_class_body, chain_edit, line_break, line_start, step_slots
 
 Groups = Sequence[Sequence[int]]
+#: Writes the steps at positions first..last of a chain found again as one group: an Edit.
+GroupWriter = Callable[[SourceText, Chain, Any, int, int], Edit]
 _BETWEEN = re.compile(r"[ \t\r\n\\]*")
 _CLASS_BODY = "a mask would become a lambda in a class body, where a lambda cannot see the class's names; write the steps as lambdas"
 
@@ -59,15 +62,17 @@ def start_plan(source: SourceText, chain: Chain, groups: Groups) -> Edit | Start
     return Started(chain, tuple(tuple(group) for group in groups), moved)
 
 
-def fused_edits(permuted: SourceText, again: Chain, groups: Groups) -> list[Edit]:
+def fused_edits(permuted: SourceText, again: Chain, groups: Groups, write: GroupWriter | None = None) -> list[Edit]:
     """The edits of `permuted` that write each group of two or more steps of `again` (the chain
-    found again there, its steps in the plan's order) as one mask."""
+    found again there, its steps in the plan's order) as one mask, by `write` (a method
+    chain's by default; a statement run passes its own)."""
+    write = write or _group_edit
     fused: list[Edit] = []
     position = 0
     slots = step_slots(permuted, again)
     for group in groups:
         if len(group) > 1:
-            fused.append(_group_edit(permuted, again, slots, position, position + len(group) - 1))
+            fused.append(write(permuted, again, slots, position, position + len(group) - 1))
         position += len(group)
     return fused
 

@@ -24,8 +24,8 @@ import re
 
 from chainlint.model import Chain, Edit, Span, StepKind
 from chainlint.parse.source import SourceText
-from chainlint.rewrite.fuse import Groups, mask_group, query_group
-from chainlint.rewrite.permute import RewriteError, line_break, line_start, step_slots
+from chainlint.rewrite.fuse import Groups, fused_edits, mask_group, query_group
+from chainlint.rewrite.permute import RewriteError, line_break, line_start
 
 _DIRECTIVE = re.compile(r"#\s*chainlint:")
 _TARGET = re.compile(r"(?P<indent>[ \t]*)(?P<name>\w+)(?P<rest>[ \t]*=)")
@@ -34,14 +34,7 @@ _TARGET = re.compile(r"(?P<indent>[ \t]*)(?P<name>\w+)(?P<rest>[ \t]*=)")
 def run_edits(permuted: SourceText, again: Chain, groups: Groups) -> list[Edit]:
     """The edits of `permuted` that write each group of two or more steps of `again` (the run
     found again there, its steps in the plan's order) as one statement."""
-    edits: list[Edit] = []
-    position = 0
-    slots = step_slots(permuted, again)
-    for group in groups:
-        if len(group) > 1:
-            edits.append(_group_edit(permuted, again, slots, position, position + len(group) - 1))
-        position += len(group)
-    return edits
+    return fused_edits(permuted, again, groups, _group_edit)
 
 
 def _group_edit(source: SourceText, chain: Chain, slots, first: int, last: int) -> Edit:  # type: ignore[no-untyped-def]
