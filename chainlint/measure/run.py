@@ -9,6 +9,7 @@ and in all. All must return the same frame.
 
 from __future__ import annotations
 
+import math
 import statistics
 import time
 from collections.abc import Callable, Sequence
@@ -20,7 +21,7 @@ import pyarrow as pa
 from chainlint.evaluate.pandas_masks import apply_group
 from chainlint.evaluate.support import unevaluable
 from chainlint.model import Chain, ChainlintError
-from chainlint.profile.dtypes import fixed_dtype
+from chainlint.profile.dtypes import INTEGERS_KEY, fixed_dtype
 from chainlint.profile.read_options import CsvOptions
 from chainlint.profile.readers import open_dataset
 
@@ -109,6 +110,10 @@ def as_read_csv(table: pa.Table) -> pd.DataFrame:
         dtype = fixed_dtype(field)
         if dtype == "category":
             frame[field.name] = _categorical(table.column(field.name))
+        elif INTEGERS_KEY in (field.metadata or {}) and dtype == "object":
+            # Python ints, counted as float64 by the profiler: exact up to 2**53 only.
+            frame[field.name] = pd.Series([int(v) if math.isfinite(v) else v for v in frame[field.name]], dtype=object,
+                                          index=frame.index)
         elif dtype is not None:
             frame[field.name] = frame[field.name].astype(dtype)
         elif pa.types.is_boolean(field.type) and table.column(field.name).null_count:

@@ -10,20 +10,18 @@ A file behind an fsspec URL is read as a stream and cut in the same places.
 
 from __future__ import annotations
 
-import codecs
-import csv
-import io
-import itertools
 import mmap
 from collections.abc import Callable, Iterator
-from dataclasses import dataclass
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 
+from chainlint.profile import csv_integers
+from chainlint.profile.csv_layout import csv_layout
 from chainlint.profile.csv_places import first_failing_line, line_at
-from chainlint.profile.dtypes import pandas_schema, with_dtype
+from chainlint.profile.dtypes import INTEGERS_KEY, pandas_schema, with_dtype
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import CsvOptions
 from chainlint.profile.remote import file_size, input_stream, is_url, named_codec
@@ -48,76 +46,6 @@ _DTYPES = {
 _FIXED = frozenset({"Int64", "string", "boolean", "category", "object"})
 
 
-@dataclass(frozen=True)
-class _Layout:
-    names: list[str]
-    skip: int  # rows before the data (header rows included)
-    skip_after: int  # rows skipped right after the header
-
-
-def _unique_names(names: list[str]) -> list[str]:
-    """Duplicate names suffixed `.1`, `.2`, ... skipping names the header already holds, as
-    pandas does."""
-    taken = set(names)
-    used: set[str] = set()
-    counts: dict[str, int] = {}
-    out = []
-    for name in names:
-        candidate = name
-        if name in used:
-            k = counts.get(name, 1)
-            while f"{name}.{k}" in taken or f"{name}.{k}" in used:
-                k += 1
-            candidate = f"{name}.{k}"
-            counts[name] = k + 1
-        used.add(candidate)
-        out.append(candidate)
-    return out
-
-
-def _layout(path: str, options: CsvOptions, delimiter: str) -> _Layout:
-    """Column names and rows to skip, from the header rows read with Python's csv module."""
-    skiprows = options.skiprows
-    lead, skip_after = (skiprows, 0) if isinstance(skiprows, int) else (0, 0)
-    header = options.header
-    levels = 0 if header is None else len(header)
-    if isinstance(skiprows, tuple) and skiprows:
-        rows = sorted(set(skiprows))
-        after = (header[-1] + 1) if header is not None else 0
-        if rows == list(range(len(rows))) and (header is None or header[0] >= len(rows)):
-            lead = len(rows)
-        elif rows == list(range(after, after + len(rows))):
-            skip_after = len(rows)
-        else:
-            raise DataError(f"skiprows {list(skiprows)}: only leading lines or lines right after the header are supported", path=str(path))
-        if lead and header is not None:
-            header = tuple(h - lead for h in header)
-    first = lead + (header[0] if header is not None else 0)
-    encoding = "utf-8-sig" if codecs.lookup(options.encoding).name == "utf-8" else options.encoding
-    try:
-        with input_stream(path) as raw:
-            text = io.TextIOWrapper(raw, encoding=encoding, newline="")  # type: ignore[arg-type]
-            records = list(itertools.islice(csv.reader(text, delimiter=delimiter), first + max(levels, 1)))
-    except UnicodeDecodeError as error:
-        shown = "UTF-8" if encoding == "utf-8-sig" else options.encoding
-        raise DataError(f"not valid {shown} text ({error}); give its encoding", path=str(path)) from None
-    except (csv.Error, OSError, pa.ArrowInvalid) as error:
-        raise DataError(f"cannot read the header: {error}", path=str(path)) from None
-    wanted = records[first:]
-    if len(wanted) < max(levels, 1):
-        raise DataError(f"no header row at line {first + 1}", path=str(path))
-    width = max(len(r) for r in wanted)
-    if levels == 0:
-        return _Layout([str(i) for i in range(width)], first, skip_after)
-    rows = [r + [""] * (width - len(r)) for r in wanted]
-    if levels == 1:
-        names = [n if n.strip() else f"Unnamed: {i}" for i, n in enumerate(rows[0])]
-    else:
-        tuples = [tuple(r[i] if r[i].strip() else f"Unnamed: {i}_level_{lvl}" for lvl, r in enumerate(rows)) for i in range(width)]
-        names = [str(t) for t in tuples]
-    return _Layout(_unique_names(names), first + levels, skip_after)
-
-
 class CsvFile:
     """One CSV file: its layout, the parse options, and its pieces parsed as tables."""
 
@@ -126,12 +54,13 @@ class CsvFile:
         self.path = path
         self.options = options
         self.delimiter = options.sep or ("\t" if path.lower().endswith((".tsv", ".tsv.gz")) else ",")
-        self.layout = _layout(path, options, self.delimiter)
+        self.layout = csv_layout(path, options, self.delimiter)
         # A categorical's values are read as the column's would be without the option: pandas
         # converts its categories as `read_csv` converts values (numbers, booleans, text).
         self.types = {name: _DTYPES[d] for name, d in options.dtype if d != "category"}
         for name in options.parse_dates:
             self.types[name] = pa.timestamp("us")
+        self.integers: dict[str, str] = {}  # columns of integers beyond int64: how pandas reads them
         missing = sorted({name for name, _ in options.dtype} - set(self.layout.names) | set(self.types) - set(self.layout.names))
         if missing:
             raise DataError(f"no column {missing[0]!r} (named by dtype or parse_dates)", path=str(path))
@@ -140,7 +69,9 @@ class CsvFile:
         """The parsed schema as profiled: each column given a `dtype=` pandas keeps whatever
         its values marked with it."""
         fixed = {name: d for name, d in self.options.dtype if d in _FIXED}
-        return pandas_schema(pa.schema([with_dtype(f, fixed[f.name]) if f.name in fixed else f for f in schema]))
+        fixed.update({name: "object" for name, decision in self.integers.items() if decision == csv_integers.OBJECT})
+        marked = [f.with_metadata({INTEGERS_KEY: self.integers[f.name].encode()}) if f.name in self.integers else f for f in schema]
+        return pandas_schema(pa.schema([with_dtype(f, fixed[f.name]) if f.name in fixed else f for f in marked]))
 
     def convert(self, types: dict[str, pa.DataType]) -> pacsv.ConvertOptions:
         return pacsv.ConvertOptions(
@@ -160,7 +91,54 @@ class CsvFile:
         for index, field in enumerate(table.schema):
             if pa.types.is_null(field.type):  # every value missing: pandas reads float64 NaN
                 table = table.set_column(index, field.name, pa.nulls(table.num_rows, pa.float64()))
+        # pyarrow reads integers beyond int64 as float64, pandas as uint64, Python ints or text.
+        beyond = [f.name for f in table.schema if f.name not in self.types and pa.types.is_float64(f.type)
+                  and (pc.max(pc.abs(table.column(f.name))).as_py() or 0) >= 2**63]
+        fields = self._fields(piece, 0, quoted, beyond, first=True)
+        for name in beyond:
+            decision = csv_integers.read_as(fields[name][0])
+            if decision != csv_integers.FLOAT:
+                self.integers[name] = decision
+                table = table.set_column(table.schema.get_field_index(name), name, csv_integers.column(*fields[name], decision))
         return table
+
+    def parse_later(self, piece: pa.Buffer, offset: int, quoted: bool, schema: pa.Schema) -> pa.Table:
+        """A piece after the first, read in the types of the schema as profiled; a column of
+        integers beyond int64 as the first piece decided (a field that would change the decision
+        is an error: pandas' dtype depends on the whole column)."""
+        self.integers = {f.name: f.metadata[INTEGERS_KEY].decode() for f in schema if INTEGERS_KEY in (f.metadata or {})}
+        table = self.parse(piece, offset, quoted, {f.name: pa.string() if f.name in self.integers else f.type for f in schema})
+        fields = self._fields(piece, offset, quoted, list(self.integers))
+        for name, decision in self.integers.items():
+            misfit = next((i for i, text in enumerate(fields[name][0]) if not csv_integers.fits(text, decision)), None)
+            if misfit is not None:
+                raise DataError(f"column {name!r}: the field {fields[name][1][misfit].as_py()!r} after the file's first part changes the "
+                                f"type pandas gives it ({csv_integers.dtype_of(decision)}); name its dtype, e.g. `str`, to read it",
+                                path=str(self.path), line=line_at(self.path, offset) + misfit)
+            table = table.set_column(table.schema.get_field_index(name), name, csv_integers.column(*fields[name], decision))
+        return table
+
+    def _fields(self, piece: pa.Buffer, offset: int, quoted: bool, names: list[str],
+                first: bool = False) -> dict[str, tuple[list[str | None], pa.Array]]:
+        """Each named column's fields as pandas' parser sees them: (None where a missing-value
+        spelling, the text otherwise; the texts)."""
+        if not names:
+            return {}
+        missing = set(PANDAS_NA + self.options.na_values)
+        table = pacsv.read_csv(piece, read_options=self._read_options(first, threads=True),
+                               parse_options=pacsv.ParseOptions(delimiter=self.delimiter, newlines_in_values=quoted),
+                               convert_options=pacsv.ConvertOptions(
+                                   include_columns=names, column_types={n: pa.string() for n in names}, null_values=[],
+                                   strings_can_be_null=False, quoted_strings_can_be_null=False))
+        texts = {name: table.column(name).combine_chunks() for name in names}
+        return {name: ([None if t in missing else t for t in raw.to_pylist()], raw) for name, raw in texts.items()}
+
+    def _read_options(self, first: bool, threads: bool) -> pacsv.ReadOptions:
+        layout = self.layout
+        return pacsv.ReadOptions(
+            use_threads=threads, block_size=_CSV_PARSE_BLOCK, column_names=layout.names,
+            skip_rows=layout.skip if first else 0, skip_rows_after_names=layout.skip_after if first else 0,
+            encoding=self.options.encoding)
 
     def parse(self, piece: pa.Buffer, offset: int, quoted: bool, types: dict[str, pa.DataType],
               first: bool = False) -> pa.Table:
@@ -170,15 +148,10 @@ class CsvFile:
             invalid.append((row.number, f"expected {row.expected_columns} fields, found {row.actual_columns}"))
             return "error"
 
-        layout = self.layout
-
         def run(threads: bool, data: pa.Buffer = piece) -> pa.Table:
             return pacsv.read_csv(
                 data,
-                read_options=pacsv.ReadOptions(
-                    use_threads=threads, block_size=_CSV_PARSE_BLOCK, column_names=layout.names,
-                    skip_rows=layout.skip if first else 0, skip_rows_after_names=layout.skip_after if first else 0,
-                    encoding=self.options.encoding),
+                read_options=self._read_options(first, threads),
                 parse_options=pacsv.ParseOptions(delimiter=self.delimiter, invalid_row_handler=on_invalid,
                                                  newlines_in_values=quoted),
                 convert_options=self.convert(types),
@@ -236,17 +209,16 @@ def open_csv(path: str, options: CsvOptions) -> tuple[pa.Schema, Iterator[pa.Tab
     binary = [f.name for f in table.schema if pa.types.is_binary(f.type) or pa.types.is_large_binary(f.type)]
     if binary:
         raise DataError(f"column {binary[0]!r} is not valid UTF-8 text", path=str(path))
-    schema = table.schema
-    types = {f.name: f.type for f in schema}
+    schema = reader.profiled(table.schema)
     # The row count, estimated from the first piece, sets the summaries' sampling stride.
     expected = None if _compressed(path) or not len(first) else round(table.num_rows * size / len(first))
 
     def stream() -> Iterator[pa.Table]:
         yield table
         for piece, offset, quoted_piece in pieces:
-            yield reader.parse(piece, offset, quoted_piece, types)
+            yield reader.parse_later(piece, offset, quoted_piece, schema)
 
-    return reader.profiled(schema), stream(), expected
+    return schema, stream(), expected
 
 
 def _compressed(path: str) -> bool:

@@ -369,7 +369,7 @@ def _csv_range(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
         table = reader.parse_first(buffer, piece.quoted)
         _same_schema(table.schema, piece.path, layout)
     else:
-        table = reader.parse(buffer, piece.start, piece.quoted, {f.name: f.type for f in layout.schema})
+        table = reader.parse_later(buffer, piece.start, piece.quoted, layout.schema)
     yield from table_batches(table, layout.batch_rows)
 
 
