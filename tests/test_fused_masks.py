@@ -92,15 +92,17 @@ def test_conjuncts_keep_the_rows_of_the_written_mask_in_any_order() -> None:
             pd.testing.assert_frame_equal(split, expected)
 
 
+# A regular expression on every row is what the split saves (an equality test of strings costs
+# more the larger the share it matches, which the cost model does not price: DEVELOPERS.md).
 COSTLY = '''import pandas as pd
 
 
 def costly(frame):
-    return frame[(frame.distance > 100) & (frame.origin == "JFK") & (frame.dest == "MIA")]
+    return frame[(frame.distance > 100) & frame.origin.str.contains("^J.K$") & (frame.dest == "MIA")]
 
 
 def chain(frame):
-    return frame[frame.distance > 100].loc[lambda d: d.origin == "JFK"].loc[lambda d: d.dest == "MIA"]
+    return frame[frame.distance > 100].loc[lambda d: d.origin.str.contains("^J.K$")].loc[lambda d: d.dest == "MIA"]
 '''
 
 
@@ -118,7 +120,7 @@ def test_a_written_mask_is_split_where_that_is_cheaper_and_keeps_its_rows(projec
     assert set(found) == {6, 11} and found[6] == found[11] and found[6][0] == [2]
     CliRunner().invoke(main, ["check", "--jobs", "1", "--fix", str(path)])
     after = path.read_text()
-    assert after.split("\n")[5] == '    return frame[frame.dest == "MIA"][lambda d: (d.distance > 100) & (d.origin == "JFK")]'
+    assert after.split("\n")[5] == '    return frame[frame.dest == "MIA"][lambda d: (d.distance > 100) & d.origin.str.contains("^J.K$")]'
     written: dict = {"pd": pd}
     fixed: dict = {"pd": pd}
     exec(compile(before, "fused.py", "exec"), written)  # the test's own module and its rewrite

