@@ -343,3 +343,79 @@ def test_hostile_chains_keep_the_promise_in_any_plan(frame: pd.DataFrame, source
     rewritten = apply_edits(source, [edit])
     verify(text, rewritten, [(chain, groups)])
     _same(_run(source, frame), _run(rewritten, frame))
+
+
+# -- names read through computed text -----------------------------------------------------------
+
+
+def _text_frame() -> pd.DataFrame:
+    rng = np.random.default_rng(13)
+    rows = 20_000
+    return pd.DataFrame({"a": rng.integers(0, 100, rows),
+                         "s": pd.array(rng.choice(["an", "apple", "banana"], rows, p=[0.01, 0.49, 0.5]), dtype="str")})
+
+
+_COMPUTED_TEXT = {
+    "a query's text held by a name": ("Q = 'a in @{frame}.a'\n", "other.query(Q)"),
+    "a query's text joined from parts": ("", "other.query('a in @' + '{frame}.a')"),
+    "a query's text formatted": ("", "other.query('a in @{{}}.a'.format('{frame}'))"),
+    "an f-string placeholder naming the frame": ("k = '{frame}'\n", "other.query(f'a in @{{k}}.a')"),
+    "a query's text as a keyword": ("Q = 'a in @{frame}.a'\n", "other.query(expr=Q)"),
+    "a pd.eval text held by a name": ("E = '{frame}.a.sum() + other.a'\n", "other.assign(a=pd.eval(E))"),
+    "a frame's eval text held by a name": ("E = 'a + @{frame}.a.sum()'\n", "other.assign(a=other.eval(E))"),
+}
+
+
+@pytest.mark.parametrize("name", sorted(_COMPUTED_TEXT))
+@pytest.mark.parametrize("where", ["stepped over", "after a renamed run"])
+def test_a_frame_read_through_computed_text_keeps_its_statement(tmp_path: Path, name: str, where: str) -> None:
+    """pandas resolves a query's `@name` (and a `pd.eval` text's names) among the caller's
+    variables whatever code built the text (pandas docs, DataFrame.query, pandas.eval): text
+    held by a name, joined, formatted or an f-string may read the run's frame as the statement
+    between its filters sees it, or a name the joined run stops binding. find/runs.py: such a
+    call may read any name."""
+    setup, call = _COMPUTED_TEXT[name]
+    if where == "stepped over":
+        body = (setup.format(frame="out") + "out = df[df.a > 1]\nextra = " + call.format(frame="out")
+                + "\nout = out[out.s == 'an']\nout = (out, extra)\n")
+    else:
+        body = (setup.format(frame="north") + "north = df[df.a > 1]\nlate = north[north.s == 'an']\nextra = "
+                + call.format(frame="north") + "\nout = (late, extra)\n")
+    frame = _text_frame()
+    path = _project(tmp_path, frame, body)
+    written = path.read_text()
+    fixed = _fix(path)
+    for variant in _variants(frame).values():
+        before, after = _run_with(written, variant), _run_with(fixed, variant)
+        assert not isinstance(before, Exception), before
+        assert not isinstance(after, Exception), f"the fix raises {type(after).__name__}: {after}\n{fixed}"
+        for old, new in zip(before, after):
+            pd.testing.assert_frame_equal(new, old, check_exact=True, check_index_type="equiv", check_freq=False)
+
+
+def _run_with(source: str, frame: pd.DataFrame) -> Any:
+    """`out` as `_run` gives it, with `other` (a second frame) in scope."""
+    scope: dict[str, Any] = {"df": frame.copy(), "other": frame.iloc[::3].copy()}
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        try:
+            exec(compile(source, "<pipeline>", "exec"), scope)
+        except Exception as error:  # noqa: BLE001 - the exception is what is compared
+            return error
+    return scope["out"]
+
+
+@pytest.mark.parametrize(("code", "any_name"), [
+    ("other.query('a in @north.a')", False),
+    ("model.eval()", False),  # no text: not pandas' eval
+    ("other.query(Q)", True),
+    ("pd.eval(f'{x} + 1')", True),
+    ("other.query(**options)", True),
+    ("other.query(expr='a > 1')", False),
+])
+def test_which_text_calls_may_read_any_name(code: str, any_name: bool) -> None:
+    import ast
+
+    from chainlint.find.runs import ANY_NAME, text_reads
+
+    assert (ANY_NAME in text_reads(ast.parse(code))) is any_name

@@ -39,7 +39,9 @@ _WORD = re.compile(r"[A-Za-z_][A-Za-z_0-9]*")
 def text_reads(node: ast.AST) -> list[str]:
     """Names read through text: `@name` in a `.query`/`.eval` string (pandas resolves it among
     the caller's variables), every word of a `pd.eval`/`eval` string, and `ANY_NAME` for a bare
-    call of `eval`, `exec`, `locals`, `vars` or `globals`. More than pandas reads, never less."""
+    call of `eval`, `exec`, `locals`, `vars` or `globals`, or a `.query`/`.eval` whose text is
+    not written in the call as a literal (held by a name, joined, formatted, an f-string with a
+    placeholder: its names are out of the code's sight). More than pandas reads, never less."""
     found: list[str] = []
     for call in ast.walk(node):
         if not isinstance(call, ast.Call):
@@ -50,11 +52,22 @@ def text_reads(node: ast.AST) -> list[str]:
             found.append(ANY_NAME)
         if name in ("query", "eval"):
             pattern = _WORD if name == "eval" else _LOCAL
+            if not _literal_text(call):
+                found.append(ANY_NAME)
             for argument in [*call.args, *(k.value for k in call.keywords)]:
                 for text in ast.walk(argument):
                     if isinstance(text, ast.Constant) and isinstance(text.value, str):
                         found.extend(pattern.findall(text.value))
     return found
+
+
+def _literal_text(call: ast.Call) -> bool:
+    """Whether the text a `.query`/`.eval` call evaluates is a string literal in the call (a
+    call without arguments, such as a model's `.eval()`, evaluates no text)."""
+    if not call.args and not call.keywords:
+        return True
+    text = call.args[0] if call.args else next((k.value for k in call.keywords if k.arg in ("expr", None)), None)
+    return isinstance(text, ast.Constant) and isinstance(text.value, str)
 
 
 def mentioned(node: ast.AST) -> set[str]:
