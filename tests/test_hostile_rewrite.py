@@ -419,3 +419,67 @@ def test_which_text_calls_may_read_any_name(code: str, any_name: bool) -> None:
     from chainlint.find.runs import ANY_NAME, text_reads
 
     assert (ANY_NAME in text_reads(ast.parse(code))) is any_name
+
+
+# -- the dtypes the code's own read call gives ---------------------------------------------------
+
+
+def _csv_project(root: Path, body: str) -> tuple[Path, pd.DataFrame]:
+    """A CSV whose text column is missing only where `a <= 1`, profiled as `pd.read_csv` reads
+    it by default (`s` as `str`), and a module reading it with its own options."""
+    rng = np.random.default_rng(17)
+    rows = 5_000
+    a = rng.integers(0, 100, rows)
+    s = np.where(rng.random(rows) < 0.02, "an", rng.choice(["apple", "banana"], rows)).astype(object)
+    s[a <= 1] = None
+    frame = pd.DataFrame({"a": a, "s": s})
+    (root / "pyproject.toml").write_text("[project]\nname = 'hostile'\n")
+    frame.to_csv(root / "data.csv", index=False)
+    result = CliRunner().invoke(main, ["profile", str(root / "data.csv"), "--name", "data", "--store", str(root / ".chainlint")])
+    assert result.exit_code == 0, result.output
+    path = root / "pipeline.py"
+    path.write_text(f"import numpy as np\nimport pandas as pd\n\nOPTIONS = {{'dtype': {{'s': object}}}}\nT = {{'s': 'object'}}\n{body}")
+    return path, frame
+
+
+@pytest.mark.parametrize("read", [
+    "pd.read_csv(PATH, dtype={'s': object})",
+    "pd.read_csv(PATH, dtype={'s': 'object'})",
+    "pd.read_csv(PATH, dtype={'s': 'O'})",
+    "pd.read_csv(PATH, dtype={'s': np.object_})",
+    "pd.read_csv(PATH, dtype={'a': 'int64', 's': object})",
+    "pd.read_csv(PATH, dtype=T)",
+    "pd.read_csv(PATH, **OPTIONS)",
+])
+def test_the_code_reading_other_dtypes_than_profiled_keeps_the_promise(tmp_path: Path, read: str) -> None:
+    """`.str.startswith` of an `object` column gives None for a missing value, which pandas
+    refuses as a mask (ValueError, pandas 3.1), while a `str` column's gives False: the profile
+    says `str`, the code reads `object`. Moved before `a > 1`, which removes the missing rows,
+    the step raises. find/origins.py reads the call's `dtype=`; bind/dtypes.py gives the frame
+    the code's dtypes, and none where the call passes options chainlint does not follow."""
+    body = f"df = {read.replace('PATH', repr(str(tmp_path / 'data.csv')))}\nout = df.loc[lambda d: d.a > 1].loc[lambda d: d.s.str.startswith('an')]\n"
+    path, frame = _csv_project(tmp_path, body)
+    written = path.read_text()
+    fixed = _fix(path)
+    before, after = _run(written, frame), _run(fixed, frame)
+    assert not isinstance(before, Exception), before
+    _same(before, after)
+
+
+@pytest.mark.parametrize(("read", "expected"), [
+    ("pd.read_csv('d.csv', dtype={'s': object, 'a': 'Int64'})", {"a": "Int64", "s": "object", "x": "float32"}),
+    ("pd.read_csv('d.csv', dtype='O')", {"a": "object", "s": "object", "x": "object"}),
+    ("pd.read_csv('d.csv', dtype={'s': str})", {"a": "int64", "s": "str", "x": "float32"}),
+    ("pd.read_csv('d.csv', sep=';')", {"a": "int64", "s": "str", "x": "float32"}),
+    ("pd.read_csv('d.csv', converters={'x': float})", {}),
+    ("pd.read_csv('d.csv', dtype_backend='pyarrow')", {}),
+    ("pd.read_csv('d.csv', dtype=TYPES)", {}),
+    ("pd.read_parquet('d.parquet', **options)", {}),
+    ("pd.read_parquet('d.parquet').astype({'s': object})", {"a": "int64", "s": "str", "x": "float32"}),  # README: assumed
+])
+def test_the_dtypes_a_read_call_gives(read: str, expected: dict[str, str]) -> None:
+    from chainlint.bind.dtypes import frame_dtypes
+
+    source = f"import pandas as pd\ndf = {read}\nout = df[df.a > 1][lambda d: d.s == 'x']\n"
+    (chain,) = analyse_source(text_source("pipeline.py", source)).chains
+    assert frame_dtypes(chain.origin, {"a": "int64", "s": "str", "x": "float32"}) == expected

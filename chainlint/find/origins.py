@@ -65,16 +65,45 @@ def _frozen(value: object) -> object:
     return value
 
 
+#: Read options that leave the dtypes of the columns read as a profile records them.
+SAME_DTYPES = frozenset({"filepath_or_buffer", "path", "path_or_buf", "columns", "usecols", "index_col", "compression",
+                         "storage_options", "memory_map", "encoding_errors", "filters", "low_memory"})
+#: Python's type names as `dtype=` takes them, by the dtype pandas 3 gives.
+_TYPE_NAMES = {"object": "object", "str": "str", "int": "int64", "float": "float64", "bool": "bool"}
+
+
+def _literal(keyword: ast.keyword) -> object:
+    """A read option's literal value; `dtype=` may also name Python's types (`{'s': object}`)."""
+    value = keyword.value
+    if keyword.arg == "dtype":
+        if isinstance(value, ast.Name) and value.id in _TYPE_NAMES:
+            return _TYPE_NAMES[value.id]
+        if isinstance(value, ast.Dict) and all(isinstance(v, ast.Name) and v.id in _TYPE_NAMES or isinstance(v, ast.Constant)
+                                               for v in value.values):
+            value = ast.Dict(value.keys, [ast.Constant(_TYPE_NAMES[v.id]) if isinstance(v, ast.Name) else v for v in value.values])
+    return _frozen(ast.literal_eval(value))
+
+
 def read_options(call: ast.expr) -> tuple[tuple[str, object], ...]:
     """The reader options a read call passes as literals, in keyword order; others are left out."""
     found = []
     for keyword in call.keywords if isinstance(call, ast.Call) else ():
         if keyword.arg in READ_OPTIONS:
             try:
-                found.append((keyword.arg, _frozen(ast.literal_eval(keyword.value))))
+                found.append((keyword.arg, _literal(keyword)))
             except (ValueError, TypeError, SyntaxError, MemoryError, RecursionError):
                 continue
     return tuple(found)
+
+
+def unfollowed_options(call: ast.expr) -> tuple[str, ...]:
+    """The options of a read call that may give other dtypes than a profile records and that
+    chainlint does not follow (`converters`, `dtype_backend`, `names`, `nrows`, a followed one not
+    written as a literal, `**`): every option but those of `SAME_DTYPES` and the literal ones of
+    `READ_OPTIONS`."""
+    followed = {name for name, _ in read_options(call)}
+    return tuple(k.arg or "**" for k in (call.keywords if isinstance(call, ast.Call) else ())
+                 if k.arg not in SAME_DTYPES and k.arg not in followed)
 
 
 class Origins:
@@ -118,7 +147,8 @@ class Origins:
         reader, path = self.reader_call(value)
         kind = OriginKind.READ if reader else OriginKind.ASSIGNED
         options = read_options(value) if reader else ()
-        self.scopes[-1][1][target.id] = FrameOrigin(target.id, kind, reader, path, self.comment_on(statement), options)
+        unfollowed = unfollowed_options(value) if reader else ()
+        self.scopes[-1][1][target.id] = FrameOrigin(target.id, kind, reader, path, self.comment_on(statement), options, unfollowed)
 
     def reader_call(self, value: ast.expr) -> tuple[str | None, str | None]:
         """`("read_parquet", "data/x.parquet")` for `pd.read_parquet("data/x.parquet")`."""
@@ -138,7 +168,7 @@ class Origins:
     def lookup(self, name: str | None, base: ast.expr) -> FrameOrigin | None:
         reader, path = self.reader_call(base)
         if reader:
-            return FrameOrigin(name or "", OriginKind.READ, reader, path, None, read_options(base))
+            return FrameOrigin(name or "", OriginKind.READ, reader, path, None, read_options(base), unfollowed_options(base))
         if name is None:
             return None
         for function, assigned in reversed(self.scopes):

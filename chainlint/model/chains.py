@@ -138,7 +138,8 @@ class FrameOrigin:
     parameter of the enclosing function), `assigned` (assigned from anything else) or `unknown`;
     `profile`: a `# chainlint: profile=NAME` comment on the assigning statement; `read_options`:
     the reader options the call passes as literals (`sep`, `header`, `na_values`, ...), lists as
-    tuples and dictionaries as tuples of pairs.
+    tuples and dictionaries as tuples of pairs; `unfollowed`: the call's options that may change
+    its dtypes and are not followed (`converters`, `dtype_backend`, a computed `dtype`, `**`).
     """
 
     name: str
@@ -147,6 +148,7 @@ class FrameOrigin:
     path: str | None = None
     profile: str | None = None
     read_options: tuple[tuple[str, object], ...] = ()  # literal keyword arguments of the read call
+    unfollowed: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
