@@ -483,3 +483,19 @@ def test_the_dtypes_a_read_call_gives(read: str, expected: dict[str, str]) -> No
     source = f"import pandas as pd\ndf = {read}\nout = df[df.a > 1][lambda d: d.s == 'x']\n"
     (chain,) = analyse_source(text_source("pipeline.py", source)).chains
     assert frame_dtypes(chain.origin, {"a": "int64", "s": "str", "x": "float32"}) == expected
+
+
+@pytest.mark.parametrize(("read", "named"), [
+    ("pd.read_csv('d.csv', converters={'x': float})", "`converters=`"),
+    ("pd.read_parquet('d.parquet', dtype_backend='pyarrow', **options)", "`dtype_backend=`, `**`"),
+])
+def test_explain_names_the_read_options_that_leave_the_dtypes_unknown(read: str, named: str) -> None:
+    from chainlint.bind.dtypes import frame_dtypes, unknown_because
+    from chainlint.plan.totality import judge
+
+    source = f"import pandas as pd\ndf = {read}\nout = df[df.a > 1][lambda d: d.s == 'x']\n"
+    (chain,) = analyse_source(text_source("pipeline.py", source)).chains
+    reason = unknown_because(chain.origin)
+    assert reason is not None and f"with {named}, which may change" in reason
+    limit = judge(chain.steps[0].predicate, frame_dtypes(chain.origin, {"a": "int64"}), "p", reason)
+    assert (limit.moves, limit.reason) == ("stays", reason)

@@ -29,3 +29,11 @@ def frame_dtypes(origin: FrameOrigin | None, profiled: Mapping[str, str]) -> dic
         if isinstance(pair, tuple) and len(pair) == 2 and isinstance(pair[1], str) and pair[0] in dtypes:
             dtypes[pair[0]] = _SPELLINGS.get(pair[1], pair[1])
     return dtypes
+
+
+def unknown_because(origin: FrameOrigin | None) -> str | None:
+    """Why every column's dtype is unknown (`frame_dtypes` gave none), for `explain`."""
+    if origin is None or origin.kind is not OriginKind.READ or not origin.unfollowed:
+        return None
+    options = ", ".join(f"`{name}=`" if name != "**" else "`**`" for name in origin.unfollowed)
+    return f"the code reads its frame with {options}, which may change the dtypes profiled and which chainlint does not follow"

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from chainlint.bind.binding import Binding
-from chainlint.bind.dtypes import frame_dtypes
+from chainlint.bind.dtypes import frame_dtypes, unknown_because
 from chainlint.estimate.cost import (
     DEFAULT_MODEL,
     CostModel,
@@ -136,8 +136,9 @@ def plan_chain(chain: Chain, binding: Binding, estimator: Estimator, rows: int |
         return cache[mask]
 
     clustered = [estimator.clustering(step.predicate) for step in chain.steps]
+    unknown = None if dtypes is not None else unknown_because(chain.origin)
     dtypes = dtypes if dtypes is not None else frame_dtypes(chain.origin, profile.dtypes())
-    limits = tuple(judge(step.predicate, dtypes, binding.profile or "") if step.movable else None for step in chain.steps)
+    limits = tuple(judge(step.predicate, dtypes, binding.profile or "", unknown) if step.movable else None for step in chain.steps)
 
     joinable = may_join(chain, limits, dtypes)
 

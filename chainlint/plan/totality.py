@@ -97,15 +97,17 @@ def column_kind(dtype: str | None) -> str | None:
     return _OTHER
 
 
-def judge(predicate: Node, dtypes: Mapping[str, str], profile: str = "the profile") -> Limit:
-    """How far a step with this predicate may move, for columns of these dtypes."""
-    return _Judge(dtypes, profile).limit(predicate)
+def judge(predicate: Node, dtypes: Mapping[str, str], profile: str = "the profile", unknown: str | None = None) -> Limit:
+    """How far a step with this predicate may move, for columns of these dtypes; `unknown` says
+    why a column has none where that is not the profile's doing."""
+    return _Judge(dtypes, profile, unknown).limit(predicate)
 
 
 class _Judge:
-    def __init__(self, dtypes: Mapping[str, str], profile: str) -> None:
+    def __init__(self, dtypes: Mapping[str, str], profile: str, unknown: str | None = None) -> None:
         self.dtypes = dtypes
         self.profile = profile
+        self.unknown = unknown
         self.worst = TOTAL
 
     def limit(self, predicate: Node) -> Limit:
@@ -146,7 +148,8 @@ class _Judge:
     def column(self, node: Column) -> str:
         kind = column_kind(self.dtypes.get(node.name))
         if kind is None:
-            self.note(STAYS, f"reads `{node.name}`, which profile `{self.profile}` does not hold as a plain column", prefixed=False)
+            self.note(STAYS, self.unknown or f"reads `{node.name}`, which profile `{self.profile}` does not hold as a plain column",
+                      prefixed=False)
             return _OTHER
         if kind == _SIZED:
             self.note(STAYS, f"`{node.name}` is {self.dtypes[node.name]}, which pandas computes with numexpr on large frames and numpy on small ones")
