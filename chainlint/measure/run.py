@@ -21,7 +21,7 @@ import pyarrow as pa
 from chainlint.evaluate.pandas_masks import apply_group
 from chainlint.evaluate.support import unevaluable
 from chainlint.model import Chain, ChainlintError
-from chainlint.profile.dtypes import INTEGERS_KEY, fixed_dtype
+from chainlint.profile.dtypes import NUMBERS_KEY, fixed_dtype
 from chainlint.profile.read_options import CsvOptions
 from chainlint.profile.readers import open_dataset
 
@@ -110,7 +110,7 @@ def as_read_csv(table: pa.Table) -> pd.DataFrame:
         dtype = fixed_dtype(field)
         if dtype == "category":
             frame[field.name] = _categorical(table.column(field.name))
-        elif INTEGERS_KEY in (field.metadata or {}) and dtype == "object":
+        elif NUMBERS_KEY in (field.metadata or {}) and dtype == "object":
             # Python ints, counted as float64 by the profiler: exact up to 2**53 only.
             frame[field.name] = pd.Series([int(v) if math.isfinite(v) else v for v in frame[field.name]], dtype=object,
                                           index=frame.index)

@@ -18,10 +18,10 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 
-from chainlint.profile import csv_integers
+from chainlint.profile import csv_numbers
 from chainlint.profile.csv_layout import csv_layout
 from chainlint.profile.csv_places import first_failing_line, line_at
-from chainlint.profile.dtypes import INTEGERS_KEY, pandas_schema, with_dtype
+from chainlint.profile.dtypes import NUMBERS_KEY, pandas_schema, pandas_type, with_dtype
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import CsvOptions
 from chainlint.profile.remote import file_size, input_stream, is_url, named_codec
@@ -60,7 +60,7 @@ class CsvFile:
         self.types = {name: _DTYPES[d] for name, d in options.dtype if d != "category"}
         for name in options.parse_dates:
             self.types[name] = pa.timestamp("us")
-        self.integers: dict[str, str] = {}  # columns of integers beyond int64: how pandas reads them
+        self.numbers: dict[str, str] = {}  # columns of numbers pyarrow reads otherwise: how pandas reads them
         missing = sorted({name for name, _ in options.dtype} - set(self.layout.names) | set(self.types) - set(self.layout.names))
         if missing:
             raise DataError(f"no column {missing[0]!r} (named by dtype or parse_dates)", path=str(path))
@@ -69,8 +69,8 @@ class CsvFile:
         """The parsed schema as profiled: each column given a `dtype=` pandas keeps whatever
         its values marked with it."""
         fixed = {name: d for name, d in self.options.dtype if d in _FIXED}
-        fixed.update({name: "object" for name, decision in self.integers.items() if decision == csv_integers.OBJECT})
-        marked = [f.with_metadata({INTEGERS_KEY: self.integers[f.name].encode()}) if f.name in self.integers else f for f in schema]
+        fixed.update({name: "object" for name, decision in self.numbers.items() if decision == csv_numbers.OBJECT})
+        marked = [f.with_metadata({NUMBERS_KEY: self.numbers[f.name].encode()}) if f.name in self.numbers else f for f in schema]
         return pandas_schema(pa.schema([with_dtype(f, fixed[f.name]) if f.name in fixed else f for f in marked]))
 
     def convert(self, types: dict[str, pa.DataType]) -> pacsv.ConvertOptions:
@@ -91,47 +91,63 @@ class CsvFile:
         for index, field in enumerate(table.schema):
             if pa.types.is_null(field.type):  # every value missing: pandas reads float64 NaN
                 table = table.set_column(index, field.name, pa.nulls(table.num_rows, pa.float64()))
-        # pyarrow reads integers beyond int64 as float64, pandas as uint64, Python ints or text.
-        beyond = [f.name for f in table.schema if f.name not in self.types and pa.types.is_float64(f.type)
-                  and (pc.max(pc.abs(table.column(f.name))).as_py() or 0) >= 2**63]
-        fields = self._fields(piece, 0, quoted, beyond, first=True)
-        for name in beyond:
-            decision = csv_integers.read_as(fields[name][0])
-            if decision != csv_integers.FLOAT:
-                self.integers[name] = decision
-                table = table.set_column(table.schema.get_field_index(name), name, csv_integers.column(*fields[name], decision))
+        # Where pyarrow's reading of numbers may differ from pandas', the fields decide.
+        hex_words = _holds_hex(piece)
+        doubtful = [f.name for f in table.schema if f.name not in self.types and _doubtful(table.column(f.name), hex_words)]
+        for name, (raw, missing) in self._texts(piece, quoted, doubtful, first=True).items():
+            decision = csv_numbers.decide(raw, missing)
+            arrow_type = table.schema.field(name).type
+            if decision == csv_numbers.dtype_of(decision) and pandas_type(arrow_type, table.column(name).null_count > 0) == decision:
+                continue  # pyarrow's reading stands
+            if decision != csv_numbers.STR:
+                self.numbers[name] = decision
+            table = table.set_column(table.schema.get_field_index(name), name, csv_numbers.column(raw, missing, decision))
+        words = [f.name for f in table.schema if f.name not in self.types and _booleans(table.column(f.name))]
+        for name, (raw, missing) in self._texts(piece, quoted, words, first=True).items():
+            self.numbers[name] = csv_numbers.BOOL
+            table = table.set_column(table.schema.get_field_index(name), name, csv_numbers.column(raw, missing, csv_numbers.BOOL))
         return table
 
     def parse_later(self, piece: pa.Buffer, offset: int, quoted: bool, schema: pa.Schema) -> pa.Table:
-        """A piece after the first, read in the types of the schema as profiled; a column of
-        integers beyond int64 as the first piece decided (a field that would change the decision
-        is an error: pandas' dtype depends on the whole column)."""
-        self.integers = {f.name: f.metadata[INTEGERS_KEY].decode() for f in schema if INTEGERS_KEY in (f.metadata or {})}
-        table = self.parse(piece, offset, quoted, {f.name: pa.string() if f.name in self.integers else f.type for f in schema})
-        fields = self._fields(piece, offset, quoted, list(self.integers))
-        for name, decision in self.integers.items():
-            misfit = next((i for i, text in enumerate(fields[name][0]) if not csv_integers.fits(text, decision)), None)
+        """A piece after the first, read in the types of the schema as profiled, and each column
+        the first piece decided from its fields (`csv_numbers.py`) as decided: a field that would
+        change pandas' dtype is an error (pandas types the whole column)."""
+        self.numbers = {f.name: f.metadata[NUMBERS_KEY].decode() for f in schema if NUMBERS_KEY in (f.metadata or {})}
+        table = self.parse(piece, offset, quoted, {f.name: pa.string() if f.name in self.numbers else f.type for f in schema})
+        hexed = [f.name for f in schema if f.name not in self.numbers and f.name not in self.types
+                 and (pa.types.is_integer(f.type) or pa.types.is_floating(f.type))] if _holds_hex(piece) else []
+        texts = self._texts(piece, quoted, list(self.numbers) + hexed)
+        for name in hexed:
+            decision = csv_numbers.decide(*texts[name])
+            if decision == csv_numbers.STR:
+                hexes = pc.match_substring_regex(texts[name][0], "0[xX]").to_pylist()
+                raise self._changes(name, texts[name][0], hexes.index(True) if True in hexes else 0, offset)
+        for name, decision in self.numbers.items():
+            raw, missing = texts[name]
+            misfit = next((i for i, (text, m) in enumerate(zip(raw.to_pylist(), missing.to_pylist()))
+                           if not csv_numbers.fits(None if m else text, decision)), None)
             if misfit is not None:
-                raise DataError(f"column {name!r}: the field {fields[name][1][misfit].as_py()!r} after the file's first part changes the "
-                                f"type pandas gives it ({csv_integers.dtype_of(decision)}); name its dtype, e.g. `str`, to read it",
-                                path=str(self.path), line=line_at(self.path, offset) + misfit)
-            table = table.set_column(table.schema.get_field_index(name), name, csv_integers.column(*fields[name], decision))
+                raise self._changes(name, raw, misfit, offset)
+            table = table.set_column(table.schema.get_field_index(name), name, csv_numbers.column(raw, missing, decision))
         return table
 
-    def _fields(self, piece: pa.Buffer, offset: int, quoted: bool, names: list[str],
-                first: bool = False) -> dict[str, tuple[list[str | None], pa.Array]]:
-        """Each named column's fields as pandas' parser sees them: (None where a missing-value
-        spelling, the text otherwise; the texts)."""
+    def _changes(self, name: str, raw: pa.Array, row: int, offset: int) -> DataError:
+        return DataError(f"column {name!r}: the field {raw[row].as_py()!r} after the file's first part changes the type pandas "
+                         "gives the column; name its dtype, e.g. `str`, to read it", path=str(self.path), line=line_at(self.path, offset) + row)
+
+    def _texts(self, piece: pa.Buffer, quoted: bool, names: list[str], first: bool = False) -> dict[str, tuple[pa.Array, pa.Array]]:
+        """Each named column's fields as text, as pandas' parser sees them, and which are missing
+        spellings."""
         if not names:
             return {}
-        missing = set(PANDAS_NA + self.options.na_values)
         table = pacsv.read_csv(piece, read_options=self._read_options(first, threads=True),
                                parse_options=pacsv.ParseOptions(delimiter=self.delimiter, newlines_in_values=quoted),
                                convert_options=pacsv.ConvertOptions(
                                    include_columns=names, column_types={n: pa.string() for n in names}, null_values=[],
                                    strings_can_be_null=False, quoted_strings_can_be_null=False))
+        pattern = csv_numbers.missing_pattern(PANDAS_NA + self.options.na_values)
         texts = {name: table.column(name).combine_chunks() for name in names}
-        return {name: ([None if t in missing else t for t in raw.to_pylist()], raw) for name, raw in texts.items()}
+        return {name: (raw, pc.match_substring_regex(raw, pattern)) for name, raw in texts.items()}
 
     def _read_options(self, first: bool, threads: bool) -> pacsv.ReadOptions:
         layout = self.layout
@@ -183,6 +199,35 @@ class CsvFile:
             return DataError(f"{message} (the file's first part decided this column's type; "
                              "name its dtype, e.g. `str`, to read it otherwise)", path=str(path), line=line)
         return DataError(message, path=str(path))
+
+
+def _holds_hex(piece: pa.Buffer) -> bool:
+    """Whether a piece may hold a hexadecimal number, which pyarrow reads and pandas does not."""
+    codes = np.frombuffer(piece, dtype=np.uint8)
+    after = np.flatnonzero((codes[1:] | 0x20) == ord("x"))  # an x or X, at index + 1
+    return bool(np.any(codes[after] == ord("0")))
+
+
+def _doubtful(column: pa.ChunkedArray, hex_words: bool) -> bool:
+    """Whether pyarrow's reading of a numeric column may differ from pandas': floats that are
+    all whole (integers with a sign or trailing spaces), beyond int64 or infinite (integers
+    beyond int64, `inf` with spaces), NaN (`nan` with spaces), hexadecimal numbers."""
+    if pa.types.is_integer(column.type):
+        return hex_words
+    if not pa.types.is_floating(column.type) or column.null_count == len(column):
+        return False
+    return (hex_words or bool(pc.any(pc.is_nan(column)).as_py()) or (pc.max(pc.abs(column)).as_py() or 0) >= 2**63
+            or bool(pc.all(pc.equal(pc.floor(column), column)).as_py()))
+
+
+def _booleans(column: pa.ChunkedArray) -> bool:
+    """Whether a column pyarrow reads as text holds only `true` and `false` in any case, which
+    pandas reads as booleans (its first value is looked at first)."""
+    if not pa.types.is_string(column.type) or column.null_count == len(column):
+        return False
+    values = column.drop_null()
+    first = pc.match_substring_regex(values.slice(0, 1), csv_numbers.ARROW_BOOLEAN)
+    return bool(pc.all(first).as_py()) and bool(pc.all(pc.match_substring_regex(values, csv_numbers.ARROW_BOOLEAN)).as_py())
 
 
 def column_names(schema: pa.Schema, path: str) -> list[str]:

@@ -34,9 +34,9 @@ def value_kind(arrow_type: pa.DataType) -> str:
 #: values (a categorical, a nullable or pyarrow-backed dtype, a `read_csv` dtype); a field
 #: without it gets the dtype its Arrow type and its nulls give (`pandas_type`).
 DTYPE_KEY = b"chainlint.dtype"
-#: Field metadata of a CSV column of integers beyond int64: how pandas reads it
-#: (`profile/csv_integers.py`), so that every piece of the file is read alike.
-INTEGERS_KEY = b"chainlint.csv-integers"
+#: Field metadata of a CSV column of numbers pyarrow reads otherwise: how pandas reads it
+#: (`profile/csv_numbers.py`), so that every piece of the file is read alike.
+NUMBERS_KEY = b"chainlint.csv-numbers"
 
 #: The extension dtypes pyarrow's `Table.to_pandas` restores from the `numpy_type` the pandas
 #: metadata records (pandas' own names: nullable numbers and booleans, `string`, `str`, and
@@ -59,7 +59,7 @@ def pandas_schema(schema: pa.Schema) -> pa.Schema:
     for field in schema:
         dtype = fixed_dtype(field) or _fixed_dtype(field.type, recorded.get(field.name))
         value_type = field.type.value_type if pa.types.is_dictionary(field.type) else field.type
-        marks = {k: v for k, v in (field.metadata or {}).items() if k == INTEGERS_KEY}
+        marks = {k: v for k, v in (field.metadata or {}).items() if k == NUMBERS_KEY}
         if dtype:
             marks[DTYPE_KEY] = dtype.encode()
         fields.append(pa.field(field.name, value_type, metadata=marks or None))
