@@ -106,3 +106,13 @@ def test_columns_decided_from_their_fields_are_read_alike_in_every_piece(tmp_pat
         assert error.line == 42 and "'n'" in str(error) and "0x10" in str(error)
     else:
         raise AssertionError("a later hexadecimal number was not refused")
+
+    # Missing throughout the first piece, then an integer beyond int64: pandas reads text.
+    path.write_text("late,n\n" + "".join(f",{i}\n" for i in range(40)) + f"{B},40\n")
+    assert str(pd.read_csv(path)["late"].dtype) == "str"
+    try:
+        profile_dataset(open_dataset([str(path)]), "pieces", Settings(min_count=1))
+    except DataError as error:
+        assert error.line == 42 and "'late'" in str(error)
+    else:
+        raise AssertionError("an integer beyond int64 after missing values was not refused")

@@ -33,8 +33,10 @@ import pyarrow.compute as pc
 
 INT64_MIN, INT64_MAX, UINT64_MAX = -(2**63), 2**63 - 1, 2**64 - 1
 
-#: Decisions: pandas' dtype, and for text whether missing spellings stay text (`signs`, `text`).
+#: Decisions: pandas' dtype, and for text whether missing spellings stay text (`signs`, `text`);
+#: `empty`: every field of the first piece missing (float64 NaN) and pandas' scan still open.
 INT64, FLOAT64, STR, UINT64, OBJECT, SIGNS, TEXT, BOOL = "int64", "float64", "str", "uint64", "object", "signs", "text", "bool"
+EMPTY = "empty"
 
 _SPACE = "[ \t\n\v\f\r]*"
 _INTEGER = re.compile(f"{_SPACE}([+-]?[0-9]+)({_SPACE})")

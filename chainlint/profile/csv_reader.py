@@ -18,6 +18,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 
+from chainlint.arrays import filled_numpy
 from chainlint.profile import csv_numbers
 from chainlint.profile.csv_layout import csv_layout
 from chainlint.profile.csv_places import first_failing_line, line_at
@@ -91,6 +92,7 @@ class CsvFile:
         for index, field in enumerate(table.schema):
             if pa.types.is_null(field.type):  # every value missing: pandas reads float64 NaN
                 table = table.set_column(index, field.name, pa.nulls(table.num_rows, pa.float64()))
+                self.numbers[field.name] = csv_numbers.EMPTY
         # Where pyarrow's reading of numbers may differ from pandas', the fields decide.
         hex_words = _holds_hex(piece)
         doubtful = [f.name for f in table.schema if f.name not in self.types and _doubtful(table.column(f.name), hex_words)]
@@ -112,8 +114,15 @@ class CsvFile:
         """A piece after the first, read in the types of the schema as profiled, and each column
         the first piece decided from its fields (`csv_numbers.py`) as decided: a field that would
         change pandas' dtype is an error (pandas types the whole column)."""
-        self.numbers = {f.name: f.metadata[NUMBERS_KEY].decode() for f in schema if NUMBERS_KEY in (f.metadata or {})}
+        marked = {f.name: f.metadata[NUMBERS_KEY].decode() for f in schema if NUMBERS_KEY in (f.metadata or {})}
+        self.numbers = {name: decision for name, decision in marked.items() if decision != csv_numbers.EMPTY}
         table = self.parse(piece, offset, quoted, {f.name: pa.string() if f.name in self.numbers else f.type for f in schema})
+        for name in sorted(set(marked) - set(self.numbers)):
+            # Missing throughout the first piece: pandas' scan for integers is still open, and an
+            # integer beyond int64 (pyarrow: a float) would make the column uint64 or text.
+            beyond = np.flatnonzero(np.abs(filled_numpy(table.column(name).combine_chunks(), 0.0)) >= 2.0**63)
+            if beyond.size:
+                raise self._changes(name, table.column(name).combine_chunks(), int(beyond[0]), offset)
         hexed = [f.name for f in schema if f.name not in self.numbers and f.name not in self.types
                  and (pa.types.is_integer(f.type) or pa.types.is_floating(f.type))] if _holds_hex(piece) else []
         texts = self._texts(piece, quoted, list(self.numbers) + hexed)
