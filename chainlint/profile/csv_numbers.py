@@ -1,4 +1,5 @@
-"""CSV columns of numbers (and booleans) typed as `pd.read_csv` types them, where pyarrow's reading differs.
+"""CSV columns of numbers (and booleans) typed as `pd.read_csv` types them, where pyarrow's
+reading differs.
 
 pandas' C parser (pandas 3.1; `tests/test_csv_dtypes_property.py` holds this module to
 `pd.read_csv` itself) types a column by scanning its fields in order:
@@ -49,6 +50,35 @@ ARROW_BOOLEAN, _ARROW_TRUE = "^(?i:true|false)$", "^(?i:true)$"
 _ARROW_SHORT = f"^{_ARROW_SPACE}[+-]?0*[0-9]{{1,18}}{_ARROW_SPACE}$"  # within int64 whatever its digits
 _ARROW_INTEGER = f"^{_ARROW_SPACE}[+-]?[0-9]+{_ARROW_SPACE}$"
 _ARROW_FLOAT = f"^{_ARROW_SPACE}[+-]?([0-9]+[.]?[0-9]*|[.][0-9]+)([eE][+-]?[0-9]+)?{_ARROW_SPACE}$|^[+-]?(?i:inf|infinity)$"
+
+
+def holds_hex(piece: pa.Buffer) -> bool:
+    """Whether a piece may hold a hexadecimal number, which pyarrow reads and pandas does not."""
+    codes = np.frombuffer(piece, dtype=np.uint8)
+    after = np.flatnonzero((codes[1:] | 0x20) == ord("x"))  # an x or X, at index + 1
+    return bool(np.any(codes[after] == ord("0")))
+
+
+def doubtful(column: pa.ChunkedArray, hex_words: bool) -> bool:
+    """Whether pyarrow's reading of a numeric column may differ from pandas': floats that are
+    all whole (integers with a sign or trailing spaces), beyond int64 or infinite (integers
+    beyond int64, `inf` with spaces), NaN (`nan` with spaces), hexadecimal numbers."""
+    if pa.types.is_integer(column.type):
+        return hex_words
+    if not pa.types.is_floating(column.type) or column.null_count == len(column):
+        return False
+    return (hex_words or bool(pc.any(pc.is_nan(column)).as_py()) or (pc.max(pc.abs(column)).as_py() or 0) >= 2**63
+            or bool(pc.all(pc.equal(pc.floor(column), column)).as_py()))
+
+
+def booleans(column: pa.ChunkedArray) -> bool:
+    """Whether a column pyarrow reads as text holds only `true` and `false` in any case, which
+    pandas reads as booleans (its first value is looked at first)."""
+    if not pa.types.is_string(column.type) or column.null_count == len(column):
+        return False
+    values = column.drop_null()
+    first = pc.match_substring_regex(values.slice(0, 1), ARROW_BOOLEAN)
+    return bool(pc.all(first).as_py()) and bool(pc.all(pc.match_substring_regex(values, ARROW_BOOLEAN)).as_py())
 
 
 def missing_pattern(words: Sequence[str]) -> str:

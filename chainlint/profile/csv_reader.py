@@ -94,8 +94,8 @@ class CsvFile:
                 table = table.set_column(index, field.name, pa.nulls(table.num_rows, pa.float64()))
                 self.numbers[field.name] = csv_numbers.EMPTY
         # Where pyarrow's reading of numbers may differ from pandas', the fields decide.
-        hex_words = _holds_hex(piece)
-        doubtful = [f.name for f in table.schema if f.name not in self.types and _doubtful(table.column(f.name), hex_words)]
+        hex_words = csv_numbers.holds_hex(piece)
+        doubtful = [f.name for f in table.schema if f.name not in self.types and csv_numbers.doubtful(table.column(f.name), hex_words)]
         for name, (raw, missing) in self._texts(piece, quoted, doubtful, first=True).items():
             decision = csv_numbers.decide(raw, missing)
             arrow_type = table.schema.field(name).type
@@ -104,7 +104,7 @@ class CsvFile:
             if decision != csv_numbers.STR:
                 self.numbers[name] = decision
             table = table.set_column(table.schema.get_field_index(name), name, csv_numbers.column(raw, missing, decision))
-        words = [f.name for f in table.schema if f.name not in self.types and _booleans(table.column(f.name))]
+        words = [f.name for f in table.schema if f.name not in self.types and csv_numbers.booleans(table.column(f.name))]
         for name, (raw, missing) in self._texts(piece, quoted, words, first=True).items():
             self.numbers[name] = csv_numbers.BOOL
             table = table.set_column(table.schema.get_field_index(name), name, csv_numbers.column(raw, missing, csv_numbers.BOOL))
@@ -124,7 +124,7 @@ class CsvFile:
             if beyond.size:
                 raise self._changes(name, table.column(name).combine_chunks(), int(beyond[0]), offset)
         hexed = [f.name for f in schema if f.name not in self.numbers and f.name not in self.types
-                 and (pa.types.is_integer(f.type) or pa.types.is_floating(f.type))] if _holds_hex(piece) else []
+                 and (pa.types.is_integer(f.type) or pa.types.is_floating(f.type))] if csv_numbers.holds_hex(piece) else []
         texts = self._texts(piece, quoted, list(self.numbers) + hexed)
         for name in hexed:
             decision = csv_numbers.decide(*texts[name])
@@ -208,35 +208,6 @@ class CsvFile:
             return DataError(f"{message} (the file's first part decided this column's type; "
                              "name its dtype, e.g. `str`, to read it otherwise)", path=str(path), line=line)
         return DataError(message, path=str(path))
-
-
-def _holds_hex(piece: pa.Buffer) -> bool:
-    """Whether a piece may hold a hexadecimal number, which pyarrow reads and pandas does not."""
-    codes = np.frombuffer(piece, dtype=np.uint8)
-    after = np.flatnonzero((codes[1:] | 0x20) == ord("x"))  # an x or X, at index + 1
-    return bool(np.any(codes[after] == ord("0")))
-
-
-def _doubtful(column: pa.ChunkedArray, hex_words: bool) -> bool:
-    """Whether pyarrow's reading of a numeric column may differ from pandas': floats that are
-    all whole (integers with a sign or trailing spaces), beyond int64 or infinite (integers
-    beyond int64, `inf` with spaces), NaN (`nan` with spaces), hexadecimal numbers."""
-    if pa.types.is_integer(column.type):
-        return hex_words
-    if not pa.types.is_floating(column.type) or column.null_count == len(column):
-        return False
-    return (hex_words or bool(pc.any(pc.is_nan(column)).as_py()) or (pc.max(pc.abs(column)).as_py() or 0) >= 2**63
-            or bool(pc.all(pc.equal(pc.floor(column), column)).as_py()))
-
-
-def _booleans(column: pa.ChunkedArray) -> bool:
-    """Whether a column pyarrow reads as text holds only `true` and `false` in any case, which
-    pandas reads as booleans (its first value is looked at first)."""
-    if not pa.types.is_string(column.type) or column.null_count == len(column):
-        return False
-    values = column.drop_null()
-    first = pc.match_substring_regex(values.slice(0, 1), csv_numbers.ARROW_BOOLEAN)
-    return bool(pc.all(first).as_py()) and bool(pc.all(pc.match_substring_regex(values, csv_numbers.ARROW_BOOLEAN)).as_py())
 
 
 def column_names(schema: pa.Schema, path: str) -> list[str]:
