@@ -499,3 +499,37 @@ def test_explain_names_the_read_options_that_leave_the_dtypes_unknown(read: str,
     assert reason is not None and f"with {named}, which may change" in reason
     limit = judge(chain.steps[0].predicate, frame_dtypes(chain.origin, {"a": "int64"}), "p", reason)
     assert (limit.moves, limit.reason) == ("stays", reason)
+
+
+# -- a grouped run assigns its last name where its first statement was ---------------------------
+
+
+@pytest.mark.parametrize("between", [
+    "log = [late]",  # the old value read
+    "log = [other.query('a in @late.a')]",  # read through a query's text
+    "late = 5",  # bound: the run's value would be overwritten
+    "del late",
+])
+@pytest.mark.parametrize("scope", ["module", "function"])
+def test_a_statement_between_a_run_s_filters_naming_its_last_name_stays_after_it(tmp_path: Path, between: str, scope: str) -> None:
+    """A run's group is one statement at the place of its first statement, under the name its
+    last statement assigns: a statement stepped over between them that reads that name (its
+    earlier value) or binds it would see, or overwrite, the run's result. find/runs.py: such
+    statements do not become one."""
+    lines = ["late = df.iloc[:3]", "north = df[df.a > 1]", between, "late = north[north.s != 'an']"]
+    if scope == "module":
+        body = "\n".join(lines) + "\nout = (late, log if 'log' in dir() else [])\n"
+    else:
+        body = "def f(df, other):\n    log = []\n" + "".join(f"    {line}\n" for line in lines) + "    return late, log\n\n\nout = f(df, other)\n"
+    frame = _text_frame()
+    path = _project(tmp_path, frame, body)
+    written = path.read_text()
+    fixed = _fix(path)
+    for variant in _variants(frame).values():
+        before, after = _run_with(written, variant), _run_with(fixed, variant)
+        assert not isinstance(before, Exception), before
+        assert not isinstance(after, Exception), f"the fix raises {type(after).__name__}: {after}\n{fixed}"
+        pd.testing.assert_frame_equal(after[0], before[0], check_exact=True, check_index_type="equiv", check_freq=False)
+        assert len(after[1]) == len(before[1])
+        for old, new in zip(before[1], after[1]):
+            pd.testing.assert_frame_equal(new, old, check_exact=True, check_index_type="equiv", check_freq=False)

@@ -72,6 +72,8 @@ class _Member:
     decomposed: _Decomposed
     #: A name bound between this statement and the one before that some filter reads.
     fence: str | None = None
+    #: The names the statements stepped over between this statement and the one before mention.
+    stepped: frozenset[str] = frozenset()
 
 
 class _Finder:
@@ -306,11 +308,13 @@ class _Finder:
                     break  # a statement the run may not step over
                 if read is None:
                     read = mentioned(first[1].shapes[-1].node)
+                between: set[str] = set()
                 for number in range(following, stop):  # stepped over
                     fences.stepped(len(members), number, walked.bound(statements[number]), read)
+                    between |= self.memo.mentioned(statements[number])
                 value = mentioned(later[1].shapes[-1].node)
                 fences.filter_reads(value)
-                members.append(_Member(statements[stop], later[0], later[1]))
+                members.append(_Member(statements[stop], later[0], later[1], stepped=frozenset(between)))
                 scan.add(later[0])
                 read |= value
                 following = last = stop + 1
@@ -361,7 +365,8 @@ class _Finder:
                 reason = f"`{member.fence}` is assigned between this filter and the one before: no step moves across that statement"
                 built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, reason))
             steps.extend(built)
-        steps = joined([(m.statement, m.target, m.decomposed.shapes) for m in members], steps, scope, self.positions, self.mentions)
+        steps = joined([(m.statement, m.target, m.decomposed.shapes) for m in members], steps, scope, self.positions, self.mentions,
+                       [m.stepped for m in members])
         start = self.positions.node_span(members[0].statement)
         end = self.positions.node_span(members[-1].statement)
         span = Span(start.line, start.column, end.end_line, end.end_column)

@@ -286,15 +286,20 @@ Member = tuple[ast.stmt, str, Sequence[Shape]]
 
 
 def joined(members: Sequence[Member], steps: list[Step], scope: ast.AST, positions: Positions,
-           counted: dict[int, Counter[str]]) -> list[Step]:
+           counted: dict[int, Counter[str]], stepped: Sequence[frozenset[str]] = ()) -> list[Step]:
     """The run's steps with `alone` and `merges` set (see `Step`): which statements may become
     one statement when the planner joins their filters into one mask. A name the earlier of two
     statements assigns stops being bound then, so it must be used nowhere else in the scope
     (`counted`: `mentions` per scope, by `id`, filled when first needed); in a class body it is
-    an attribute, never dropped."""
+    an attribute, never dropped. A group is written where its first statement was, under the
+    name its last one assigns, so no statement stepped over before a member (`stepped`: the
+    names they mention, per member) may mention the name of that member or a later one."""
     alone = [_alone(statement, shapes, positions) for statement, _, shapes in members]
     if not any(alone):
         return steps
+    later_names: list[set[str]] = [set() for _ in members]
+    for number in range(len(members) - 1, -1, -1):
+        later_names[number] = {members[number][1]} | (later_names[number + 1] if number + 1 < len(members) else set())
     inside: Counter[str] = Counter()
     for statement, _, _ in members:
         inside.update(mentions(statement))
@@ -303,6 +308,8 @@ def joined(members: Sequence[Member], steps: list[Step], scope: ast.AST, positio
     for step in steps:
         number = step.statement
         merges = number > 0 and alone[number] and alone[number - 1]
+        if merges and number < len(stepped) and stepped[number] & later_names[number]:
+            merges = False
         name = members[number - 1][1] if number > 0 else ""
         if merges and name != members[number][1]:
             if id(scope) not in counted:
