@@ -172,18 +172,19 @@ def check_command(paths: Sequence[str], exclude: Sequence[str], max_file_size: f
     elif output_format == "sarif":
         report = check_sarif(result, sorted(options.rules))
     elif show_diff:
-        from chainlint.report.diff import unified_diff
+        from chainlint.report.diff import encoded_diff
 
-        report = "".join(unified_diff(fixes[path], options.root) for path in sorted(fixes) if fixes[path].new_text is not None)
+        report = b"".join(encoded_diff(fixes[path], options.root) for path in sorted(fixes) if fixes[path].new_text is not None)
     else:
         report = "".join(line + "\n" for line in check_lines(remaining))
+    data = report if isinstance(report, bytes) else report.encode("utf-8")
     if output:
         try:
-            write_file(output, report.encode("utf-8"))
+            write_file(output, data)
         except WriteError as error:
             fail(str(error))
     else:
-        click.echo(report, nl=False)
+        click.echo(data, nl=False)
     if output_format == "text" or output:
         for error in sorted(result.errors, key=error_order):
             click.echo(error_line(error), err=True)

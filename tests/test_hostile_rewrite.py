@@ -533,3 +533,41 @@ def test_a_statement_between_a_run_s_filters_naming_its_last_name_stays_after_it
         assert len(after[1]) == len(before[1])
         for old, new in zip(before[1], after[1]):
             pd.testing.assert_frame_equal(new, old, check_exact=True, check_index_type="equiv", check_freq=False)
+
+
+# -- check --diff in the file's own encoding --------------------------------------------------------
+
+
+@pytest.mark.parametrize(("head", "encoding"), [
+    ("# -*- coding: latin-1 -*-\n", "latin-1"),
+    ("", "utf-8-sig"),  # a byte order mark, which Python reads as the file's encoding
+    ("# -*- coding: utf-8 -*-\n", "utf-8-sig"),
+    ("", "utf-8"),
+])
+@pytest.mark.parametrize("tool", ["patch", "git"])
+def test_the_diff_applies_to_a_file_in_its_own_encoding(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, head: str,
+                                                         encoding: str, tool: str) -> None:
+    """`patch -p1` and `git apply` match a diff's lines against the file's bytes (GNU patch and
+    git documentation): the diff of a Latin-1 module or one with a byte order mark must carry
+    its lines as the file holds them, and applied give the bytes `--fix` writes.
+    report/diff.py: each file's lines in its own encoding."""
+    import shutil
+    import subprocess
+
+    if shutil.which(tool) is None:
+        pytest.skip(f"{tool} is not installed")
+    body = "out = df[df.a > 1][lambda d: d.s == 'an']  # café\n"
+    path = _project(tmp_path, _text_frame(), body)
+    path.write_bytes((head + path.read_text()).encode(encoding))
+    original = path.read_bytes()
+    monkeypatch.chdir(tmp_path)
+    diff = CliRunner().invoke(main, ["check", *EAGER, "--diff", "pipeline.py"]).stdout_bytes
+    assert b"+++ b/pipeline.py" in diff
+    assert CliRunner().invoke(main, ["check", *EAGER, "--fix", "pipeline.py"]).exit_code in (0, 1)
+    fixed = path.read_bytes()
+    assert fixed != original
+    path.write_bytes(original)
+    (tmp_path / "fix.diff").write_bytes(diff)
+    command = ["patch", "-p1", "--quiet", "-i", "fix.diff"] if tool == "patch" else ["git", "apply", "fix.diff"]
+    subprocess.run(command, cwd=tmp_path, check=True, timeout=60, capture_output=True)
+    assert path.read_bytes() == fixed

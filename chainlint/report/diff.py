@@ -9,6 +9,8 @@ one stretch, compared as a whole.
 
 Lines end at "\n" only, as `patch` and `git apply` read them (a form feed or a lone carriage
 return stays inside its line), and a last line without one is marked as GNU diff marks it.
+Both match a diff's lines against the file's bytes, so each file's lines are given in its own
+encoding (a byte order mark on its first line), the headers in UTF-8 (`encoded_diff`).
 """
 
 from __future__ import annotations
@@ -32,12 +34,27 @@ Opcode = tuple[str, int, int, int, int]
 
 def unified_diff(fix: FileFix, root: Path) -> str:
     """The rewrite as a unified diff, its headers naming the file relative to `root`."""
+    return "".join(_diff(fix, root))
+
+
+def encoded_diff(fix: FileFix, root: Path) -> bytes:
+    """The diff as `patch` and `git apply` read it: the headers in UTF-8, the file's lines in
+    the file's own encoding."""
+    assert fix.source is not None
+    codec = "utf-8" if fix.source.encoding == "utf-8-sig" else fix.source.encoding
+    return b"".join(piece.encode("utf-8" if number == 0 else codec) for number, piece in enumerate(_diff(fix, root)))
+
+
+def _diff(fix: FileFix, root: Path) -> Iterator[str]:
+    """The headers, then the hunks' lines; a byte order mark the file starts with (which its
+    decoded text leaves out) opens its first line."""
     assert fix.source is not None and fix.new_text is not None
     name = printable(os.path.relpath(fix.path, root))
-    old = _lines(fix.source.text)
-    new = _lines(fix.new_text)
+    mark = "\ufeff" if fix.source.encoding == "utf-8-sig" else ""
+    old = _lines(mark + fix.source.text)
+    new = _lines(mark + fix.new_text)
     stretches = _stretches(fix.source.text, fix.edits) if fix.edits is not None else [(0, len(old), 0, len(new))]
-    return "".join(_hunks(old, new, _opcodes(old, new, stretches), f"a/{name}", f"b/{name}"))
+    return _hunks(old, new, _opcodes(old, new, stretches), f"a/{name}", f"b/{name}")
 
 
 def _lines(text: str) -> list[str]:
