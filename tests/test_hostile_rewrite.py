@@ -10,6 +10,7 @@ the fix lives). The test runs its own generated code; chainlint itself never exe
 from __future__ import annotations
 
 import json
+import re
 import warnings
 from pathlib import Path
 from typing import Any
@@ -571,3 +572,43 @@ def test_the_diff_applies_to_a_file_in_its_own_encoding(tmp_path: Path, monkeypa
     command = ["patch", "-p1", "--quiet", "-i", "fix.diff"] if tool == "patch" else ["git", "apply", "fix.diff"]
     subprocess.run(command, cwd=tmp_path, check=True, timeout=60, capture_output=True)
     assert path.read_bytes() == fixed
+
+
+# -- code defined in the module that reads a run's frame when called ------------------------------
+
+
+@pytest.mark.parametrize("case", [
+    "def show():\n    LOG.append(out)\n\n\n{run}",
+    "show = lambda: LOG.append(out)\n{run}",
+    "class Report:\n    def show(self):\n        LOG.append(out)\n\n\nshow = Report().show\n{run}",
+    "def peek():\n    LOG.append(globals()['out'])\n\n\ndef show():\n    peek()\n\n\n{run}",
+    "def f(df):\n    def show():\n        LOG.append(out)\n{indented}    return out\n\n\nout = f(df)\n",
+])
+def test_a_run_does_not_step_over_a_call_of_code_that_reads_its_frame(tmp_path: Path, case: str) -> None:
+    """`show()` between two filters of `out` runs a function of the module that reads `out`
+    (Python resolves its global, or its closure, when it runs): moved across it, a filter
+    changes what it sees. find/chains.py: where code the scope defines reads a frame of the
+    run, the run steps over only statements that run no code (names bound to literals)."""
+    run = "out = df[df.a > 1]\nnote = 'kept'\nshow()\nout = out[out.s == 'an']\n"
+    body = "LOG = []\n" + case.format(run=run, indented="".join(f"    {line}\n" for line in run.splitlines()))
+    body += "out = (out, LOG)\n"
+    frame = _text_frame()
+    path = _project(tmp_path, frame, body)
+    written = path.read_text()
+    fixed = _fix(path)
+    for variant in _variants(frame).values():
+        before, after = _run_with(written, variant), _run_with(fixed, variant)
+        assert not isinstance(before, Exception), before
+        assert not isinstance(after, Exception), f"the fix raises {type(after).__name__}: {after}\n{fixed}"
+        for old, new in zip([before[0], *before[1]], [after[0], *after[1]]):
+            pd.testing.assert_frame_equal(new, old, check_exact=True, check_index_type="equiv", check_freq=False)
+    if "globals" not in case:
+        plain = re.sub(r"^ *show\(\)\n", "", body, flags=re.M)  # with no call between, the filters still move
+        path.write_text("import pandas as pd\n\n" + plain)
+        assert _fix(path) != "import pandas as pd\n\n" + plain
+
+
+def test_a_run_steps_over_a_statement_that_runs_no_code(tmp_path: Path) -> None:
+    body = "def show():\n    return out\n\n\nout = df[df.a > 1]\nnote = 'kept'\nout = out[out.s == 'an']\n"
+    path = _project(tmp_path, _text_frame(), body)
+    assert "note = 'kept'" in _fix(path) and "out = df[df.a > 1]" not in path.read_text()

@@ -17,7 +17,7 @@ from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
 from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
 from chainlint.find.positions import Positions
-from chainlint.find.runs import Fences, Memo, Walked, inplace_dropna, joined, mentioned, read_elsewhere, reads
+from chainlint.find.runs import Called, Fences, Memo, Walked, inert, inplace_dropna, joined, mentioned, read_elsewhere, reads
 from chainlint.find.scopes import nested_children
 from chainlint.find.screen import Seams
 from chainlint.find.shapes import Masks, Names, Shape, is_mask_value, mask_frames, module_names, peel, rows_axis
@@ -95,6 +95,7 @@ class _Finder:
         self.absorbed: set[int] = set()
         #: How many times each name is read in a scope (by the id of its node), counted once.
         self.reads: dict[int, Counter[str]] = {}
+        self.called = Called()
         #: How many times each name appears in a scope in any role (`runs.mentions`), counted once.
         self.mentions: dict[int, Counter[str]] = {}
         self.origins = Origins(names.pandas, source.lines, bindings, lambda: self.scope)
@@ -306,6 +307,9 @@ class _Finder:
                 later = filtering(stop)
                 if later is None or dotted_name(later[1].base) != members[-1].target:
                     break  # a statement the run may not step over
+                frames = {later[0], *(m.target for m in members)}
+                if not all(inert(statements[n]) for n in range(following, stop)) and self.called.reads(self.scope or self.bindings.tree, frames):
+                    break  # a statement that may call code reading the run's frames
                 if read is None:
                     read = mentioned(first[1].shapes[-1].node)
                 between: set[str] = set()

@@ -244,6 +244,40 @@ def inplace_dropna(statement: ast.stmt) -> ast.Call | None:
     return None
 
 
+class Called:
+    """The names read by code a scope defines that runs when called, not where it is written:
+    the bodies of its functions and lambdas (methods too), at any depth, `ANY_NAME` where such
+    code may read any name; walked once per scope, and only for a run that would step over a
+    statement that is not `inert`. A statement calling such code reads them (at module level,
+    any function of the module reads the module's names)."""
+
+    def __init__(self) -> None:
+        self._names: dict[int, set[str]] = {}
+
+    def reads(self, scope: ast.AST, frames: set[str]) -> bool:
+        """Whether such code of `scope` may read one of `frames`."""
+        if id(scope) not in self._names:
+            found: set[str] = set()
+            for node in ast.walk(scope):
+                if node is not scope and isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
+                    for part in node.body if isinstance(node.body, list) else [node.body]:
+                        found |= mentioned(part)
+            self._names[id(scope)] = found
+        names = self._names[id(scope)]
+        return ANY_NAME in names or not frames.isdisjoint(names)
+
+
+def inert(statement: ast.stmt) -> bool:
+    """Whether a statement runs no code of the module's when it executes: names bound to
+    literals, names, or tuples and lists of them (anything else may call a function, or a
+    method of an object the module defines, through an operator or attribute)."""
+    if isinstance(statement, ast.Expr):
+        return isinstance(statement.value, ast.Constant)
+    if not isinstance(statement, ast.Assign) or not all(isinstance(t, ast.Name) for t in statement.targets):
+        return False
+    return all(isinstance(n, (ast.Constant, ast.Name, ast.Tuple, ast.List, ast.Load)) for n in ast.walk(statement.value))
+
+
 def reads(node: ast.AST) -> Counter[str]:
     """How many times each name is read in `node` (a scope, or a statement of a run). A name
     is read elsewhere than in a run when its scope reads it more often than the run's
