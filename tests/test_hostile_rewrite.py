@@ -612,3 +612,77 @@ def test_a_run_steps_over_a_statement_that_runs_no_code(tmp_path: Path) -> None:
     body = "def show():\n    return out\n\n\nout = df[df.a > 1]\nnote = 'kept'\nout = out[out.s == 'an']\n"
     path = _project(tmp_path, _text_frame(), body)
     assert "note = 'kept'" in _fix(path) and "out = df[df.a > 1]" not in path.read_text()
+
+
+# -- runs with statements between their filters, generated ----------------------------------------
+# Statement runs (one name or renamed, at module level or in a function) with statements drawn
+# around what once broke the promise between their filters: code the module defines that reads
+# a frame when called, the earlier value of a name the run assigns, query text (literal or
+# computed) naming a frame, plain bindings. Each is rewritten into any plan the planner may
+# choose and both versions run by pandas, what every statement between saw compared too.
+
+_BETWEEN = [
+    "note = 'kept'", "show()", "show()", "LOG.append(len(other))", "LOG.append(other.query('a in @{prev}.a'))",
+    "LOG.append(other.query(Q))", "LOG.append({old})", "LOG.append({old})", "{old} = 5", "LOG.append(other.query('a in @{old}.a'))",
+]
+
+
+@st.composite
+def _runs_with_statements_between(draw):  # type: ignore[no-untyped-def]
+    count = draw(st.integers(2, 4))
+    renamed = draw(st.booleans())
+    targets = [f"s{k}" for k in range(count - 1)] + ["out"] if renamed else ["out"] * count
+    predicates = ["{f}.a > 1", "{f}.s != 'an'", "{f}.a != 50", "{f}.s == 'apple'", "{f}.a < 90"]
+    lines = [f"{t} = out.iloc[:0]" for t in sorted(set(targets))]  # every name bound before the run
+    for position in range(count):
+        frame = "df" if position == 0 else targets[position - 1]
+        if position:
+            old = draw(st.sampled_from(targets[position:]))
+            between = draw(st.lists(st.sampled_from(_BETWEEN), min_size=1, max_size=2))
+            lines += [b.format(prev=targets[position - 1], old=old) for b in between]
+        predicate = draw(st.sampled_from(predicates)).format(f=frame)
+        lines.append(f"{targets[position]} = {frame}[{predicate}]")
+    shown = draw(st.sampled_from(targets[1:]))  # the first frame read elsewhere is a barrier already
+    head = f"Q = 'a in @{shown}.a'\nLOG = []\n"
+    if draw(st.booleans()):
+        body = (head + "out = df\n\n\ndef run(df):\n    out = df\n    def show():\n        LOG.append(" + shown + ")\n"
+                + "".join(f"    {line}\n" for line in lines) + "    return out\n\n\nout = (run(df), LOG)\n")
+    else:
+        body = head + f"out = df\n\n\ndef show():\n    LOG.append({shown})\n\n\n" + "\n".join(lines) + "\nout = (out, LOG)\n"
+    return "import pandas as pd\n\n" + body
+
+
+def _outcome(source: str, frame: pd.DataFrame) -> Any:
+    result = _run_with(source, frame)
+    return result if isinstance(result, Exception) else [result[0], *result[1]]
+
+
+@settings(max_examples=200, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+@given(_runs_with_statements_between(), st.data())
+def test_runs_with_statements_between_keep_the_promise_in_any_plan(source: str, data: st.DataObject) -> None:
+    frame = _text_frame().iloc[::50]
+    text = text_source("generated.py", source)
+    runs = [c for c in analyse_source(text).chains if c.form.value == "statements"]
+    if not runs:
+        return
+    chain = data.draw(st.sampled_from(runs))
+    dtypes = {name: str(dtype) for name, dtype in frame.dtypes.items()}
+    groups = _planner_groups(chain, dtypes, data)
+    if groups == tuple((i,) for i in range(len(chain.steps))):
+        return
+    try:
+        rewritten = apply_edits(source, [plan_edit(text, chain, groups)])
+        verify(text, rewritten, [(chain, groups)])
+    except RewriteError:
+        return  # refused, with its reason: the code stays as written
+    written, fixed = _outcome(source, frame), _outcome(rewritten, frame)
+    if isinstance(written, Exception):
+        return
+    assert not isinstance(fixed, Exception), (rewritten, fixed)
+    assert len(fixed) == len(written), rewritten
+    for old, new in zip(written, fixed):
+        if isinstance(old, pd.DataFrame):
+            pd.testing.assert_frame_equal(new, old, check_exact=True, check_index_type="equiv", check_freq=False)
+        else:
+            assert repr(new) == repr(old), rewritten
