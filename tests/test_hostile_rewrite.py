@@ -583,13 +583,15 @@ def test_the_diff_applies_to_a_file_in_its_own_encoding(tmp_path: Path, monkeypa
     "class Report:\n    def show(self):\n        LOG.append(out)\n\n\nshow = Report().show\n{run}",
     "def peek():\n    LOG.append(globals()['out'])\n\n\ndef show():\n    peek()\n\n\n{run}",
     "def f(df):\n    def show():\n        LOG.append(out)\n{indented}    return out\n\n\nout = f(df)\n",
+    "show = (LOG.append(out) for _ in range(3)).__next__\n{run}",  # a generator reads its names as it runs
 ])
-def test_a_run_does_not_step_over_a_call_of_code_that_reads_its_frame(tmp_path: Path, case: str) -> None:
+@pytest.mark.parametrize("operator", ["==", "!="])  # planned as a reorder, and as one mask
+def test_a_run_does_not_step_over_a_call_of_code_that_reads_its_frame(tmp_path: Path, case: str, operator: str) -> None:
     """`show()` between two filters of `out` runs a function of the module that reads `out`
     (Python resolves its global, or its closure, when it runs): moved across it, a filter
     changes what it sees. find/chains.py: where code the scope defines reads a frame of the
     run, the run steps over only statements that run no code (names bound to literals)."""
-    run = "out = df[df.a > 1]\nnote = 'kept'\nshow()\nout = out[out.s == 'an']\n"
+    run = f"out = df[df.a > 1]\nnote = 'kept'\nshow()\nout = out[out.s {operator} 'an']\n"
     body = "LOG = []\n" + case.format(run=run, indented="".join(f"    {line}\n" for line in run.splitlines()))
     body += "out = (out, LOG)\n"
     frame = _text_frame()

@@ -246,10 +246,11 @@ def inplace_dropna(statement: ast.stmt) -> ast.Call | None:
 
 class Called:
     """The names read by code a scope defines that runs when called, not where it is written:
-    the bodies of its functions and lambdas (methods too), at any depth, `ANY_NAME` where such
-    code may read any name; walked once per scope, and only for a run that would step over a
-    statement that is not `inert`. A statement calling such code reads them (at module level,
-    any function of the module reads the module's names)."""
+    the bodies of its functions and lambdas (methods too) and its generator expressions (resumed
+    by `next`), at any depth, `ANY_NAME` where such code may read any name; walked once per
+    scope, and only for a run that would step over a statement that is not `inert`. A statement
+    calling such code reads them (at module level, any function of the module reads the
+    module's names)."""
 
     def __init__(self) -> None:
         self._names: dict[int, set[str]] = {}
@@ -262,6 +263,8 @@ class Called:
                 if node is not scope and isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
                     for part in node.body if isinstance(node.body, list) else [node.body]:
                         found |= mentioned(part)
+                elif isinstance(node, ast.GeneratorExp):
+                    found |= mentioned(node)
             self._names[id(scope)] = found
         names = self._names[id(scope)]
         return ANY_NAME in names or not frames.isdisjoint(names)
