@@ -50,13 +50,17 @@ def pandas_schema(schema: pa.Schema) -> pa.Schema:
     column whose dtype pandas fixes whatever its values marked with it (`DTYPE_KEY`).
 
     `schema` is what pyarrow reads for `pd.read_parquet`/`pd.read_feather`, with the pandas
-    metadata (`b"pandas"`) a file written by pandas carries; a field already marked keeps its
+    metadata (`b"pandas"`) a file written by pandas carries, less the columns that metadata names
+    as the frame's index (pandas reads them as the index, not as columns); a field already marked keeps its
     mark (a `read_csv` dtype), so that a schema as profiled is its own. The dtype follows pyarrow's
     `Table.to_pandas` as pandas 3 calls it: an extension dtype the metadata records, except a
     string dtype over a dictionary column; else a dictionary column is a categorical."""
     recorded = _recorded_dtypes(schema.metadata or {})
+    index = index_columns(schema.metadata or {})
     fields = []
     for field in schema:
+        if field.name in index:
+            continue
         dtype = fixed_dtype(field) or _fixed_dtype(field.type, recorded.get(field.name))
         value_type = field.type.value_type if pa.types.is_dictionary(field.type) else field.type
         marks = {k: v for k, v in (field.metadata or {}).items() if k == NUMBERS_KEY}
@@ -75,6 +79,20 @@ def fixed_dtype(field: pa.Field) -> str | None:
     """The dtype a schema as profiled fixes for the field, or None (it follows its nulls)."""
     value = (field.metadata or {}).get(DTYPE_KEY)
     return value.decode() if value is not None else None
+
+
+def index_columns(metadata: dict[bytes, bytes]) -> frozenset[str]:
+    """The stored columns pandas' metadata names as the frame's index (`__index_level_0__`, or
+    the index's own name); a range index is stored as numbers only, not as a column."""
+    try:
+        return frozenset(c for c in json.loads(metadata[b"pandas"])["index_columns"] if isinstance(c, str))
+    except (KeyError, TypeError, AttributeError, ValueError):
+        return frozenset()
+
+
+def data_columns(table: pa.Table, schema: pa.Schema) -> pa.Table:
+    """A table read from a file as its schema as profiled has it: the index columns left out."""
+    return table if table.num_columns == len(schema) else table.select(schema.names)
 
 
 def _recorded_dtypes(metadata: dict[bytes, bytes]) -> dict[str, str]:

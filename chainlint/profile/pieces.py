@@ -24,7 +24,7 @@ import pyarrow.parquet as pq
 from chainlint.profile import formats, readers
 from chainlint.profile.files import data_format, dataset_files, sha256_of
 from chainlint.profile.csv_reader import CsvFile, _compressed, _csv_pieces as _cut_csv, open_csv
-from chainlint.profile.dtypes import pandas_schema
+from chainlint.profile.dtypes import data_columns, pandas_schema
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import CsvOptions
 from chainlint.profile.remote import described as described_url
@@ -284,7 +284,8 @@ def piece_batches(piece: Piece, layout: Layout) -> Iterator[pa.Table]:
     part = piece.part()
     within = "" if part is None else f" (in {part})"
     try:
-        yield from _batches(piece, layout)
+        for table in _batches(piece, layout):
+            yield data_columns(table, layout.schema)
     except DataError as error:
         raise DataError(error.reason + within, path=error.path or piece.path, line=error.line, column=error.column) from None
     except _ARROW_ERRORS as error:

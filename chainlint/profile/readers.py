@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 import pyarrow as pa
 
 from chainlint.profile.csv_reader import column_names, open_csv
-from chainlint.profile.dtypes import pandas_schema
+from chainlint.profile.dtypes import data_columns, pandas_schema
 from chainlint.profile.errors import DataError
 from chainlint.profile.files import SourceFile, dataset_files, sha256_of
 from chainlint.profile.formats import open_arrow, open_jsonl, open_parquet, open_parquet_dataset, table_batches
@@ -61,7 +61,7 @@ def open_dataset(arguments: Sequence[str], batch_rows: int = BATCH_ROWS, csv: Cs
         for digest in digests:
             digest.cancel()
         raise
-    return Dataset(schema, described, kind, batches, digests, expected)
+    return Dataset(schema, described, kind, (data_columns(b, schema) for b in batches), digests, expected)
 
 
 def _open_files(
@@ -118,4 +118,5 @@ def _check_columns(schema: pa.Schema, path: str) -> None:
 def memory_dataset(table: pa.Table, batch_rows: int = BATCH_ROWS) -> Dataset:
     """A table already in memory as a dataset of no files (a live frame, loaded data, a piece of
     a larger dataset profiled on its own); its dtypes as pandas would read it (`pandas_schema`)."""
-    return Dataset(pandas_schema(table.schema), [], "memory", table_batches(table, batch_rows), [], table.num_rows)
+    schema = pandas_schema(table.schema)
+    return Dataset(schema, [], "memory", table_batches(data_columns(table, schema), batch_rows), [], table.num_rows)
