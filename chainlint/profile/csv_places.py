@@ -1,8 +1,11 @@
-"""Where in a CSV file a parse error is, for its message: the line of a byte offset, and the
-first line of a piece whose values do not convert (only on the error path)."""
+"""Where in a CSV file a parse error is, for its message: the line of a byte offset, the line
+where a record starts, and the first line of a piece whose values do not convert (only on the
+error path)."""
 
 from __future__ import annotations
 
+import csv
+import io
 from collections.abc import Callable
 
 import numpy as np
@@ -21,6 +24,21 @@ def line_at(path: str, offset: int) -> int:
                 break
             lines += block.count(b"\n")
             offset -= len(block)
+    return lines
+
+
+def record_line(piece: pa.Buffer, number: int, encoding: str, delimiter: str) -> int:
+    """How many lines of the piece come before its `number`th record (1-based, counted as
+    pyarrow counts rows: empty lines left out), a quoted value's line breaks included."""
+    text = piece.to_pybytes().decode(encoding, errors="replace")
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
+    lines = records = 0
+    for record in reader:
+        if record:
+            records += 1
+            if records == number:
+                return lines
+        lines = reader.line_num
     return lines
 
 

@@ -21,7 +21,7 @@ import pyarrow.csv as pacsv
 from chainlint.arrays import filled_numpy
 from chainlint.profile import csv_numbers
 from chainlint.profile.csv_layout import csv_layout
-from chainlint.profile.csv_places import first_failing_line, line_at
+from chainlint.profile.csv_places import first_failing_line, line_at, record_line
 from chainlint.profile.dtypes import NUMBERS_KEY, pandas_schema, pandas_type, with_dtype
 from chainlint.profile.errors import DataError
 from chainlint.profile.read_options import CsvOptions
@@ -199,7 +199,7 @@ class CsvFile:
                 pass
         if invalid:
             number, what = invalid[-1]
-            line = line_at(path, offset) + number - 1 if number is not None else None
+            line = None if number is None else line_at(path, offset) + record_line(piece, number, self.options.encoding, self.delimiter)
             return DataError(f"malformed CSV row ({what})", path=str(path), line=line)
         if "utf8" in message.lower() or "utf-8" in message.lower():
             return DataError(f"not valid UTF-8 text ({message}); give its encoding", path=str(path))
