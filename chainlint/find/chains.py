@@ -17,7 +17,7 @@ from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
 from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
 from chainlint.find.positions import Positions
-from chainlint.find.runs import Called, Fences, Memo, Walked, inert, inplace_dropna, joined, mentioned, read_elsewhere, reads
+from chainlint.find.runs import Called, Fences, Memo, Walked, count_names, inert, inplace_dropna, joined, read_elsewhere
 from chainlint.find.scopes import nested_children
 from chainlint.find.screen import Seams
 from chainlint.find.shapes import Masks, Names, Shape, is_mask_value, mask_frames, module_names, peel, rows_axis
@@ -93,11 +93,7 @@ class _Finder:
         self.chains: list[Chain] = []
         self.least = 2
         self.absorbed: set[int] = set()
-        #: How many times each name is read in a scope (by the id of its node), counted once.
-        self.reads: dict[int, Counter[str]] = {}
         self.called = Called()
-        #: How many times each name appears in a scope in any role (`runs.mentions`), counted once.
-        self.mentions: dict[int, Counter[str]] = {}
         self.origins = Origins(names.pandas, source.lines, bindings, lambda: self.scope)
         self.positions = Positions(source)
         self.visit: Visit | None = None
@@ -311,12 +307,12 @@ class _Finder:
                 if not all(inert(statements[n]) for n in range(following, stop)) and self.called.reads(self.scope or self.bindings.tree, frames):
                     break  # a statement that may call code reading the run's frames
                 if read is None:
-                    read = mentioned(first[1].shapes[-1].node)
+                    read = count_names(first[1].shapes[-1].node).mentioned()
                 between: set[str] = set()
                 for number in range(following, stop):  # stepped over
                     fences.stepped(len(members), number, walked.bound(statements[number]), read)
-                    between |= self.memo.mentioned(statements[number])
-                value = mentioned(later[1].shapes[-1].node)
+                    between |= self.memo.names(statements[number]).mentioned()
+                value = count_names(later[1].shapes[-1].node).mentioned()
                 fences.filter_reads(value)
                 members.append(_Member(statements[stop], later[0], later[1], stepped=frozenset(between)))
                 scan.add(later[0])
@@ -346,31 +342,24 @@ class _Finder:
         steps: list[Step] = []
         assigned = frozenset(member.target for member in members)
         scope = self.scope if self.scope is not None else self.bindings.tree
-        if id(scope) not in self.reads:
-            if scope is self.bindings.tree:  # the module: its statements' counts, each kept
-                counts: Counter[str] = Counter()
-                for statement in self.bindings.tree.body:
-                    counts.update(self.memo.reads(statement))
-                self.reads[id(scope)] = counts
-            else:
-                self.reads[id(scope)] = reads(scope)
+        scope_reads, scope_mentions = self.memo.scope(scope, self.bindings.tree)
         inside: Counter[str] = Counter()
         for member in members:
-            inside.update(reads(member.statement))
+            self.memo.names(member.statement).count_reads(inside)
         for number, member in enumerate(members):
             own = dotted_name(member.decomposed.base)
             outer = frozenset(name for name in (root, own) if name)
             built = list(self.steps(member.decomposed, own, outer, statement=number, assigned=assigned))
             before = members[number - 1].target if number else None
-            elsewhere = read_elsewhere(self.reads[id(scope)], inside, before) if before not in (None, member.target) else None
+            elsewhere = read_elsewhere(scope_reads, inside, before) if before not in (None, member.target) else None
             if elsewhere:
                 built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, elsewhere))
             elif member.fence is not None:
                 reason = f"`{member.fence}` is assigned between this filter and the one before: no step moves across that statement"
                 built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, reason))
             steps.extend(built)
-        steps = joined([(m.statement, m.target, m.decomposed.shapes) for m in members], steps, scope, self.positions, self.mentions,
-                       [m.stepped for m in members])
+        steps = joined([(m.statement, m.target, m.decomposed.shapes) for m in members], steps, scope, self.positions, self.memo,
+                       scope_mentions, [m.stepped for m in members])
         start = self.positions.node_span(members[0].statement)
         end = self.positions.node_span(members[-1].statement)
         span = Span(start.line, start.column, end.end_line, end.end_column)

@@ -36,29 +36,87 @@ _LOCAL = re.compile(r"@([A-Za-z_][A-Za-z_0-9]*)")
 _WORD = re.compile(r"[A-Za-z_][A-Za-z_0-9]*")
 
 
-def text_reads(node: ast.AST) -> list[str]:
-    """Names read through text: `@name` in a `.query`/`.eval` string (pandas resolves it among
-    the caller's variables), every word of a `pd.eval`/`eval` string, and `ANY_NAME` for a bare
-    call of `eval`, `exec`, `locals`, `vars` or `globals`, or a `.query`/`.eval` whose text is
-    not written in the call as a literal (held by a name, joined, formatted, an f-string with a
-    placeholder: its names are out of the code's sight). More than pandas reads, never less."""
-    found: list[str] = []
-    for call in ast.walk(node):
-        if not isinstance(call, ast.Call):
+class NameCounts:
+    """What one walk of a node finds: how many times each name is read, bound or deleted, or
+    declared `global`/`nonlocal` in code, and the names read through text (`count_names`)."""
+
+    __slots__ = ("loads", "others", "declared", "text")
+
+    def __init__(self, loads: Counter[str], others: Counter[str], declared: Counter[str], text: Counter[str]) -> None:
+        self.loads = loads
+        self.others = others
+        self.declared = declared
+        self.text = text
+
+    def mentioned(self) -> set[str]:
+        """Every name read or written, in code or through text."""
+        return {*self.loads, *self.others, *self.text}
+
+    def count_reads(self, into: Counter[str]) -> Counter[str]:
+        """Add how many times each name is read, in code or through text. A name is read
+        elsewhere than in a run when its scope reads it more often than the run's statements do
+        (a read inside the run is a barrier of its own: a mask of another frame, or a name the
+        run assigns); counting the scope once serves all its runs."""
+        into.update(self.loads)
+        into.update(self.text)
+        return into
+
+    def count_mentions(self, into: Counter[str]) -> Counter[str]:
+        """Add how many times each name appears in any role (read, bound, deleted, declared
+        `global` or `nonlocal`, read through text): a name a run binds may stop being bound only
+        where the run's own statements are all its mentions in the scope."""
+        for part in (self.loads, self.others, self.declared, self.text):
+            into.update(part)
+        return into
+
+
+def count_names(node: ast.AST) -> NameCounts:
+    """One walk of `node` collecting its names in code and the names read through text: `@name`
+    in a `.query`/`.eval` string (pandas resolves it among the caller's variables), every word of
+    a `pd.eval`/`eval` string, and `ANY_NAME` for a bare call of `eval`, `exec`, `locals`, `vars`
+    or `globals`, or a `.query`/`.eval` whose text is not written in the call as a literal (held
+    by a name, joined, formatted, an f-string with a placeholder: its names are out of the code's
+    sight). More than pandas reads, never less. A string inside the arguments of several such
+    calls counts once for each of them."""
+    loads: Counter[str] = Counter()
+    others: Counter[str] = Counter()
+    declared: Counter[str] = Counter()
+    text: Counter[str] = Counter()
+    stack: list[tuple[ast.AST, tuple[re.Pattern[str], ...]]] = [(node, ())]
+    while stack:
+        node, patterns = stack.pop()
+        kind = type(node)
+        if kind is ast.Name:
+            (loads if type(node.ctx) is ast.Load else others)[node.id] += 1  # type: ignore[attr-defined]
             continue
-        func = call.func
-        name = func.attr if isinstance(func, ast.Attribute) else func.id if isinstance(func, ast.Name) else None
-        if isinstance(func, ast.Name) and name in _DYNAMIC:
-            found.append(ANY_NAME)
-        if name in ("query", "eval"):
-            pattern = _WORD if name == "eval" else _LOCAL
-            if not _literal_text(call):
-                found.append(ANY_NAME)
-            for argument in [*call.args, *(k.value for k in call.keywords)]:
-                for text in ast.walk(argument):
-                    if isinstance(text, ast.Constant) and isinstance(text.value, str):
-                        found.extend(pattern.findall(text.value))
-    return found
+        if kind is ast.Constant:
+            if patterns and isinstance(node.value, str):  # type: ignore[attr-defined]
+                for pattern in patterns:
+                    text.update(pattern.findall(node.value))  # type: ignore[attr-defined]
+            continue
+        if kind is ast.Global or kind is ast.Nonlocal:
+            declared.update(node.names)  # type: ignore[attr-defined]
+            continue
+        if kind is ast.Call:
+            func = node.func  # type: ignore[attr-defined]
+            name = func.attr if type(func) is ast.Attribute else func.id if type(func) is ast.Name else None
+            if type(func) is ast.Name and name in _DYNAMIC:
+                text[ANY_NAME] += 1
+            if name in ("query", "eval"):
+                if not _literal_text(node):  # type: ignore[arg-type]
+                    text[ANY_NAME] += 1
+                inner = (*patterns, _WORD if name == "eval" else _LOCAL)
+                stack.append((func, patterns))
+                stack.extend((argument, inner) for argument in node.args)  # type: ignore[attr-defined]
+                stack.extend((keyword, inner) for keyword in node.keywords)  # type: ignore[attr-defined]
+                continue
+        for field in node._fields:
+            value = getattr(node, field, None)
+            if isinstance(value, ast.AST):
+                stack.append((value, patterns))
+            elif isinstance(value, list):
+                stack.extend((item, patterns) for item in value if isinstance(item, ast.AST))
+    return NameCounts(loads, others, declared, text)
 
 
 def _literal_text(call: ast.Call) -> bool:
@@ -68,11 +126,6 @@ def _literal_text(call: ast.Call) -> bool:
         return True
     text = call.args[0] if call.args else next((k.value for k in call.keywords if k.arg in ("expr", None)), None)
     return isinstance(text, ast.Constant) and isinstance(text.value, str)
-
-
-def mentioned(node: ast.AST) -> set[str]:
-    """Every name a statement or expression reads or writes, in code or through text."""
-    return {n.id for n in ast.walk(node) if isinstance(n, ast.Name)} | set(text_reads(node))
 
 
 def bound(statement: ast.stmt) -> set[str]:
@@ -104,17 +157,18 @@ class Memo:
     def __init__(self) -> None:
         self._last: dict[int, list[Any]] = {}
         self._now: dict[int, list[Any]] = {}
+        self._scopes: dict[int, tuple[ast.AST, Counter[str], Counter[str]]] = {}
 
     def _entry(self, statement: ast.stmt) -> list[Any]:
         entry = self._now.get(id(statement))
         if entry is None:
-            entry = self._now[id(statement)] = self._last.get(id(statement)) or [statement, None, None, None]
+            entry = self._now[id(statement)] = self._last.get(id(statement)) or [statement, None, None]
         return entry
 
-    def mentioned(self, statement: ast.stmt) -> set[str]:
+    def names(self, statement: ast.stmt) -> NameCounts:
         entry = self._entry(statement)
         if entry[1] is None:
-            entry[1] = mentioned(statement)
+            entry[1] = count_names(statement)
         return entry[1]  # type: ignore[no-any-return]
 
     def bound(self, statement: ast.stmt) -> set[str]:
@@ -123,15 +177,21 @@ class Memo:
             entry[2] = bound(statement)
         return entry[2]  # type: ignore[no-any-return]
 
-    def reads(self, statement: ast.stmt) -> Counter[str]:
-        entry = self._entry(statement)
-        if entry[3] is None:
-            entry[3] = reads(statement)
-        return entry[3]  # type: ignore[no-any-return]
+    def scope(self, scope: ast.AST, module: ast.Module) -> tuple[Counter[str], Counter[str]]:
+        """How many times a scope reads each name, and mentions it in any role (`NameCounts`), from
+        one walk; the module's from its statements' names, each kept."""
+        found = self._scopes.get(id(scope))
+        if found is None:
+            counts: tuple[Counter[str], Counter[str]] = (Counter(), Counter())
+            for part in ([self.names(statement) for statement in module.body] if scope is module else [count_names(scope)]):
+                part.count_reads(counts[0])
+                part.count_mentions(counts[1])
+            found = self._scopes[id(scope)] = (scope, *counts)
+        return found[1], found[2]
 
     def turn(self) -> None:
         """Forget the statements the last walk did not ask about."""
-        self._last, self._now = self._now, {}
+        self._last, self._now, self._scopes = self._now, {}, {}
 
 
 class Walked:
@@ -154,7 +214,7 @@ class Walked:
         if self._walls is None:
             self._walls = []
             for number, statement in enumerate(self.statements):
-                names = self._memo.mentioned(statement)
+                names = self._memo.names(statement).mentioned()
                 if not isinstance(statement, _SIMPLE) or ANY_NAME in names:
                     self._walls.append(number)
                     continue
@@ -262,9 +322,9 @@ class Called:
             for node in ast.walk(scope):
                 if node is not scope and isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
                     for part in node.body if isinstance(node.body, list) else [node.body]:
-                        found |= mentioned(part)
+                        found |= count_names(part).mentioned()
                 elif isinstance(node, ast.GeneratorExp):
-                    found |= mentioned(node)
+                    found |= count_names(node).mentioned()
             self._names[id(scope)] = found
         names = self._names[id(scope)]
         return ANY_NAME in names or not frames.isdisjoint(names)
@@ -281,16 +341,6 @@ def inert(statement: ast.stmt) -> bool:
     return all(isinstance(n, (ast.Constant, ast.Name, ast.Tuple, ast.List, ast.Load)) for n in ast.walk(statement.value))
 
 
-def reads(node: ast.AST) -> Counter[str]:
-    """How many times each name is read in `node` (a scope, or a statement of a run). A name
-    is read elsewhere than in a run when its scope reads it more often than the run's
-    statements do (a read inside the run is a barrier of its own: a mask of another frame,
-    or a name the run assigns); counting the scope once serves all its runs."""
-    counted = Counter(n.id for n in ast.walk(node) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Load))
-    counted.update(text_reads(node))
-    return counted
-
-
 def read_elsewhere(counts: Counter[str], inside: Counter[str], name: str) -> str | None:
     """Why the statement binding `name`, the frame a run's step receives, must stay: its scope
     (`counts`, from `reads`) reads it besides the run's own statements (`inside`), or may read
@@ -304,31 +354,17 @@ def read_elsewhere(counts: Counter[str], inside: Counter[str], name: str) -> str
     return f"`{name}`, the frame this step receives, {how}: no step moves across its statement"
 
 
-def mentions(node: ast.AST) -> Counter[str]:
-    """How many times each name appears in `node` in any role (read, bound, deleted, declared
-    `global` or `nonlocal`): a name a run binds may stop being bound only where the run's own
-    statements are all its mentions in the scope."""
-    counted: Counter[str] = Counter()
-    for n in ast.walk(node):
-        if isinstance(n, ast.Name):
-            counted[n.id] += 1
-        elif isinstance(n, (ast.Global, ast.Nonlocal)):
-            counted.update(n.names)
-    counted.update(text_reads(node))
-    return counted
-
-
 #: A member of a run: its statement, the name it assigns, its filter steps.
 Member = tuple[ast.stmt, str, Sequence[Shape]]
 
 
 def joined(members: Sequence[Member], steps: list[Step], scope: ast.AST, positions: Positions,
-           counted: dict[int, Counter[str]], stepped: Sequence[frozenset[str]] = ()) -> list[Step]:
+           memo: Memo, counted: Counter[str], stepped: Sequence[frozenset[str]] = ()) -> list[Step]:
     """The run's steps with `alone` and `merges` set (see `Step`): which statements may become
     one statement when the planner joins their filters into one mask. A name the earlier of two
     statements assigns stops being bound then, so it must be used nowhere else in the scope
-    (`counted`: `mentions` per scope, by `id`, filled when first needed); in a class body it is
-    an attribute, never dropped. A group is written where its first statement was, under the
+    (`counted`: how many times the scope mentions each name, `Memo.scope`); in a class body it
+    is an attribute, never dropped. A group is written where its first statement was, under the
     name its last one assigns, so no statement stepped over before a member (`stepped`: the
     names they mention, per member) may mention the name of that member or a later one."""
     alone = [_alone(statement, shapes, positions) for statement, _, shapes in members]
@@ -339,7 +375,7 @@ def joined(members: Sequence[Member], steps: list[Step], scope: ast.AST, positio
         later_names[number] = {members[number][1]} | (later_names[number + 1] if number + 1 < len(members) else set())
     inside: Counter[str] = Counter()
     for statement, _, _ in members:
-        inside.update(mentions(statement))
+        memo.names(statement).count_mentions(inside)
     named = isinstance(scope, (ast.Module, ast.FunctionDef, ast.AsyncFunctionDef))
     out = []
     for step in steps:
@@ -349,9 +385,7 @@ def joined(members: Sequence[Member], steps: list[Step], scope: ast.AST, positio
             merges = False
         name = members[number - 1][1] if number > 0 else ""
         if merges and name != members[number][1]:
-            if id(scope) not in counted:
-                counted[id(scope)] = mentions(scope)
-            merges = named and counted[id(scope)][name] == inside[name] and not counted[id(scope)][ANY_NAME]
+            merges = named and counted[name] == inside[name] and not counted[ANY_NAME]
         out.append(replace(step, alone=alone[number], merges=merges))
     return out
 
