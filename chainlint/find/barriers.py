@@ -108,3 +108,16 @@ def frame_reason(method: str, of: str) -> str:
     if method in _REDUCTIONS:
         return f"reads {_REDUCTIONS[method]} of {of} over the rows it receives"
     return _PHRASES[method].format(of=of)
+
+
+def receiver_read_elsewhere(name: str, at_run_time: bool) -> str:
+    """The reason a step of a statement run stays: `name`, the frame it receives, is read
+    besides the run (by name at run time, when its scope calls `eval`, `locals`, ...)."""
+    how = "may be read by name at run time (`eval`, `locals()`, ...)" if at_run_time else "is read elsewhere"
+    return f"`{name}`, the frame this step receives, {how}: no step moves across its statement"
+
+
+def assigned_between(name: str) -> str:
+    """The reason a step of a statement run stays: a statement between its filter and the one
+    before assigns `name`, which a filter of the run reads."""
+    return f"`{name}` is assigned between this filter and the one before: no step moves across that statement"

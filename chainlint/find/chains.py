@@ -13,6 +13,7 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass, replace
 
 from chainlint.model import Barrier, BarrierKind, Chain, ChainForm, FrameOrigin, Span, Step, StepKind
+from chainlint.find.barriers import assigned_between
 from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
 from chainlint.find.fused import conjunct_shapes
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
@@ -355,8 +356,7 @@ class _Finder:
             if elsewhere:
                 built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, elsewhere))
             elif member.fence is not None:
-                reason = f"`{member.fence}` is assigned between this filter and the one before: no step moves across that statement"
-                built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, reason))
+                built[0] = replace(built[0], barrier=Barrier(BarrierKind.FRAME, assigned_between(member.fence)))
             steps.extend(built)
         steps = joined([(m.statement, m.target, m.decomposed.shapes) for m in members], steps, scope, self.positions, self.memo,
                        scope_mentions, [m.stepped for m in members])

@@ -19,6 +19,7 @@ from collections.abc import Sequence
 from dataclasses import replace
 from typing import Any
 
+from chainlint.find.barriers import receiver_read_elsewhere
 from chainlint.find.positions import Positions
 from chainlint.find.shapes import Shape
 from chainlint.model import Step
@@ -343,15 +344,13 @@ def inert(statement: ast.stmt) -> bool:
 
 def read_elsewhere(counts: Counter[str], inside: Counter[str], name: str) -> str | None:
     """Why the statement binding `name`, the frame a run's step receives, must stay: its scope
-    (`counts`, from `reads`) reads it besides the run's own statements (`inside`), or may read
+    (`counts`, `Memo.scope`) reads it besides the run's own statements (`inside`), or may read
     any name at run time; else None."""
     if counts[ANY_NAME]:
-        how = "may be read by name at run time (`eval`, `locals()`, ...)"
-    elif counts[name] > inside[name]:
-        how = "is read elsewhere"
-    else:
-        return None
-    return f"`{name}`, the frame this step receives, {how}: no step moves across its statement"
+        return receiver_read_elsewhere(name, at_run_time=True)
+    if counts[name] > inside[name]:
+        return receiver_read_elsewhere(name, at_run_time=False)
+    return None
 
 
 #: A member of a run: its statement, the name it assigns, its filter steps.
