@@ -16,6 +16,7 @@ from chainlint.model import Barrier, BarrierKind, Chain, ChainForm, FrameOrigin,
 from chainlint.find.barriers import assigned_between
 from chainlint.find.bindings import ModuleBindings, Resolved, dotted_name
 from chainlint.find.fused import conjunct_shapes
+from chainlint.find.joining import with_apart
 from chainlint.find.origins import Origins, keep_comment, near, profile_comment
 from chainlint.find.positions import Positions
 from chainlint.find.runs import Called, Fences, Memo, Walked, count_names, inert, inplace_dropna, joined, read_elsewhere
@@ -220,9 +221,13 @@ class _Finder:
         frame = self.positions.text_of(decomposed.base)
         root = dotted_name(decomposed.base)
         outer = frozenset([root]) if root else frozenset()
-        steps = self.steps(decomposed, root, outer, statement=0)
+        steps = with_apart(self.steps(decomposed, root, outer, statement=0), decomposed.shapes, self.positions, self.class_body())
         span = self.positions.node_span(node)
         return Chain(self.source.path, span, frame, ChainForm.METHOD, steps, self.origins.lookup(root, decomposed.base), near(self.source.lines, span.line, profile_comment), near(self.source.lines, span.line, keep_comment))
+
+    def class_body(self) -> bool:
+        """Whether the code walked runs in a class body's own scope."""
+        return isinstance(self.scope, ast.ClassDef) and not self.nested
 
     def resolver(self, nested: bool = False, query: bool = False) -> Callable[[str], Resolved]:
         """Names as the code (`nested`: a lambda or comprehension; a query's text) reads them."""
@@ -360,6 +365,8 @@ class _Finder:
             steps.extend(built)
         steps = joined([(m.statement, m.target, m.decomposed.shapes) for m in members], steps, scope, self.positions, self.memo,
                        scope_mentions, [m.stepped for m in members])
+        shapes = [shape for member in members for shape in member.decomposed.shapes]
+        steps = list(with_apart(steps, shapes, self.positions, self.class_body(), run=True))
         start = self.positions.node_span(members[0].statement)
         end = self.positions.node_span(members[-1].statement)
         span = Span(start.line, start.column, end.end_line, end.end_column)

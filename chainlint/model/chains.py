@@ -104,7 +104,8 @@ class Step:
     `name = frame<step>` standing alone on its lines (nothing else on them but a comment, no
     walrus), and `merges` that this statement and the one before it are both so and that the
     name the one before assigns is this one's or is used nowhere else in its scope: the two may
-    become one statement, that name no longer bound.
+    become one statement, that name no longer bound. `apart` says why a step joins no mask with
+    others though it may move: the rewriter could not write them as one (`find/joining.py`).
     """
 
     kind: StepKind
@@ -119,6 +120,7 @@ class Step:
     conjunct: Span | None = None
     alone: bool = False
     merges: bool = False
+    apart: str | None = None
 
     @property
     def movable(self) -> bool:

@@ -300,10 +300,11 @@ def _statements_join(chain: Chain, limits: tuple[Limit | None, ...]) -> list[boo
 
 def _family(step: Step, limit: Limit | None, dtypes: dict[str, str]) -> str | None:
     """Which form of mask the step may join (`mask` for lambdas and masks, `query`), or None
-    when it must run alone: a step that stays or a `dropna`, or a predicate whose value may
+    when it must run alone: a step that stays or a `dropna`, one the rewriter could not write
+    inside one mask (`Step.apart`), or a predicate whose value may
     not be booleans (a column used as a mask that is not of a boolean dtype: `&` of integers
     is a bitwise integer, not a mask)."""
-    if limit is None or limit.moves == STAYS or not _boolean(step.predicate, dtypes):
+    if limit is None or limit.moves == STAYS or step.apart or not _boolean(step.predicate, dtypes):
         return None
     if step.kind is StepKind.QUERY:
         return "query"

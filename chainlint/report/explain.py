@@ -30,6 +30,7 @@ def step_record(step: Step) -> dict[str, Any]:
         "barrier": step.barrier.kind.value if step.barrier else None,
         "reason": step.barrier.reason if step.barrier else None,
         "mask_frame": step.mask_frame.value if step.mask_frame else None,
+        "apart": step.apart,
         "conjunct": None if step.conjunct is None else {
             "line": step.conjunct.line, "column": step.conjunct.column,
             "end_line": step.conjunct.end_line, "end_column": step.conjunct.end_column,
@@ -120,6 +121,9 @@ def _plan_text(item: PlannedChain) -> str:
         f"  written {duration(plan.written_seconds)}, planned {duration(plan.planned_seconds)} "
         f"({plan.speedup:.2f}x), fused into one mask {duration(plan.fused_seconds)}"
     )
+    for number, (step, limit) in enumerate(zip(item.chain.steps, plan.limits), start=1):
+        if step.apart and limit is not None and limit.moves != STAYS:
+            lines.append(printable(f"  step {number} joins no mask: {step.apart}"))
     if item.chain.form is ChainForm.MASK and any(limit is None or limit.moves != ANY for limit in plan.limits):
         lines.append("  kept whole: a conjunct that may raise or give missing values on its own is not split from the mask")
     return "\n".join(lines) + "\n"

@@ -21,6 +21,7 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
+from chainlint.find.joining import query_text
 from chainlint.ir import Or
 from chainlint.model import Chain, ChainForm, Edit, Span, Step, StepKind
 from chainlint.parse.source import SourceText
@@ -235,18 +236,21 @@ def query_group(source: SourceText, steps: Sequence[Step], comments, indent: str
     texts, keywords = [], None
     for step in steps:
         code, tree = _parsed(_step_text(source, step))
-        if not (isinstance(tree, ast.Call) and len(tree.args) == 1 and isinstance(tree.args[0], ast.Constant)
-                and isinstance(tree.args[0].value, str)):
+        literal = query_text(tree) if isinstance(tree, ast.Call) else None
+        if literal is None:
             raise RewriteError("a query to fuse does not hold its text as one literal")
-        mine = [_segment(code, k) for k in tree.keywords]
+        mine = [_segment(code, k) for k in tree.keywords if k.arg != "expr"]  # type: ignore[attr-defined]
         if keywords is not None and mine != keywords:
             raise RewriteError("queries to fuse pass different options")
         keywords = mine
-        value = tree.args[0].value
+        value = literal.value
         texts.append(f"({value})" if isinstance(step.predicate, Or) else value)
+    if any("\n" in t or "\r" in t for t in texts):
+        raise RewriteError("a query to fuse holds a line break")
+    # The joined text is the same string value whatever the quotes: a backslash or the quote
+    # inside it is escaped (Python's string literal rules).
     quote = '"' if not any('"' in t for t in texts) else "'"
-    if any(quote in t or "\\" in t or "\n" in t or "\r" in t for t in texts):
-        raise RewriteError("the queries to fuse hold quotes or backslashes of both kinds")
+    texts = [t.replace("\\", "\\\\").replace(quote, "\\" + quote) for t in texts]
     if any(lead or trail for lead, trail in comments):
         literal = quote + texts[0] + quote
         for k in range(1, len(texts)):
