@@ -48,14 +48,14 @@ def plan_results(results: Sequence[FileAnalysis], options: Options,
     `stores` may be kept by a caller that plans again (the editor, after each change): a store
     whose files did not change is not read again, nor its estimators made again."""
     planned: list[PlannedChain] = []
-    errors: dict[str, FileProblem] = {}
+    errors: dict[tuple[str, int, int, str], FileProblem] = {}  # each store's problems once, however many files read it
     stores = LoadedStores() if stores is None else stores
     for result in results:
         if not result.chains:
             continue
         loaded = stores.load((options.store or find_store(Path(result.path))).resolve())
         for error in loaded.errors:
-            errors.setdefault(error.message, error)
+            errors.setdefault((error.path, error.line, error.column, error.message), error)
         planned.extend(plan_chains(result.chains, loaded, options))
     return planned, list(errors.values())
 

@@ -55,5 +55,7 @@ def load_cost_model(store: Path) -> tuple[CostModel, FileProblem | None]:
     try:
         return model_from_json(check_cost_model(read_json(path, SMALL_BYTES), path)), None
     except (OSError, ValueError) as error:  # DocumentError is a ValueError
-        detail = error.detail if isinstance(error, ChainlintError) else str(error)
-        return DEFAULT_MODEL, FileProblem.of(ChainlintError(f"cannot use the calibrated cost model: {detail}", path=str(path)), str(path))
+        reason = error.reason if isinstance(error, ChainlintError) else str(error)
+        line, column = (error.line, error.column) if isinstance(error, ChainlintError) else (None, None)
+        problem = ChainlintError(f"cannot use the calibrated cost model: {reason}", path=str(path), line=line, column=column)
+        return DEFAULT_MODEL, FileProblem.of(problem, str(path))

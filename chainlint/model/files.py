@@ -23,8 +23,8 @@ class FileProblem:
     @classmethod
     def of(cls, error: ChainlintError, default_path: str) -> FileProblem:
         """An error as a file's problem, at the place it names (`default_path`, line 1 when it
-        names none)."""
-        return cls(error.path or default_path, error.line or 1, error.column or 1, error.message)
+        names none); the message is the reason alone, since reports print the place before it."""
+        return cls(error.path or default_path, error.line or 1, error.column or 1, error.reason)
 
 
 @dataclass(frozen=True)
