@@ -233,7 +233,7 @@ def profile(data: Sequence[str], name: str, store: str | None, min_count: int, r
     try:
         made = make_profile(data, name, store_folder(store), settings, csv_from(**reader), sources, not no_joint,  # type: ignore[arg-type]
                             batch_rows, progress, lambda note: click.echo(note, err=True),
-                            (lambda *counted: _on_cluster(dask, dask_within, *counted)) if dask else None)
+                            (lambda *counted: _on_cluster(dask, dask_within, *counted)) if dask else None, progress.files)
     except (DataError, StoreError, ProfileError, ConfigError) as error:
         fail(str(error))
     progress.done()

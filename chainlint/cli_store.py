@@ -38,7 +38,8 @@ EXIT_OK, EXIT_FINDINGS, EXIT_ERROR = 0, 1, 2
 
 
 class Progress:
-    """Rows done, rows per second and elapsed time on a terminal; silent otherwise."""
+    """Files read for chains, then rows done, rows per second and elapsed time, on a terminal;
+    silent otherwise."""
 
     def __init__(self, enabled: bool) -> None:
         self.enabled = enabled
@@ -53,6 +54,14 @@ class Progress:
         elapsed = now - self.start
         rate = rows / elapsed if elapsed > 0 else 0.0
         click.echo(f"\r  {rows:>14,} rows  {rate:>12,.0f} rows/s  {elapsed:6.1f} s", nl=False, err=True)
+
+    def files(self, done: int, total: int) -> None:
+        """Files read for the project's chains (before any row: a large folder takes a while)."""
+        now = time.monotonic()
+        if not self.enabled or (now - self.shown < 0.1 and done < total):
+            return
+        self.shown = now
+        click.echo(f"\r  looking for chains: {done:,} of {total:,} files", nl=False, err=True)
 
     def done(self) -> None:
         if self.enabled:

@@ -233,3 +233,26 @@ def test_fix_then_a_model_calibrated_elsewhere_keeps_the_order_written(flights_s
     assert explained["chains"] and all(
         c["groups"] == ([list(range(len(c["steps"])))] if c["form"] == "mask" else [[i] for i in range(len(c["steps"]))])
         for c in explained["chains"])
+
+
+def test_profile_in_a_folder_no_marker_makes_a_project_reads_its_own_files_only(flights_store: Path, tmp_path: Path,
+                                                                                  monkeypatch: pytest.MonkeyPatch) -> None:
+    """A home folder, say: with no pyproject.toml, chainlint.toml or .git, `profile` (no
+    `--for`) looked for chains in every subfolder, however large, and again on every later run,
+    the store it made being a marker. Now it reads the folder's own files, and says so."""
+    home = tmp_path / "home"
+    (home / "downloads" / "old").mkdir(parents=True)
+    (home / "flights.parquet").write_bytes((flights_store / "data" / "flights.parquet").read_bytes())
+    (home / "mine.py").write_text(CORRELATED)
+    (home / "downloads" / "old" / "theirs.py").write_text(CORRELATED)
+    monkeypatch.chdir(home)
+    for _ in range(2):  # the second run finds the store the first made
+        result = CliRunner().invoke(main, ["profile", "flights.parquet", "--name", "flights"])
+        assert result.exit_code == 0, result.output
+        assert "holds no pyproject.toml, chainlint.toml or .git" in result.output and "--for SRC" in result.output
+        (entry,) = json.loads((home / ".chainlint" / "profiles" / "flights.json").read_text())["joint"]
+        assert entry["chains"] == ["mine.py:frame"]
+    result = CliRunner().invoke(main, ["profile", "flights.parquet", "--name", "flights", "--for", "downloads"])
+    assert result.exit_code == 0 and "holds no" not in result.output
+    (entry,) = json.loads((home / ".chainlint" / "profiles" / "flights.json").read_text())["joint"]
+    assert entry["chains"] == ["downloads/old/theirs.py:frame"]

@@ -3,14 +3,14 @@
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import replace
 from pathlib import Path
 
 from chainlint.bind.binding import bind_chain
 from chainlint.bind.profiles import ProfileSet
 from chainlint.engine.options import Options
-from chainlint.engine.run import analyse_files
+from chainlint.engine.run import analyse_file
 from chainlint.discover import discover
 from chainlint.model import Chain
 from chainlint.profile.errors import DataError
@@ -18,10 +18,16 @@ from chainlint.profile.read_options import CsvOptions, command_flags, options_fr
 from chainlint.profile.view import ColumnProfile, Profile, ProfileSettings, RecordedFile, Source
 
 
-def project_chains(sources: Sequence[str]) -> list[Chain]:
-    """Every chain the finder sees in SRC (files it cannot read are left out)."""
-    found = discover(sources)
-    return [chain for result in analyse_files(found.files, jobs=1) for chain in result.chains]
+def project_chains(sources: Sequence[str], walked: Callable[[int, int], None] | None = None) -> list[Chain]:
+    """Every chain the finder sees in SRC (files it cannot read are left out); `walked` is
+    told, file by file, how many files were read and how many there are."""
+    files = discover(sources).files
+    chains: list[Chain] = []
+    for done, result in enumerate(map(analyse_file, files), start=1):
+        chains.extend(result.chains)
+        if walked is not None:
+            walked(done, len(files))
+    return chains
 
 
 def code_read_options(chains: Sequence[Chain], data: Sequence[str]) -> tuple[CsvOptions | None, str | None]:
