@@ -84,13 +84,7 @@ def statement_runs(draw):
 def _names_free(predicate) -> bool:
     """Whether a predicate reads no free name: the generated names are bound nowhere, so a step
     reading one may compare with a Series and stays in place."""
-    stack = [predicate]
-    while stack:
-        node = stack.pop()
-        if isinstance(node, Named):
-            return False
-        stack.extend(node.children())
-    return True
+    return not any(isinstance(node, Named) for node in predicate.walk())
 
 
 def _single_chain(source: str):

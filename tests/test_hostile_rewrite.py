@@ -43,9 +43,9 @@ def _fix(path: Path) -> str:
     return path.read_text()
 
 
-def _run(source: str, frame: pd.DataFrame) -> Any:
-    """`out` as the module computes it from `frame`, or the exception it raises."""
-    scope: dict[str, Any] = {"df": frame.copy()}
+def _run(source: str, frame: pd.DataFrame, **names: Any) -> Any:
+    """`out` as the module computes it from `frame` (with `names` in scope too), or the exception it raises."""
+    scope: dict[str, Any] = {"df": frame.copy(), **names}
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         try:
@@ -130,17 +130,22 @@ def _class_frame() -> pd.DataFrame:
     })
 
 
-def test_a_lambda_in_a_class_body_reads_the_module_name_not_the_class_one(tmp_path: Path) -> None:
-    """A lambda does not see the class body's names: its `X` is the module's 5, which `str`
-    values raise against on any row (pandas 3.1), so the step may not move before a filter
-    that leaves no row. find/chains.py: a lambda's names resolve as a nested scope's."""
+def _class_case(tmp_path: Path, body: str) -> None:
+    """The module `body` fixed, then run beside the code as written on `_class_frame` and its
+    variants (pandas executes both: the judge of the rows)."""
     frame = _class_frame()
-    body = 'X = 5\n\n\nclass K:\n    X = "a"\n    out = df.loc[lambda d: d.b == 99].loc[lambda d: d.s > X]\n\n\nout = K.out\n'
     path = _project(tmp_path, frame, body)
     written = path.read_text()
     fixed = _fix(path)
     for variant in [*_variants(frame).values(), frame.assign(b=1)]:
         _same(_run(written, variant), _run(fixed, variant))
+
+
+def test_a_lambda_in_a_class_body_reads_the_module_name_not_the_class_one(tmp_path: Path) -> None:
+    """A lambda does not see the class body's names: its `X` is the module's 5, which `str`
+    values raise against on any row (pandas 3.1), so the step may not move before a filter
+    that leaves no row. find/chains.py: a lambda's names resolve as a nested scope's."""
+    _class_case(tmp_path, 'X = 5\n\n\nclass K:\n    X = "a"\n    out = df.loc[lambda d: d.b == 99].loc[lambda d: d.s > X]\n\n\nout = K.out\n')
 
 
 @pytest.mark.parametrize("chain", [
@@ -152,13 +157,7 @@ def test_a_comprehension_in_a_class_body_reads_the_module_name(tmp_path: Path, c
     """A comprehension or generator runs as a nested function: in a class body it sees the
     module's `X = 5`, not the class's `X = "a"` (a query's `@X` too: pandas reads the
     generator's frame). find/chains.py: its names resolve past the class."""
-    frame = _class_frame()
-    body = f'X = 5\n\n\nclass K:\n    X = "a"\n    out = {chain}\n\n\nout = K.out\n'
-    path = _project(tmp_path, frame, body)
-    written = path.read_text()
-    fixed = _fix(path)
-    for variant in [*_variants(frame).values(), frame.assign(b=1)]:
-        _same(_run(written, variant), _run(fixed, variant))
+    _class_case(tmp_path, f'X = 5\n\n\nclass K:\n    X = "a"\n    out = {chain}\n\n\nout = K.out\n')
 
 
 @pytest.mark.parametrize("inner", [
@@ -169,13 +168,7 @@ def test_a_query_does_not_see_an_enclosing_functions_names(tmp_path: Path, inner
     """pandas resolves `@X` in the frame that calls `query`: a nested function's frame holds
     the enclosing `X = "a"` only where its code mentions `X`, so here `@X` is the module's 5
     (pandas 3.1). find/bindings.py: such a name is not proven single; the step stays."""
-    frame = _class_frame()
-    body = f'X = 5\n\n\ndef f(df):\n    X = "a"\n{inner}    return g(df)\n\n\nout = f(df)\n'
-    path = _project(tmp_path, frame, body)
-    written = path.read_text()
-    fixed = _fix(path)
-    for variant in [*_variants(frame).values(), frame.assign(b=1)]:
-        _same(_run(written, variant), _run(fixed, variant))
+    _class_case(tmp_path, f'X = 5\n\n\ndef f(df):\n    X = "a"\n{inner}    return g(df)\n\n\nout = f(df)\n')
 
 
 @pytest.mark.parametrize("body", [
@@ -387,23 +380,12 @@ def test_a_frame_read_through_computed_text_keeps_its_statement(tmp_path: Path, 
     written = path.read_text()
     fixed = _fix(path)
     for variant in _variants(frame).values():
-        before, after = _run_with(written, variant), _run_with(fixed, variant)
+        other = variant.iloc[::3].copy()  # a second frame
+        before, after = _run(written, variant, other=other), _run(fixed, variant, other=other)
         assert not isinstance(before, Exception), before
         assert not isinstance(after, Exception), f"the fix raises {type(after).__name__}: {after}\n{fixed}"
         for old, new in zip(before, after):
             pd.testing.assert_frame_equal(new, old, check_exact=True, check_index_type="equiv", check_freq=False)
-
-
-def _run_with(source: str, frame: pd.DataFrame) -> Any:
-    """`out` as `_run` gives it, with `other` (a second frame) in scope."""
-    scope: dict[str, Any] = {"df": frame.copy(), "other": frame.iloc[::3].copy()}
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        try:
-            exec(compile(source, "<pipeline>", "exec"), scope)
-        except Exception as error:  # noqa: BLE001 - the exception is what is compared
-            return error
-    return scope["out"]
 
 
 @pytest.mark.parametrize(("code", "any_name"), [
@@ -417,9 +399,9 @@ def _run_with(source: str, frame: pd.DataFrame) -> Any:
 def test_which_text_calls_may_read_any_name(code: str, any_name: bool) -> None:
     import ast
 
-    from chainlint.find.runs import ANY_NAME, text_reads
+    from chainlint.find.runs import ANY_NAME, count_names
 
-    assert (ANY_NAME in text_reads(ast.parse(code))) is any_name
+    assert (ANY_NAME in count_names(ast.parse(code)).text) is any_name
 
 
 # -- the dtypes the code's own read call gives ---------------------------------------------------

@@ -40,10 +40,4 @@ def uncountable(node: Node) -> str | None:
     reason = unevaluable(node)
     if reason:
         return reason
-    stack = [node]
-    while stack:
-        part = stack.pop()
-        if isinstance(part, NumericTest):
-            return PARSES_NUMBERS
-        stack.extend(part.children())
-    return None
+    return PARSES_NUMBERS if any(isinstance(part, NumericTest) for part in node.walk()) else None

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import keyword
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Iterator, Mapping
 from dataclasses import dataclass
 from typing import Any, Generic, TypeVar, Union
 
@@ -33,14 +33,15 @@ class Node:
 
     def columns(self) -> frozenset[str]:
         """The column names this node reads."""
-        found: set[str] = set()
+        return frozenset(node.name for node in self.walk() if isinstance(node, Column))
+
+    def walk(self) -> Iterator[Node]:
+        """This node and every node below it (depth first, no order promised)."""
         stack: list[Node] = [self]
         while stack:
             node = stack.pop()
-            if isinstance(node, Column):
-                found.add(node.name)
+            yield node
             stack.extend(node.children())
-        return frozenset(found)
 
     def children(self) -> tuple[Node, ...]:
         """The nodes directly below this one (values, operands, parts, options)."""
