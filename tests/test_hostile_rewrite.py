@@ -399,7 +399,7 @@ def test_a_frame_read_through_computed_text_keeps_its_statement(tmp_path: Path, 
 def test_which_text_calls_may_read_any_name(code: str, any_name: bool) -> None:
     import ast
 
-    from chainlint.find.runs import ANY_NAME, count_names
+    from chainlint.find.name_walk import ANY_NAME, count_names
 
     assert (ANY_NAME in count_names(ast.parse(code)).text) is any_name
 
@@ -509,7 +509,8 @@ def test_a_statement_between_a_run_s_filters_naming_its_last_name_stays_after_it
     written = path.read_text()
     fixed = _fix(path)
     for variant in _variants(frame).values():
-        before, after = _run_with(written, variant), _run_with(fixed, variant)
+        other = variant.iloc[::3].copy()  # a second frame
+        before, after = _run(written, variant, other=other), _run(fixed, variant, other=other)
         assert not isinstance(before, Exception), before
         assert not isinstance(after, Exception), f"the fix raises {type(after).__name__}: {after}\n{fixed}"
         pd.testing.assert_frame_equal(after[0], before[0], check_exact=True, check_index_type="equiv", check_freq=False)
@@ -581,7 +582,8 @@ def test_a_run_does_not_step_over_a_call_of_code_that_reads_its_frame(tmp_path: 
     written = path.read_text()
     fixed = _fix(path)
     for variant in _variants(frame).values():
-        before, after = _run_with(written, variant), _run_with(fixed, variant)
+        other = variant.iloc[::3].copy()  # a second frame
+        before, after = _run(written, variant, other=other), _run(fixed, variant, other=other)
         assert not isinstance(before, Exception), before
         assert not isinstance(after, Exception), f"the fix raises {type(after).__name__}: {after}\n{fixed}"
         for old, new in zip([before[0], *before[1]], [after[0], *after[1]]):
@@ -637,7 +639,7 @@ def _runs_with_statements_between(draw):  # type: ignore[no-untyped-def]
 
 
 def _outcome(source: str, frame: pd.DataFrame) -> Any:
-    result = _run_with(source, frame)
+    result = _run(source, frame, other=frame.iloc[::3].copy())
     return result if isinstance(result, Exception) else [result[0], *result[1]]
 
 

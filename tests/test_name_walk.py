@@ -1,4 +1,4 @@
-"""The run scan's one walk over a statement (`find.runs.count_names`) against the plain
+"""The run scan's one walk over a statement (`find.name_walk.count_names`) against the plain
 definition it replaced: names from `ast.walk` by role, and names read through text from a
 second walk over each `query`/`eval` call's arguments (the standard library's `ast.walk` is
 the reference)."""
@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pytest
 
-from chainlint.find.runs import ANY_NAME, count_names
+from chainlint.find.name_walk import ANY_NAME, count_names
 
 ROOT = Path(__file__).parent.parent
 LOCAL = re.compile(r"@([A-Za-z_][A-Za-z_0-9]*)")
