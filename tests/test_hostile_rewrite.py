@@ -12,6 +12,7 @@ from __future__ import annotations
 import json
 import re
 import warnings
+from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
@@ -360,6 +361,21 @@ _COMPUTED_TEXT = {
 }
 
 
+def _both_runs(tmp_path: Path, body: str) -> Iterator[tuple[Any, Any]]:
+    """`out` of the module `body` as written and as fixed, on each variant of `_text_frame`
+    with `other`, a second frame, in scope; neither may raise (pandas runs both: the judge)."""
+    frame = _text_frame()
+    path = _project(tmp_path, frame, body)
+    written = path.read_text()
+    fixed = _fix(path)
+    for variant in _variants(frame).values():
+        other = variant.iloc[::3].copy()  # a second frame
+        before, after = _run(written, variant, other=other), _run(fixed, variant, other=other)
+        assert not isinstance(before, Exception), before
+        assert not isinstance(after, Exception), f"the fix raises {type(after).__name__}: {after}\n{fixed}"
+        yield before, after
+
+
 @pytest.mark.parametrize("name", sorted(_COMPUTED_TEXT))
 @pytest.mark.parametrize("where", ["stepped over", "after a renamed run"])
 def test_a_frame_read_through_computed_text_keeps_its_statement(tmp_path: Path, name: str, where: str) -> None:
@@ -375,15 +391,7 @@ def test_a_frame_read_through_computed_text_keeps_its_statement(tmp_path: Path, 
     else:
         body = (setup.format(frame="north") + "north = df[df.a > 1]\nlate = north[north.s == 'an']\nextra = "
                 + call.format(frame="north") + "\nout = (late, extra)\n")
-    frame = _text_frame()
-    path = _project(tmp_path, frame, body)
-    written = path.read_text()
-    fixed = _fix(path)
-    for variant in _variants(frame).values():
-        other = variant.iloc[::3].copy()  # a second frame
-        before, after = _run(written, variant, other=other), _run(fixed, variant, other=other)
-        assert not isinstance(before, Exception), before
-        assert not isinstance(after, Exception), f"the fix raises {type(after).__name__}: {after}\n{fixed}"
+    for before, after in _both_runs(tmp_path, body):
         for old, new in zip(before, after):
             pd.testing.assert_frame_equal(new, old, check_exact=True, check_index_type="equiv", check_freq=False)
 
@@ -504,15 +512,7 @@ def test_a_statement_between_a_run_s_filters_naming_its_last_name_stays_after_it
         body = "\n".join(lines) + "\nout = (late, log if 'log' in dir() else [])\n"
     else:
         body = "def f(df, other):\n    log = []\n" + "".join(f"    {line}\n" for line in lines) + "    return late, log\n\n\nout = f(df, other)\n"
-    frame = _text_frame()
-    path = _project(tmp_path, frame, body)
-    written = path.read_text()
-    fixed = _fix(path)
-    for variant in _variants(frame).values():
-        other = variant.iloc[::3].copy()  # a second frame
-        before, after = _run(written, variant, other=other), _run(fixed, variant, other=other)
-        assert not isinstance(before, Exception), before
-        assert not isinstance(after, Exception), f"the fix raises {type(after).__name__}: {after}\n{fixed}"
+    for before, after in _both_runs(tmp_path, body):
         pd.testing.assert_frame_equal(after[0], before[0], check_exact=True, check_index_type="equiv", check_freq=False)
         assert len(after[1]) == len(before[1])
         for old, new in zip(before[1], after[1]):
