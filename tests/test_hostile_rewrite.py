@@ -577,19 +577,12 @@ def test_a_run_does_not_step_over_a_call_of_code_that_reads_its_frame(tmp_path: 
     run = f"out = df[df.a > 1]\nnote = 'kept'\nshow()\nout = out[out.s {operator} 'an']\n"
     body = "LOG = []\n" + case.format(run=run, indented="".join(f"    {line}\n" for line in run.splitlines()))
     body += "out = (out, LOG)\n"
-    frame = _text_frame()
-    path = _project(tmp_path, frame, body)
-    written = path.read_text()
-    fixed = _fix(path)
-    for variant in _variants(frame).values():
-        other = variant.iloc[::3].copy()  # a second frame
-        before, after = _run(written, variant, other=other), _run(fixed, variant, other=other)
-        assert not isinstance(before, Exception), before
-        assert not isinstance(after, Exception), f"the fix raises {type(after).__name__}: {after}\n{fixed}"
+    for before, after in _both_runs(tmp_path, body):
         for old, new in zip([before[0], *before[1]], [after[0], *after[1]]):
             pd.testing.assert_frame_equal(new, old, check_exact=True, check_index_type="equiv", check_freq=False)
     if "globals" not in case:
         plain = re.sub(r"^ *show\(\)\n", "", body, flags=re.M)  # with no call between, the filters still move
+        path = tmp_path / "pipeline.py"  # the module _both_runs wrote
         path.write_text("import pandas as pd\n\n" + plain)
         assert _fix(path) != "import pandas as pd\n\n" + plain
 
